@@ -1,0 +1,11 @@
+/**
+ * The command registry. Each command file exports a `register(program, setExit)` function;
+ * add a line here to make it part of the CLI.
+ */
+import type { Command } from 'commander';
+
+/** Adds one subcommand to the program. `setExit` records the process exit code. */
+export type RegisterCommand = (program: Command, setExit: (code: number) => void) => void;
+
+export const COMMANDS: RegisterCommand[] = [
+];
