@@ -1,0 +1,466 @@
+/**
+ * Syntax tree → grammar IR, with every check that needs only one declaration or one constructor
+ * at a time: names, types, literals, regular expressions, layouts, operator shapes. Whole-grammar
+ * analyses (productivity, reachability, ambiguity, left recursion) live in analysis.ts and run on
+ * the IR only when this pass found no error.
+ */
+import { parse as parseRegex } from 'regjsparser';
+import type {
+  Cardinality,
+  Constructor,
+  Field,
+  FieldType,
+  Grammar,
+  LayoutItem,
+  NameSet,
+  Operator,
+  Scoping,
+  Sort,
+  Span,
+  TokenClass,
+  ValueKind,
+} from './ir.ts';
+import * as E from './errors.ts';
+import type { Diagnostic } from './errors.ts';
+import type { CtorAst, DeclAst, DescriptionAst, ItemAst, RegexLit, StrLit } from './syntax.ts';
+import { lineColumn } from '../util/source.ts';
+
+const VALUE_KINDS: readonly ValueKind[] = ['text', 'int', 'number', 'json-string', 'sql-string'];
+
+type TypeKind = 'sort' | 'token class' | 'name set';
+
+/** Decodes a JSON string literal; on failure the offset (absolute) and a description of the problem. */
+export function decodeString(lit: StrLit): { value: string } | { at: Span; detail: string } {
+  const raw = lit.raw;
+  const base = lit.span.start;
+  for (let i = 1; i < raw.length - 1; i++) {
+    const c = raw.charCodeAt(i);
+    if (c < 0x20) {
+      return { at: { start: base + i, end: base + i + 1 }, detail: 'control character must be escaped' };
+    }
+    if (c === 92 /* \ */) {
+      const n = raw[i + 1] ?? '';
+      if (n === 'u') {
+        if (!/^[0-9A-Fa-f]{4}$/.test(raw.slice(i + 2, i + 6))) {
+          return { at: { start: base + i, end: base + Math.min(i + 6, raw.length - 1) }, detail: '`\\u` must be followed by four hex digits' };
+        }
+        i += 5;
+      } else if ('"\\/bfnrt'.includes(n) && n !== '') {
+        i += 1;
+      } else {
+        return { at: { start: base + i, end: base + i + 2 }, detail: `unknown escape \`\\${n}\`` };
+      }
+    }
+  }
+  return { value: JSON.parse(raw) as string };
+}
+
+/** Offset of a regjsparser failure, parsed from its message ("... at position N"). */
+function regexErrorPosition(message: string): number | null {
+  const m = /at position (\d+)/.exec(message);
+  return m ? Number(m[1]) : null;
+}
+
+/** Small edit distance, for "did you mean" hints. */
+function distance(a: string, b: string): number {
+  const prev = new Array<number>(b.length + 1);
+  for (let j = 0; j <= b.length; j++) prev[j] = j;
+  for (let i = 1; i <= a.length; i++) {
+    let diag = prev[0]!;
+    prev[0] = i;
+    for (let j = 1; j <= b.length; j++) {
+      const tmp = prev[j]!;
+      prev[j] = Math.min(prev[j]! + 1, prev[j - 1]! + 1, diag + (a[i - 1] === b[j - 1] ? 0 : 1));
+      diag = tmp;
+    }
+  }
+  return prev[b.length]!;
+}
+
+function suggest(name: string, candidates: Iterable<string>): string | null {
+  let best: string | null = null;
+  let bestD = Infinity;
+  for (const c of candidates) {
+    const d = distance(name.toLowerCase(), c.toLowerCase());
+    if (d < bestD) {
+      bestD = d;
+      best = c;
+    }
+  }
+  return best !== null && bestD <= Math.max(1, Math.floor(name.length / 3)) ? best : null;
+}
+
+const CARDS: Record<string, Cardinality> = { '?': 'optional', '*': 'list', '+': 'nonempty' };
+
+export interface CompiledParts {
+  readonly grammar: Grammar | null;
+  readonly diagnostics: Diagnostic[];
+}
+
+/** Builds the IR from the syntax tree; `grammar` is null when any error was found. */
+export function buildGrammar(ast: DescriptionAst, text: string, file: string, hash: string): CompiledParts {
+  const diags: Diagnostic[] = [];
+  const at = (span: Span) => ({ file, span });
+  const where = (span: Span) => {
+    const { line, column } = lineColumn(text, span.start);
+    return `${line}:${column}`;
+  };
+  /** decoded literal text, checked to be non-empty and without whitespace; null after an error */
+  const literal = (lit: StrLit, isText: boolean): string | null => {
+    const r = decodeString(lit);
+    if ('detail' in r) {
+      diags.push(E.badStringEscape(at(r.at), r.detail));
+      return null;
+    }
+    if (isText) {
+      if (r.value === '') {
+        diags.push(E.emptyLiteral(at(lit.span)));
+        return null;
+      }
+      if (/\s/u.test(r.value)) {
+        diags.push(E.literalWithSpace(at(lit.span), r.value));
+        return null;
+      }
+    }
+    return r.value;
+  };
+
+  // ---- pass 1: type names (sorts, token classes and name sets share one namespace)
+  const typeKinds = new Map<string, { kind: TypeKind; span: Span }>();
+  const declare = (name: string, kind: TypeKind, span: Span): boolean => {
+    const prev = typeKinds.get(name);
+    if (prev) {
+      diags.push(E.duplicateType(at(span), kind, name, prev.kind, where(prev.span)));
+      return false;
+    }
+    typeKinds.set(name, { kind, span });
+    return true;
+  };
+
+  let start: { name: string; span: Span } | null = null;
+  let space: string | null = null;
+  let spaceSpan: Span | null = null;
+  const tokens: TokenClass[] = [];
+  const nameSetDecls: Extract<DeclAst, { kind: 'names' }>[] = [];
+  const sortDecls: Extract<DeclAst, { kind: 'sort' }>[] = [];
+
+  for (const d of ast.decls) {
+    switch (d.kind) {
+      case 'start':
+        if (start) diags.push(E.duplicateDeclaration(at(d.span), 'start', where(start.span)));
+        else start = { name: d.name.text, span: d.name.span };
+        break;
+      case 'space': {
+        if (spaceSpan) {
+          diags.push(E.duplicateDeclaration(at(d.span), 'space', where(spaceSpan)));
+          break;
+        }
+        spaceSpan = d.span;
+        space = literal(d.value, false);
+        break;
+      }
+      case 'token': {
+        const ok = declare(d.name.text, 'token class', d.name.span);
+        const tok = compileToken(d, tokens.length);
+        if (ok && tok) tokens.push(tok);
+        break;
+      }
+      case 'names':
+        if (declare(d.name.text, 'name set', d.name.span)) nameSetDecls.push(d);
+        break;
+      case 'sort':
+        if (declare(d.name.text, 'sort', d.name.span)) sortDecls.push(d);
+        break;
+    }
+  }
+
+  function compileToken(d: Extract<DeclAst, { kind: 'token' }>, index: number): TokenClass | null {
+    let ok = true;
+    const kind = d.valueKind.text;
+    if (!(VALUE_KINDS as readonly string[]).includes(kind)) {
+      diags.push(E.unknownValueKind(at(d.valueKind.span), kind));
+      ok = false;
+    }
+    const re = compileRegex(d.regex, d.name.text);
+    if (!re || !ok) return null;
+    return {
+      index,
+      name: d.name.text,
+      pattern: d.regex.body,
+      flags: d.regex.flags,
+      value: kind as ValueKind,
+      reserved: d.reserved,
+      span: d.span,
+    };
+  }
+
+  function compileRegex(r: RegexLit, token: string): RegExp | null {
+    let ok = true;
+    const seen = new Set<string>();
+    for (let i = 0; i < r.flags.length; i++) {
+      const f = r.flags[i]!;
+      const span = { start: r.flagsSpan.start + i, end: r.flagsSpan.start + i + 1 };
+      if (f !== 'i' && f !== 'u') {
+        diags.push(E.badRegexFlag(at(span), f));
+        ok = false;
+      } else if (seen.has(f)) {
+        diags.push(E.duplicateRegexFlag(at(span), f));
+        ok = false;
+      }
+      seen.add(f);
+    }
+    if (!ok) return null;
+    // regjsparser locates the problem inside the pattern; the engine's own message words it.
+    let position: number | null = null;
+    let detail: string | null = null;
+    try {
+      parseRegex(r.body, r.flags, { namedGroups: true, lookbehind: true, unicodePropertyEscape: true });
+    } catch (e) {
+      const msg = String((e as Error).message ?? e);
+      position = regexErrorPosition(msg);
+      detail = msg.split('\n')[0]!.replace(/ at position \d+/, '');
+    }
+    let compiled: RegExp | null = null;
+    try {
+      compiled = new RegExp(`^(?:${r.body})$`, r.flags);
+      new RegExp(r.body, r.flags);
+    } catch (e) {
+      const msg = String((e as Error).message ?? e);
+      const m = /: ([^:]*)$/.exec(msg);
+      detail = m ? m[1]!.trim() : msg;
+      compiled = null;
+    }
+    if (detail !== null || compiled === null) {
+      const p = position === null ? null : Math.min(position, r.body.length - 1);
+      const span = p === null ? r.bodySpan : { start: r.bodySpan.start + p, end: r.bodySpan.start + p + 1 };
+      diags.push(E.badRegex(at(span), detail ?? 'rejected by the engine'));
+      return null;
+    }
+    if (compiled.test('')) {
+      diags.push(E.regexMatchesEmpty(at(r.span), token));
+      return null;
+    }
+    return compiled;
+  }
+
+  // ---- grammar-level declarations
+  const head = ast.grammar.span;
+  if (!start) diags.push(E.missingStart(at(head)));
+  else {
+    const k = typeKinds.get(start.name);
+    if (!k) diags.push(E.undefinedStart(at(start.span), start.name, suggest(start.name, sortDecls.map((s) => s.name.text))));
+    else if (k.kind !== 'sort') diags.push(E.startNotSort(at(start.span), start.name, k.kind));
+  }
+  if (!spaceSpan) diags.push(E.missingSpace(at(head)));
+
+  const tokenNames = new Set(tokens.map((t) => t.name));
+  const nameSets: NameSet[] = [];
+  for (const d of nameSetDecls) {
+    const k = typeKinds.get(d.token.text);
+    if (!k) {
+      diags.push(E.undefinedToken(at(d.token.span), d.token.text, suggest(d.token.text, tokenNames)));
+      continue;
+    }
+    if (k.kind !== 'token class') {
+      diags.push(E.namesOfNonToken(at(d.token.span), d.token.text, k.kind));
+      continue;
+    }
+    nameSets.push({ index: nameSets.length, name: d.name.text, token: d.token.text, span: d.span });
+  }
+
+  // ---- sorts and constructors
+  const sorts: Sort[] = [];
+  const constructors: Constructor[] = [];
+  const ctorFirst = new Map<string, { sort: string; span: Span }>();
+  const keywords = new Set<string>();
+
+  for (const sd of sortDecls) {
+    const sortName = sd.name.text;
+    let parens: Sort['parens'] = null;
+    if (sd.parens) {
+      const open = literal(sd.parens.open, true);
+      const close = literal(sd.parens.close, true);
+      if (open !== null && close !== null) {
+        parens = { open, close };
+        keywords.add(open);
+        keywords.add(close);
+      }
+    }
+    const names: string[] = [];
+    let hasOperator = false;
+    const infixByPrecedence = new Map<number, { ctor: string; assoc: string }>();
+    for (const cd of sd.ctors) {
+      const prev = ctorFirst.get(cd.name.text);
+      if (prev) {
+        diags.push(E.duplicateConstructor(at(cd.name.span), cd.name.text, prev.sort, where(prev.span)));
+        continue;
+      }
+      ctorFirst.set(cd.name.text, { sort: sortName, span: cd.name.span });
+      const ctor = compileCtor(cd, sortName, constructors.length);
+      if (cd.operator) {
+        hasOperator = true;
+        if (ctor?.operator?.fixity === 'infix') {
+          const other = infixByPrecedence.get(ctor.operator.precedence);
+          if (other && other.assoc !== ctor.operator.assoc) {
+            diags.push(E.associativityConflict(at(cd.operator.span), ctor.name, other.ctor, ctor.operator.precedence));
+          } else if (!other) infixByPrecedence.set(ctor.operator.precedence, { ctor: ctor.name, assoc: ctor.operator.assoc });
+        }
+      }
+      if (ctor) {
+        constructors.push(ctor);
+        names.push(ctor.name);
+      }
+    }
+    if (hasOperator && !sd.parens) diags.push(E.operatorWithoutParens(at(sd.name.span), sortName));
+    sorts.push({ index: sorts.length, name: sortName, constructors: names, parens, span: sd.span });
+  }
+
+  function compileCtor(cd: CtorAst, sortName: string, index: number): Constructor | null {
+    const before = diags.length;
+    const fields: Field[] = [];
+    const byName = new Map<string, Field>();
+    for (const fd of cd.fields) {
+      if (byName.has(fd.name.text)) {
+        diags.push(E.duplicateField(at(fd.name.span), fd.name.text, cd.name.text));
+        continue;
+      }
+      const k = typeKinds.get(fd.type.text);
+      if (!k) {
+        diags.push(E.undefinedType(at(fd.type.span), fd.type.text, suggest(fd.type.text, typeKinds.keys())));
+        continue;
+      }
+      const type: FieldType =
+        k.kind === 'sort'
+          ? { kind: 'sort', name: fd.type.text }
+          : k.kind === 'token class'
+            ? { kind: 'token', name: fd.type.text }
+            : { kind: 'names', name: fd.type.text };
+      let scoping: Scoping = 'none';
+      if (fd.scoping) {
+        if (k.kind !== 'token class') {
+          diags.push(E.scopingOnNonToken(at(fd.scoping.span), fd.scoping.text, fd.name.text, k.kind));
+          continue;
+        }
+        scoping = fd.scoping.text === 'new' ? 'binds' : 'bound';
+      }
+      const field: Field = {
+        index: fields.length,
+        name: fd.name.text,
+        type,
+        card: fd.card ? CARDS[fd.card.text]! : 'one',
+        scoping,
+        span: fd.span,
+      };
+      fields.push(field);
+      byName.set(field.name, field);
+    }
+    const declared = new Set(cd.fields.map((f) => f.name.text));
+    const used = new Set<string>();
+    const fieldNames = cd.fields.map((f) => f.name.text);
+
+    const items = (list: readonly ItemAst[], inGroup: boolean): LayoutItem[] => {
+      const out: LayoutItem[] = [];
+      for (const it of list) {
+        if (it.kind === 'text') {
+          const t = literal(it.lit, true);
+          if (t !== null) {
+            keywords.add(t);
+            out.push({ kind: 'text', text: t, glue: it.glue, span: it.span });
+          }
+        } else if (it.kind === 'slot') {
+          const name = it.field.text;
+          if (!declared.has(name)) {
+            diags.push(E.unknownLayoutField(at(it.field.span), name, cd.name.text, fieldNames));
+            continue;
+          }
+          if (used.has(name)) {
+            diags.push(E.fieldUsedTwice(at(it.field.span), name, cd.name.text));
+            continue;
+          }
+          used.add(name);
+          const f = byName.get(name);
+          let sep: string | null = null;
+          if (it.sep) {
+            if (f && f.card !== 'list' && f.card !== 'nonempty') diags.push(E.sepOnNonList(at(it.sep.span), name));
+            sep = literal(it.sep.lit, true);
+            if (sep !== null) keywords.add(sep);
+          }
+          out.push({ kind: 'slot', field: name, sep, sepGlue: it.sep?.glue ?? false, glue: it.glue, span: it.span });
+        } else {
+          if (inGroup) {
+            diags.push(E.nestedGroup(at(it.span)));
+            continue;
+          }
+          const slots = it.items.filter((x) => x.kind === 'slot');
+          const inner = items(it.items, true);
+          if (slots.length !== 1) {
+            diags.push(E.groupSlotCount(at(it.span), slots.length));
+            continue;
+          }
+          const slot = slots[0] as Extract<ItemAst, { kind: 'slot' }>;
+          const f = byName.get(slot.field.text);
+          if (f && f.card === 'one') {
+            diags.push(E.groupFieldRequired(at(slot.field.span), f.name));
+            continue;
+          }
+          out.push({ kind: 'when', field: slot.field.text, items: inner, glue: it.glue, span: it.span });
+        }
+      }
+      return out;
+    };
+    const layout = items(cd.layout, false);
+    for (const fd of cd.fields) {
+      if (!used.has(fd.name.text) && fieldNames.indexOf(fd.name.text) === cd.fields.indexOf(fd)) {
+        diags.push(E.fieldMissingFromLayout(at(cd.layoutSpan), fd.name.text, cd.name.text));
+      }
+    }
+
+    let operator: Operator | null = null;
+    if (cd.operator) {
+      const op = cd.operator;
+      const p = Number(op.precedence.text);
+      if (!Number.isSafeInteger(p)) diags.push(E.badPrecedence(at(op.precedence.span), op.precedence.text));
+      const fixity = op.fixity.text as Operator['fixity'];
+      operator = { fixity, assoc: (op.assoc?.text ?? 'none') as Operator['assoc'], precedence: p };
+      if (diags.length === before && !operatorFits(layout, fixity, byName, sortName)) {
+        diags.push(E.operatorShape(at(cd.layoutSpan), cd.name.text, fixity, sortName));
+      }
+    }
+    if (diags.length !== before) return null;
+    return { index, name: cd.name.text, sort: sortName, fields, layout, operator, span: cd.span };
+  }
+
+  if (diags.some((d) => d.severity === 'error')) return { grammar: null, diagnostics: diags };
+  const grammar: Grammar = {
+    name: ast.grammar.text,
+    file,
+    hash,
+    start: start!.name,
+    space: space!,
+    tokens,
+    nameSets,
+    sorts,
+    constructors,
+    keywords: [...keywords].sort(),
+  };
+  return { grammar, diagnostics: diags };
+}
+
+/** Does `layout` have the shape `fixity` requires (operands: required fields of `sort`)? */
+function operatorFits(layout: readonly LayoutItem[], fixity: Operator['fixity'], fields: Map<string, Field>, sort: string): boolean {
+  const operand = (item: LayoutItem | undefined) => {
+    if (!item || item.kind !== 'slot') return false;
+    const f = fields.get(item.field);
+    return !!f && f.card === 'one' && f.type.kind === 'sort' && f.type.name === sort;
+  };
+  const first = layout[0];
+  const last = layout[layout.length - 1];
+  switch (fixity) {
+    case 'infix':
+      return layout.length >= 3 && operand(first) && operand(last) && layout.slice(1, -1).some((i) => i.kind === 'text');
+    case 'prefix':
+      return layout.length >= 2 && first?.kind === 'text' && operand(last);
+    case 'postfix':
+      return layout.length >= 2 && operand(first) && last?.kind === 'text';
+  }
+}

@@ -1,0 +1,328 @@
+/**
+ * The error catalogue of the description compiler: one named factory per condition, so every
+ * message is worded in one place and tests can compare whole messages word for word.
+ *
+ * A Diagnostic stores only offsets; `formatDiagnostic` turns them into `file:line:col`, a numbered
+ * excerpt with `^~~~` under the span, and the hint, when the message is printed.
+ */
+import type { Span } from './ir.ts';
+import { excerpt, lineColumn } from '../util/source.ts';
+
+export interface Diagnostic {
+  readonly severity: 'error' | 'warning';
+  /** stable identifier of the condition (kebab-case), for tests and tooling */
+  readonly code: string;
+  readonly message: string;
+  readonly file: string;
+  readonly span: Span;
+  readonly hint?: string;
+}
+
+/** `file:line:col: error: message`, the excerpt, and `hint: ...` when there is one. */
+export function formatDiagnostic(d: Diagnostic, text: string): string {
+  const { line, column } = lineColumn(text, d.span.start);
+  let out = `${d.file}:${line}:${column}: ${d.severity}: ${d.message}\n${excerpt(text, d.span)}`;
+  if (d.hint !== undefined) out += `\nhint: ${d.hint}`;
+  return out;
+}
+
+/** All diagnostics, formatted, separated by blank lines (errors first, then warnings, each in source order). */
+export function formatDiagnostics(ds: readonly Diagnostic[], text: string): string {
+  return sortDiagnostics(ds).map((d) => formatDiagnostic(d, text)).join('\n\n');
+}
+
+/** Errors before warnings; within each, by position. Stable. */
+export function sortDiagnostics(ds: readonly Diagnostic[]): Diagnostic[] {
+  const rank = (d: Diagnostic) => (d.severity === 'error' ? 0 : 1);
+  return [...ds].sort((a, b) => rank(a) - rank(b) || a.span.start - b.span.start || a.span.end - b.span.end);
+}
+
+/** Thrown by loadGrammar; `message` is the formatted diagnostics. */
+export class DescriptionError extends Error {
+  readonly diagnostics: readonly Diagnostic[];
+  constructor(message: string, diagnostics: readonly Diagnostic[]) {
+    super(message);
+    this.name = 'DescriptionError';
+    this.diagnostics = diagnostics;
+  }
+}
+
+type At = { readonly file: string; readonly span: Span };
+
+function error(code: string, at: At, message: string, hint?: string): Diagnostic {
+  return hint === undefined
+    ? { severity: 'error', code, message, file: at.file, span: at.span }
+    : { severity: 'error', code, message, file: at.file, span: at.span, hint };
+}
+
+function warning(code: string, at: At, message: string, hint?: string): Diagnostic {
+  return hint === undefined
+    ? { severity: 'warning', code, message, file: at.file, span: at.span }
+    : { severity: 'warning', code, message, file: at.file, span: at.span, hint };
+}
+
+const q = (s: string) => '`' + s + '`';
+
+// ---- reading the file -------------------------------------------------------------------------
+
+export const unreadableFile = (at: At, reason: string) =>
+  error('unreadable-file', at, `cannot read the description: ${reason}`);
+
+// ---- syntax -----------------------------------------------------------------------------------
+
+export const syntaxError = (at: At, expected: string, found: string) =>
+  error(
+    'syntax',
+    at,
+    `expected ${expected}, found ${found}`,
+    'see the reference section of README.md for the notation',
+  );
+
+export const badStringEscape = (at: At, detail: string) =>
+  error('bad-string', at, `invalid string literal: ${detail}`, 'string literals use JSON escapes: \\" \\\\ \\/ \\b \\f \\n \\r \\t \\uXXXX');
+
+export const badRegex = (at: At, detail: string) =>
+  error('bad-regex', at, `invalid regular expression: ${detail}`, 'token patterns are ECMAScript regular expressions');
+
+export const badRegexFlag = (at: At, flag: string) =>
+  error('bad-regex-flag', at, `regular expression flag ${q(flag)} is not allowed`, 'only the flags `i` and `u` are accepted');
+
+export const duplicateRegexFlag = (at: At, flag: string) =>
+  error('duplicate-regex-flag', at, `regular expression flag ${q(flag)} is given twice`);
+
+export const regexMatchesEmpty = (at: At, token: string) =>
+  error(
+    'token-matches-empty',
+    at,
+    `token class ${q(token)} matches the empty string`,
+    'every lexeme must have at least one character: use `+` instead of `*`, or drop the `?`',
+  );
+
+export const unknownValueKind = (at: At, kind: string) =>
+  error(
+    'unknown-value-kind',
+    at,
+    `unknown value kind ${q(kind)}`,
+    'expected one of `text`, `int`, `number`, `json-string`, `sql-string`',
+  );
+
+export const badPrecedence = (at: At, text: string) =>
+  error('bad-precedence', at, `precedence ${q(text)} is not a safe integer`);
+
+// ---- declarations -----------------------------------------------------------------------------
+
+export const missingStart = (at: At) =>
+  error('missing-start', at, 'the description has no `start` declaration', 'add `start SORT` naming the sort of a whole program');
+
+export const missingSpace = (at: At) =>
+  error('missing-space', at, 'the description has no `space` declaration', 'add e.g. `space " \\t\\r\\n"` to say which characters may stand between tokens');
+
+export const duplicateDeclaration = (at: At, what: 'start' | 'space', first: string) =>
+  error(`duplicate-${what}`, at, `a second ${q(what)} declaration`, `the first one is at ${first}`);
+
+export const duplicateType = (at: At, kind: string, name: string, firstKind: string, first: string) =>
+  kind === firstKind
+    ? error(`duplicate-${kindCode(kind)}`, at, `duplicate ${kind} ${q(name)}`, `the first ${kind} ${q(name)} is declared at ${first}`)
+    : error(
+        'duplicate-type-name',
+        at,
+        `${kind} ${q(name)} has the same name as the ${firstKind} declared at ${first}`,
+        'sorts, token classes and name sets share one namespace; rename one of them',
+      );
+
+function kindCode(kind: string): string {
+  return kind === 'token class' ? 'token' : kind === 'name set' ? 'name-set' : kind;
+}
+
+export const duplicateConstructor = (at: At, name: string, sort: string, first: string) =>
+  error(
+    'duplicate-constructor',
+    at,
+    `duplicate constructor ${q(name)}`,
+    `a constructor ${q(name)} is already declared at ${first} (in sort ${q(sort)}); constructor names are unique in the whole grammar`,
+  );
+
+export const duplicateField = (at: At, name: string, ctor: string) =>
+  error('duplicate-field', at, `constructor ${q(ctor)} has two fields named ${q(name)}`);
+
+export const undefinedStart = (at: At, name: string, suggestion: string | null) =>
+  error('undefined-start', at, `start sort ${q(name)} is not declared`, didYouMean(suggestion, 'declare it with `sort ' + name + ' { ... }`'));
+
+export const startNotSort = (at: At, name: string, kind: string) =>
+  error('start-not-sort', at, `start ${q(name)} is a ${kind}, not a sort`, 'the start must name a sort');
+
+export const undefinedType = (at: At, name: string, suggestion: string | null) =>
+  error(
+    'undefined-type',
+    at,
+    `unknown type ${q(name)}: not a sort, token class or name set`,
+    didYouMean(suggestion, 'declare it, or use one of the declared types'),
+  );
+
+export const undefinedToken = (at: At, name: string, suggestion: string | null) =>
+  error('undefined-token', at, `unknown token class ${q(name)}`, didYouMean(suggestion, 'declare it with `token ' + name + ' = /.../ as text`'));
+
+export const namesOfNonToken = (at: At, name: string, kind: string) =>
+  error('names-of-non-token', at, `${q(name)} is a ${kind}, not a token class`, 'a name set is spelled by a token class: `names SET of TOKEN`');
+
+function didYouMean(suggestion: string | null, otherwise: string): string {
+  return suggestion === null ? otherwise : `did you mean ${q(suggestion)}?`;
+}
+
+// ---- literals ---------------------------------------------------------------------------------
+
+export const emptyLiteral = (at: At) =>
+  error('empty-literal', at, 'literal text is empty', 'remove it, or write the text it stands for');
+
+export const literalWithSpace = (at: At, text: string) =>
+  error(
+    'literal-with-space',
+    at,
+    `literal text ${JSON.stringify(text)} contains whitespace`,
+    'write each word as its own literal: "GROUP" "BY"',
+  );
+
+// ---- layouts ----------------------------------------------------------------------------------
+
+export const unknownLayoutField = (at: At, name: string, ctor: string, fields: readonly string[]) =>
+  error(
+    'unknown-layout-field',
+    at,
+    `layout of ${q(ctor)} names ${q(name)}, which is not one of its fields`,
+    fields.length === 0 ? `${q(ctor)} has no fields; write literal text in quotes` : `its fields are ${fields.map(q).join(', ')}`,
+  );
+
+export const fieldUsedTwice = (at: At, name: string, ctor: string) =>
+  error('field-used-twice', at, `layout of ${q(ctor)} writes field ${q(name)} a second time`, 'each field appears in exactly one slot');
+
+export const fieldMissingFromLayout = (at: At, name: string, ctor: string) =>
+  error('field-missing-from-layout', at, `layout of ${q(ctor)} omits field ${q(name)}`, `add a slot ${q(name)} to the layout`);
+
+export const groupSlotCount = (at: At, count: number) =>
+  error(
+    'group-slot-count',
+    at,
+    `an optional group must contain exactly one field slot, this one contains ${count}`,
+    'write `[ "KEYWORD" field ]` with one optional or list field',
+  );
+
+export const groupFieldRequired = (at: At, name: string) =>
+  error(
+    'group-field-required',
+    at,
+    `field ${q(name)} in an optional group is neither optional nor a list`,
+    `mark it optional (${q(name + ': T?')}) or a list (\`*\`), or move it out of the group`,
+  );
+
+export const nestedGroup = (at: At) =>
+  error('nested-group', at, 'an optional group cannot contain another group', 'flatten the groups: each group holds one field');
+
+export const sepOnNonList = (at: At, name: string) =>
+  error('sep-on-non-list', at, `${q('sep')} on field ${q(name)}, which is not a list`, `declare it a list (${q(name + ': T*')} or \`+\`) or drop the separator`);
+
+export const scopingOnNonToken = (at: At, marker: string, name: string, kind: string) =>
+  error(
+    'scoping-on-non-token',
+    at,
+    `${q(marker)} on field ${q(name)}, whose type is a ${kind}`,
+    '`new` and `bound` mark token-typed fields only',
+  );
+
+export const boundWithoutNew = (at: At, name: string, token: string) =>
+  error(
+    'bound-without-new',
+    at,
+    `field ${q(name)} is ${q('bound ' + token)}, but no field anywhere is ${q('new ' + token)}`,
+    `mark the field that introduces the variable as ${q('new ' + token)}`,
+  );
+
+// ---- operators --------------------------------------------------------------------------------
+
+export const operatorShape = (at: At, ctor: string, fixity: string, sort: string) =>
+  error(
+    'operator-shape',
+    at,
+    `layout of ${q(ctor)} does not fit ${q(fixity)}: ${OPERATOR_SHAPES[fixity] ?? ''}`.replace('SORT', q(sort)),
+    fixity === 'infix'
+      ? 'e.g. `left "+" right @ infix left 10` with both fields of this sort'
+      : fixity === 'prefix'
+        ? 'e.g. `"-" operand @ prefix 30` with the field of this sort'
+        : 'e.g. `operand "!" @ postfix 40` with the field of this sort',
+  );
+
+const OPERATOR_SHAPES: Record<string, string> = {
+  infix: 'an infix layout begins and ends with a required field of sort SORT and has literal text between them',
+  prefix: 'a prefix layout begins with literal text and ends with a required field of sort SORT',
+  postfix: 'a postfix layout begins with a required field of sort SORT and ends with literal text',
+};
+
+export const operatorWithoutParens = (at: At, sort: string) =>
+  error(
+    'operator-without-parens',
+    at,
+    `sort ${q(sort)} has operators but no ${q('parens')}`,
+    `declare the brackets: ${q('sort ' + sort + ' parens "(" ")" { ... }')}`,
+  );
+
+export const associativityConflict = (at: At, ctor: string, other: string, precedence: number) =>
+  error(
+    'associativity-conflict',
+    at,
+    `infix operators ${q(other)} and ${q(ctor)} share precedence ${precedence} but not associativity`,
+    'give operators of one precedence the same associativity, or different precedences',
+  );
+
+// ---- whole-grammar analyses ---------------------------------------------------------------------
+
+export const unproductiveSort = (at: At, sort: string) =>
+  error(
+    'unproductive-sort',
+    at,
+    `sort ${q(sort)} has no finite tree: every constructor needs a term of a sort that has none`,
+    'add a constructor whose required fields do not lead back to this sort, or make one of those fields optional or a `*` list',
+  );
+
+export const unreachableSort = (at: At, sort: string, start: string) =>
+  warning('unreachable-sort', at, `sort ${q(sort)} cannot occur in a tree of the start sort ${q(start)}`, 'use it in a field, or remove it');
+
+export const identicalLayouts = (at: At, ctor: string, other: string, sort: string) =>
+  error(
+    'identical-layouts',
+    at,
+    `constructors ${q(other)} and ${q(ctor)} of sort ${q(sort)} have the same layout, so different trees print the same text`,
+    'add literal text that tells them apart',
+  );
+
+export const separatorAtElementEdge = (at: At, sep: string, field: string, edge: 'begin' | 'end', element: string) =>
+  error(
+    'separator-at-element-edge',
+    at,
+    `separator ${JSON.stringify(sep)} of list ${q(field)} can also ${edge} an element (${q(element)})`,
+    'choose a separator that no element can begin or end with',
+  );
+
+export const nullableListElement = (at: At, field: string, element: string) =>
+  error(
+    'nullable-list-element',
+    at,
+    `list ${q(field)} has elements of ${q(element)}, which can print as nothing`,
+    'give every constructor of the element sort some text, or make the list a single optional field',
+  );
+
+export const adjacentListElements = (at: At, field: string, reason: string) =>
+  error(
+    'adjacent-list-elements',
+    at,
+    `list ${q(field)} has no separator and its elements can run together: ${reason}`,
+    `add a separator: ${q(field + ' sep ","')}`,
+  );
+
+export const leftRecursion = (at: At, ctor: string, field: string, sort: string, direct: boolean, own: string) =>
+  error(
+    'left-recursion',
+    at,
+    direct
+      ? `constructor ${q(ctor)} is left-recursive: its layout begins with field ${q(field)} of its own sort ${q(own)}`
+      : `constructor ${q(ctor)} is left-recursive: its layout begins with field ${q(field)} of sort ${q(sort)}, which can begin with a ${q(own)} again`,
+    'declare it `@ infix left P` (or `@ postfix P`), or begin its layout with literal text',
+  );

@@ -1,0 +1,235 @@
+/**
+ * The `.twg` notation, written as an ohm-js grammar, and the pass that turns a successful match into
+ * a syntax tree with offsets (syntax.ts). Only shape is checked here; names, types and every
+ * semantic condition are checked by compile.ts and analysis.ts.
+ *
+ * Keep in sync with the reference section of README.md.
+ */
+import * as ohm from 'ohm-js';
+import type { Span } from './ir.ts';
+import type {
+  CtorAst,
+  DeclAst,
+  DescriptionAst,
+  FieldAst,
+  Ident,
+  ItemAst,
+  OperatorAst,
+  RegexLit,
+  StrLit,
+} from './syntax.ts';
+
+export const NOTATION_SOURCE = String.raw`
+Twg {
+  Description = GrammarDecl Decl* end
+  GrammarDecl = grammarKw name
+  Decl = StartDecl | SpaceDecl | TokenDecl | NamesDecl | SortDecl
+  StartDecl = startKw name
+  SpaceDecl = spaceKw string
+  TokenDecl = tokenKw name "=" regex asKw kindWord reservedKw?
+  NamesDecl = namesKw name ofKw name
+  SortDecl = sortKw name ParensDecl? "{" Ctor* "}"
+  ParensDecl = parensKw string string
+  Ctor = name "(" ListOf<FieldDecl, ","> ")" "=" Item* OperatorDecl? ";"
+  FieldDecl = name ":" scoping? name card?
+  Item = glue? Atom
+  Atom = Group | string | Slot
+  Group = "[" Item* "]"
+  Slot = name SepClause?
+  SepClause = sepKw glue? string
+  OperatorDecl = "@" OperatorSpec
+  OperatorSpec = infixKw assoc number   -- infix
+               | prefixKw number        -- prefix
+               | postfixKw number       -- postfix
+
+  scoping = newKw | boundKw
+  card = "?" | "*" | "+"
+  glue = "~"
+  assoc (left, right or none) = (leftKw | rightKw | noneKw)
+
+  name (a name) = identStart identPart*
+  identStart = letter | "_"
+  identPart = alnum | "_"
+  kindWord (a value kind) = letter (alnum | "-" | "_")*
+  number (a precedence number) = digit+
+
+  string (a string literal) = "\"" strChar* "\""
+  strChar = "\\" ~"\n" any  -- escape
+          | ~("\"" | "\\" | "\n") any  -- plain
+
+  regex (a regular expression literal) = "/" reChar+ "/" identPart*
+  reChar = "\\" ~"\n" any  -- escape
+         | "[" reClassChar* "]"  -- class
+         | ~("/" | "\n" | "[" | "\\") any  -- plain
+  reClassChar = "\\" ~"\n" any  -- escape
+              | ~("]" | "\n" | "\\") any  -- plain
+
+  grammarKw = "grammar" ~identPart
+  startKw = "start" ~identPart
+  spaceKw = "space" ~identPart
+  tokenKw = "token" ~identPart
+  namesKw = "names" ~identPart
+  sortKw = "sort" ~identPart
+  parensKw = "parens" ~identPart
+  asKw = "as" ~identPart
+  ofKw = "of" ~identPart
+  reservedKw = "reserved" ~identPart
+  sepKw = "sep" ~identPart
+  newKw = "new" ~identPart
+  boundKw = "bound" ~identPart
+  infixKw = "infix" ~identPart
+  prefixKw = "prefix" ~identPart
+  postfixKw = "postfix" ~identPart
+  leftKw = "left" ~identPart
+  rightKw = "right" ~identPart
+  noneKw = "none" ~identPart
+
+  space += comment
+  comment = "#" (~"\n" any)*
+}
+`;
+
+export const notation: ohm.Grammar = ohm.grammar(NOTATION_SOURCE);
+
+type Node = ohm.Node;
+
+function spanOf(node: Node): Span {
+  return { start: node.source.startIdx, end: node.source.endIdx };
+}
+
+function ident(node: Node): Ident {
+  return { text: node.sourceString, span: spanOf(node) };
+}
+
+function str(node: Node): StrLit {
+  return { raw: node.sourceString, span: spanOf(node) };
+}
+
+/** The optional node's single child, or null. */
+function opt(node: Node): Node | null {
+  return node.numChildren > 0 ? node.child(0) : null;
+}
+
+const semantics = notation.createSemantics();
+
+semantics.addOperation<unknown>('ast', {
+  Description(head: Node, decls: Node, _end: Node): DescriptionAst {
+    return { grammar: head.ast(), decls: decls.children.map((d) => d.ast()) };
+  },
+  GrammarDecl(_kw: Node, n: Node): Ident {
+    return ident(n);
+  },
+  Decl(inner: Node): DeclAst {
+    return inner.ast();
+  },
+  StartDecl(_kw: Node, n: Node): DeclAst {
+    return { kind: 'start', name: ident(n), span: spanOf(this as unknown as Node) };
+  },
+  SpaceDecl(_kw: Node, s: Node): DeclAst {
+    return { kind: 'space', value: str(s), span: spanOf(this as unknown as Node) };
+  },
+  TokenDecl(_kw: Node, n: Node, _eq: Node, re: Node, _as: Node, kind: Node, reserved: Node): DeclAst {
+    return {
+      kind: 'token',
+      name: ident(n),
+      regex: re.ast(),
+      valueKind: ident(kind),
+      reserved: reserved.numChildren > 0,
+      span: spanOf(this as unknown as Node),
+    };
+  },
+  NamesDecl(_kw: Node, n: Node, _of: Node, tok: Node): DeclAst {
+    return { kind: 'names', name: ident(n), token: ident(tok), span: spanOf(this as unknown as Node) };
+  },
+  SortDecl(_kw: Node, n: Node, parens: Node, _o: Node, ctors: Node, _c: Node): DeclAst {
+    const p = opt(parens);
+    return {
+      kind: 'sort',
+      name: ident(n),
+      parens: p ? { open: str(p.child(1)), close: str(p.child(2)), span: spanOf(p) } : null,
+      ctors: ctors.children.map((c) => c.ast()),
+      span: spanOf(this as unknown as Node),
+    };
+  },
+  Ctor(n: Node, _o: Node, fields: Node, _c: Node, _eq: Node, items: Node, op: Node, _semi: Node): CtorAst {
+    const o = opt(op);
+    const self = this as unknown as Node;
+    return {
+      name: ident(n),
+      fields: fields.asIteration().children.map((f) => f.ast()),
+      layout: items.children.map((i) => i.ast()),
+      layoutSpan: items.numChildren > 0 ? { start: items.source.startIdx, end: items.source.endIdx } : { start: _eq.source.startIdx, end: _eq.source.endIdx },
+      operator: o ? o.ast() : null,
+      span: spanOf(self),
+    };
+  },
+  FieldDecl(n: Node, _colon: Node, scoping: Node, type: Node, card: Node): FieldAst {
+    const s = opt(scoping);
+    const c = opt(card);
+    return {
+      name: ident(n),
+      scoping: s ? ident(s) : null,
+      type: ident(type),
+      card: c ? ident(c) : null,
+      span: spanOf(this as unknown as Node),
+    };
+  },
+  Item(glue: Node, atom: Node): ItemAst {
+    const item = atom.ast() as ItemAst;
+    return { ...item, glue: glue.numChildren > 0, span: spanOf(this as unknown as Node) };
+  },
+  Atom(inner: Node): ItemAst {
+    if (inner.ctorName === 'string') {
+      return { kind: 'text', lit: str(inner), glue: false, span: spanOf(inner) };
+    }
+    return inner.ast();
+  },
+  Group(_o: Node, items: Node, _c: Node): ItemAst {
+    return { kind: 'group', items: items.children.map((i) => i.ast()), glue: false, span: spanOf(this as unknown as Node) };
+  },
+  Slot(n: Node, sep: Node): ItemAst {
+    const s = opt(sep);
+    return {
+      kind: 'slot',
+      field: ident(n),
+      sep: s ? { lit: str(s.child(2)), glue: s.child(1).numChildren > 0, span: spanOf(s) } : null,
+      glue: false,
+      span: spanOf(this as unknown as Node),
+    };
+  },
+  OperatorDecl(_at: Node, spec: Node): OperatorAst {
+    return { ...(spec.ast() as OperatorAst), span: spanOf(this as unknown as Node) };
+  },
+  OperatorSpec_infix(kw: Node, assoc: Node, num: Node): OperatorAst {
+    return { fixity: ident(kw), assoc: ident(assoc), precedence: ident(num), span: spanOf(this as unknown as Node) };
+  },
+  OperatorSpec_prefix(kw: Node, num: Node): OperatorAst {
+    return { fixity: ident(kw), assoc: null, precedence: ident(num), span: spanOf(this as unknown as Node) };
+  },
+  OperatorSpec_postfix(kw: Node, num: Node): OperatorAst {
+    return { fixity: ident(kw), assoc: null, precedence: ident(num), span: spanOf(this as unknown as Node) };
+  },
+  regex(_open: Node, body: Node, _close: Node, flags: Node): RegexLit {
+    const self = this as unknown as Node;
+    return {
+      body: body.sourceString,
+      bodySpan: { start: body.source.startIdx, end: body.source.endIdx },
+      flags: flags.sourceString,
+      flagsSpan: { start: flags.source.startIdx, end: flags.source.endIdx },
+      span: spanOf(self),
+    };
+  },
+});
+
+export type ParseOutcome =
+  | { readonly ok: true; readonly ast: DescriptionAst }
+  | { readonly ok: false; readonly offset: number; readonly expected: string };
+
+/** Matches `text` against the notation; on failure returns the rightmost failure offset and ohm's expected text. */
+export function parseNotation(text: string): ParseOutcome {
+  const match = notation.match(text);
+  if (match.failed()) {
+    return { ok: false, offset: match.getRightmostFailurePosition(), expected: match.getExpectedText() };
+  }
+  return { ok: true, ast: semantics(match).ast() as DescriptionAst };
+}
