@@ -1,0 +1,1 @@
+SELECT * FROM lots WHERE tonnes > 5 AND

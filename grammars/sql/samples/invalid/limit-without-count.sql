@@ -1,0 +1,3 @@
+SELECT name, village
+FROM growers
+ORDER BY joined_year DESC LIMIT

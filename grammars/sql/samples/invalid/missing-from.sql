@@ -1,0 +1,1 @@
+SELECT name WHERE id = 1
