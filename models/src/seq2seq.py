@@ -427,6 +427,39 @@ def _token_at(tokenizer_json, idx):
     return None
 
 
+def sentencepiece_tokenizer_json(model_file):
+    """A Hugging Face tokenizer.json (dict) equivalent to a sentencepiece Unigram model trained with
+    `normalization_rule_name='identity'`, `remove_extra_whitespaces=False` and the default
+    `split_by_whitespace=True` (no normalizer is needed then): Unigram pieces with their scores,
+    Metaspace pre-tokenizer and decoder, and `</s>` appended after every encoded text. Control
+    pieces (pad, eos, unk, ...) become special added tokens."""
+    import sentencepiece as spm
+    sp = spm.SentencePieceProcessor(model_file=model_file)
+    n = sp.get_piece_size()
+    vocab = [[sp.id_to_piece(i), float(sp.get_score(i))] for i in range(n)]
+    added = []
+    for i in range(n):
+        if sp.is_control(i) or sp.is_unknown(i):
+            vocab[i][1] = 0.0
+            added.append({'id': i, 'content': sp.id_to_piece(i), 'single_word': False, 'lstrip': False,
+                          'rstrip': False, 'normalized': False, 'special': True})
+    eos = sp.eos_id()
+    eos_piece = sp.id_to_piece(eos)
+    meta = {'type': 'Metaspace', 'replacement': '\u2581', 'prepend_scheme': 'always', 'split': True}
+    return {
+        'version': '1.0', 'truncation': None, 'padding': None, 'added_tokens': added,
+        'normalizer': None, 'pre_tokenizer': meta,
+        'post_processor': {
+            'type': 'TemplateProcessing',
+            'single': [{'Sequence': {'id': 'A', 'type_id': 0}}, {'SpecialToken': {'id': eos_piece, 'type_id': 0}}],
+            'pair': [{'Sequence': {'id': 'A', 'type_id': 0}}, {'SpecialToken': {'id': eos_piece, 'type_id': 0}},
+                     {'Sequence': {'id': 'B', 'type_id': 0}}, {'SpecialToken': {'id': eos_piece, 'type_id': 0}}],
+            'special_tokens': {eos_piece: {'id': eos_piece, 'ids': [eos], 'tokens': [eos_piece]}}},
+        'decoder': dict(meta),
+        'model': {'type': 'Unigram', 'unk_id': sp.unk_id(), 'vocab': vocab, 'byte_fallback': False},
+    }
+
+
 def export_onnx(model, out_dir, tokenizer_json_path, tokenizer_config, special_ids):
     """Writes the model folder (see the module comment). Returns out_dir."""
     pad_id = special_ids['pad_id']
