@@ -56,7 +56,7 @@ export function compileDescription(text: string, file: string): { grammar: Gramm
   const hash = createHash('sha256').update(text, 'utf8').digest('hex');
   const built = buildGrammar(parsed.ast, text, file, hash);
   if (!built.grammar) return { grammar: null, diagnostics: sortDiagnostics(built.diagnostics) };
-  const more = analyseGrammar(built.grammar);
+  const more = analyseGrammar(built.grammar, text);
   const diagnostics = sortDiagnostics([...built.diagnostics, ...more]);
   const failed = diagnostics.some((d) => d.severity === 'error');
   return { grammar: failed ? null : built.grammar, diagnostics };
