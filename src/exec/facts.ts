@@ -1,0 +1,73 @@
+/**
+ * A fact base: the closed-world, finite model that logical forms are evaluated in.
+ *
+ * Entities are numbered 0..n−1 in sorted name order; classes are membership bytes per entity;
+ * relations are sets of numeric pair keys (subject·n + object); measures are Float64Arrays with
+ * NaN where the measure is undefined for an entity (a partial function). Built once, never
+ * changed afterwards.
+ */
+import type { NameBindings } from '../description/ir.ts';
+
+/** Plain description of a model, e.g. from a lexicon reading database rows. */
+export interface FactsInput {
+  readonly entities: Iterable<string>;
+  readonly classes: Readonly<Record<string, Iterable<string>>>;
+  readonly relations: Readonly<Record<string, Iterable<readonly [string, string]>>>;
+  readonly measures: Readonly<Record<string, Iterable<readonly [string, number]>>>;
+}
+
+export interface FactBase {
+  /** entity names, sorted; an entity's ID is its index here */
+  readonly entities: readonly string[];
+  readonly entityId: ReadonlyMap<string, number>;
+  /** class name → membership (1 = member) indexed by entity ID */
+  readonly classes: ReadonlyMap<string, Uint8Array>;
+  /** relation name → set of subject·n + object */
+  readonly relations: ReadonlyMap<string, ReadonlySet<number>>;
+  /** measure name → value per entity ID, NaN where undefined */
+  readonly measures: ReadonlyMap<string, Float64Array>;
+}
+
+/** Builds a fact base; every name used by a class, relation or measure must be a declared entity. */
+export function makeFactBase(input: FactsInput): FactBase {
+  const entities = [...new Set(input.entities)].sort();
+  const entityId = new Map(entities.map((e, i) => [e, i]));
+  const n = entities.length;
+  const id = (name: string, where: string): number => {
+    const i = entityId.get(name);
+    if (i === undefined) throw new Error(`fact base: ${where} names "${name}", which is not an entity`);
+    return i;
+  };
+  const classes = new Map<string, Uint8Array>();
+  for (const [name, members] of Object.entries(input.classes)) {
+    const bits = new Uint8Array(n);
+    for (const m of members) bits[id(m, `class ${name}`)] = 1;
+    classes.set(name, bits);
+  }
+  const relations = new Map<string, Set<number>>();
+  for (const [name, pairs] of Object.entries(input.relations)) {
+    const set = new Set<number>();
+    for (const [s, o] of pairs) set.add(id(s, `relation ${name}`) * n + id(o, `relation ${name}`));
+    relations.set(name, set);
+  }
+  const measures = new Map<string, Float64Array>();
+  for (const [name, values] of Object.entries(input.measures)) {
+    const arr = new Float64Array(n).fill(NaN);
+    for (const [e, v] of values) {
+      if (!Number.isFinite(v)) throw new Error(`fact base: measure ${name} of "${e}" is not a finite number`);
+      arr[id(e, `measure ${name}`)] = v;
+    }
+    measures.set(name, arr);
+  }
+  return { entities, entityId, classes, relations, measures };
+}
+
+/** The names a fact base binds in the `lf` grammar's name sets. */
+export function factNames(facts: FactBase): NameBindings {
+  return {
+    Entity: facts.entities,
+    Class: [...facts.classes.keys()].sort(),
+    Rel: [...facts.relations.keys()].sort(),
+    Measure: [...facts.measures.keys()].sort(),
+  };
+}

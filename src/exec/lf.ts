@@ -1,0 +1,287 @@
+/**
+ * The logical-form executor: evaluates a tree of the `lf` grammar in a fact base (closed world,
+ * finite domain).
+ *
+ * Denotations:
+ * - constants → entities; classes → sets; relations → sets of pairs; measures → partial numeric
+ *   functions (using a measure where it is undefined is a runtime error naming the entity);
+ * - `lambda $x. F` → the set of entities e with F[$x := e] true: `{ type: "set", members }`
+ *   (sorted names);
+ * - `argmax $x. (F) by m` / `argmin` → every entity satisfying F that reaches the largest / smallest
+ *   m: `{ type: "best", members }` (more than one only on a tie; empty when F holds for none);
+ * - `value: N` → `{ type: "number", value }`; `holds: F` → `{ type: "truth", value }`;
+ * - exists / forall / count / sum range over the whole domain; & | -> short-circuit left to right;
+ *   `sum $x. (F) of m` over no entity is 0.
+ *
+ * Bounded work: every node visited counts one step; past `stepLimit` (default 1,000,000) the
+ * evaluation stops with an error. Nested quantifiers cost |domain|^depth steps, so with a domain of
+ * a few hundred entities three nested quantifiers can hit the limit; that is the intended guard.
+ * Cost per step is a Map lookup at most; no allocation per step except variable binding.
+ */
+import type { FactBase } from './facts.ts';
+import type { ExecContext, ExecResult, ExecuteFn, Tree } from './types.ts';
+
+export type LfAnswer =
+  | { readonly type: 'set'; readonly members: readonly string[] }
+  | { readonly type: 'best'; readonly members: readonly string[] }
+  | { readonly type: 'number'; readonly value: number }
+  | { readonly type: 'truth'; readonly value: boolean };
+
+export interface LfOptions {
+  readonly stepLimit?: number;
+}
+
+export const DEFAULT_STEP_LIMIT = 1_000_000;
+
+class LfError extends Error {
+  constructor(message: string, readonly path: string) {
+    super(message);
+  }
+}
+
+type Node = { readonly kind: string; readonly [field: string]: unknown };
+
+/** Evaluates one logical form; never throws for a bad program. */
+export function evaluateLf(facts: FactBase, tree: Tree, options: LfOptions = {}): ExecResult {
+  const ev = new Evaluator(facts, options.stepLimit ?? DEFAULT_STEP_LIMIT);
+  try {
+    return { ok: true, value: ev.query(tree) };
+  } catch (err) {
+    if (err instanceof LfError) return { ok: false, error: err.path ? `${err.message} (at ${err.path})` : err.message };
+    throw err;
+  }
+}
+
+/** An executor (see types.ts) over a fixed fact base. */
+export function lfExecutor(facts: FactBase, options: LfOptions = {}): ExecuteFn {
+  return async (tree: Tree, _context: ExecContext) => evaluateLf(facts, tree, options);
+}
+
+class Evaluator {
+  private steps = 0;
+  private readonly env = new Map<string, number>();
+  private readonly path: string[] = ['$'];
+  private readonly n: number;
+
+  constructor(private readonly facts: FactBase, private readonly limit: number) {
+    this.n = facts.entities.length;
+  }
+
+  private fail(message: string): never {
+    throw new LfError(message, this.path.join(''));
+  }
+
+  private step(): void {
+    if (++this.steps > this.limit) throw new LfError(`evaluation stopped after ${this.limit} steps (step limit)`, '');
+  }
+
+  private child<T>(field: string, node: unknown, f: (node: Node) => T): T {
+    this.path.push(`.${field}`);
+    if (node === null || typeof node !== 'object' || typeof (node as Node).kind !== 'string') {
+      this.fail('expected a tree node with a "kind"');
+    }
+    const r = f(node as Node);
+    this.path.pop();
+    return r;
+  }
+
+  private bind<T>(node: Node, body: (id: number) => T | undefined): T | undefined {
+    const name = node.var;
+    if (typeof name !== 'string') {
+      this.path.push('.var');
+      this.fail('expected a variable name');
+    }
+    const saved = this.env.get(name);
+    try {
+      for (let e = 0; e < this.n; e++) {
+        this.env.set(name, e);
+        const r = body(e);
+        if (r !== undefined) return r;
+      }
+      return undefined;
+    } finally {
+      if (saved === undefined) this.env.delete(name);
+      else this.env.set(name, saved);
+    }
+  }
+
+  query(node: Node): LfAnswer {
+    this.step();
+    switch (node.kind) {
+      case 'lambda': {
+        const members: string[] = [];
+        this.bind(node, (e) => {
+          if (this.child('body', node.body, (b) => this.formula(b))) members.push(this.facts.entities[e]);
+          return undefined;
+        });
+        return { type: 'set', members };
+      }
+      case 'argmax':
+      case 'argmin': {
+        const values = this.measureTable(node.by, 'by');
+        const sign = node.kind === 'argmax' ? 1 : -1;
+        let best = -Infinity;
+        let members: string[] = [];
+        this.bind(node, (e) => {
+          if (!this.child('body', node.body, (b) => this.formula(b))) return undefined;
+          const v = values[e];
+          if (Number.isNaN(v)) {
+            this.path.push('.by');
+            this.fail(`measure ${String(node.by)} is not defined for ${this.facts.entities[e]}`);
+          }
+          const s = sign * v;
+          if (s > best) {
+            best = s;
+            members = [this.facts.entities[e]];
+          } else if (s === best) members.push(this.facts.entities[e]);
+          return undefined;
+        });
+        return { type: 'best', members };
+      }
+      case 'value':
+        return { type: 'number', value: this.child('expr', node.expr, (x) => this.number(x)) };
+      case 'truth':
+        return { type: 'truth', value: this.child('claim', node.claim, (x) => this.formula(x)) };
+      default:
+        return this.fail(`a query must be lambda, argmax, argmin, value or holds, not "${node.kind}"`);
+    }
+  }
+
+  formula(node: Node): boolean {
+    this.step();
+    switch (node.kind) {
+      case 'and':
+        return this.child('left', node.left, (x) => this.formula(x)) && this.child('right', node.right, (x) => this.formula(x));
+      case 'or':
+        return this.child('left', node.left, (x) => this.formula(x)) || this.child('right', node.right, (x) => this.formula(x));
+      case 'implies':
+        return !this.child('left', node.left, (x) => this.formula(x)) || this.child('right', node.right, (x) => this.formula(x));
+      case 'not':
+        return !this.child('operand', node.operand, (x) => this.formula(x));
+      case 'exists':
+        return this.bind(node, () => (this.child('body', node.body, (b) => this.formula(b)) ? true : undefined)) ?? false;
+      case 'forall':
+        return this.bind(node, () => (this.child('body', node.body, (b) => this.formula(b)) ? undefined : false)) ?? true;
+      case 'is': {
+        const bits = this.facts.classes.get(node.class as string);
+        if (!bits) {
+          this.path.push('.class');
+          this.fail(`unknown class ${String(node.class)}`);
+        }
+        return bits[this.child('arg', node.arg, (x) => this.term(x))] === 1;
+      }
+      case 'rel': {
+        const pairs = this.facts.relations.get(node.rel as string);
+        if (!pairs) {
+          this.path.push('.rel');
+          this.fail(`unknown relation ${String(node.rel)}`);
+        }
+        const s = this.child('subject', node.subject, (x) => this.term(x));
+        const o = this.child('object', node.object, (x) => this.term(x));
+        return pairs.has(s * this.n + o);
+      }
+      case 'equal':
+        return this.child('left', node.left, (x) => this.term(x)) === this.child('right', node.right, (x) => this.term(x));
+      case 'compare': {
+        const l = this.child('left', node.left, (x) => this.number(x));
+        const r = this.child('right', node.right, (x) => this.number(x));
+        const op = (node.op as Node | null)?.kind;
+        switch (op) {
+          case 'lt': return l < r;
+          case 'le': return l <= r;
+          case 'gt': return l > r;
+          case 'ge': return l >= r;
+          case 'eq': return l === r;
+          default:
+            this.path.push('.op');
+            return this.fail(`unknown comparison "${String(op)}"`);
+        }
+      }
+      default:
+        return this.fail(`expected a formula, not "${node.kind}"`);
+    }
+  }
+
+  term(node: Node): number {
+    this.step();
+    if (node.kind === 'var') {
+      const e = this.env.get(node.name as string);
+      if (e === undefined) {
+        this.path.push('.name');
+        this.fail(`unbound variable ${String(node.name)}`);
+      }
+      return e;
+    }
+    if (node.kind === 'const') {
+      const e = this.facts.entityId.get(node.name as string);
+      if (e === undefined) {
+        this.path.push('.name');
+        this.fail(`unknown entity ${String(node.name)}`);
+      }
+      return e;
+    }
+    return this.fail(`expected a term, not "${node.kind}"`);
+  }
+
+  private measureTable(name: unknown, field: string): Float64Array {
+    const values = this.facts.measures.get(name as string);
+    if (!values) {
+      this.path.push(`.${field}`);
+      this.fail(`unknown measure ${String(name)}`);
+    }
+    return values;
+  }
+
+  number(node: Node): number {
+    this.step();
+    switch (node.kind) {
+      case 'sum':
+        return this.child('left', node.left, (x) => this.number(x)) + this.child('right', node.right, (x) => this.number(x));
+      case 'diff':
+        return this.child('left', node.left, (x) => this.number(x)) - this.child('right', node.right, (x) => this.number(x));
+      case 'literal': {
+        const v = node.value;
+        if (typeof v !== 'number' || !Number.isFinite(v)) {
+          this.path.push('.value');
+          this.fail('expected a finite number');
+        }
+        return v;
+      }
+      case 'measure': {
+        const values = this.measureTable(node.fn, 'fn');
+        const e = this.child('arg', node.arg, (x) => this.term(x));
+        const v = values[e];
+        if (Number.isNaN(v)) {
+          this.path.push('.fn');
+          this.fail(`measure ${String(node.fn)} is not defined for ${this.facts.entities[e]}`);
+        }
+        return v;
+      }
+      case 'count': {
+        let c = 0;
+        this.bind(node, () => {
+          if (this.child('body', node.body, (b) => this.formula(b))) c++;
+          return undefined;
+        });
+        return c;
+      }
+      case 'total': {
+        const values = this.measureTable(node.fn, 'fn');
+        let s = 0;
+        this.bind(node, (e) => {
+          if (!this.child('body', node.body, (b) => this.formula(b))) return undefined;
+          const v = values[e];
+          if (Number.isNaN(v)) {
+            this.path.push('.fn');
+            this.fail(`measure ${String(node.fn)} is not defined for ${this.facts.entities[e]}`);
+          }
+          s += v;
+          return undefined;
+        });
+        return s;
+      }
+      default:
+        return this.fail(`expected a number, not "${node.kind}"`);
+    }
+  }
+}
