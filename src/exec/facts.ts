@@ -10,7 +10,10 @@ import type { NameBindings } from '../description/ir.ts';
 
 /** Plain description of a model, e.g. from a lexicon reading database rows. */
 export interface FactsInput {
+  /** every entity of the domain (quantifiers range over all of them) */
   readonly entities: Iterable<string>;
+  /** the entities that are not constants of the language (e.g. unnamed rows); default none */
+  readonly anonymous?: Iterable<string>;
   readonly classes: Readonly<Record<string, Iterable<string>>>;
   readonly relations: Readonly<Record<string, Iterable<readonly [string, string]>>>;
   readonly measures: Readonly<Record<string, Iterable<readonly [string, number]>>>;
@@ -20,6 +23,8 @@ export interface FactBase {
   /** entity names, sorted; an entity's ID is its index here */
   readonly entities: readonly string[];
   readonly entityId: ReadonlyMap<string, number>;
+  /** the entities a program may name (the `Entity` name set), sorted */
+  readonly constants: readonly string[];
   /** class name → membership (1 = member) indexed by entity ID */
   readonly classes: ReadonlyMap<string, Uint8Array>;
   /** relation name → set of subject·n + object */
@@ -59,13 +64,16 @@ export function makeFactBase(input: FactsInput): FactBase {
     }
     measures.set(name, arr);
   }
-  return { entities, entityId, classes, relations, measures };
+  const anonymous = new Set(input.anonymous ?? []);
+  for (const a of anonymous) id(a, 'the anonymous list');
+  const constants = entities.filter((e) => !anonymous.has(e));
+  return { entities, entityId, constants, classes, relations, measures };
 }
 
 /** The names a fact base binds in the `lf` grammar's name sets. */
 export function factNames(facts: FactBase): NameBindings {
   return {
-    Entity: facts.entities,
+    Entity: facts.constants,
     Class: [...facts.classes.keys()].sort(),
     Rel: [...facts.relations.keys()].sort(),
     Measure: [...facts.measures.keys()].sort(),

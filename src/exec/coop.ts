@@ -1,0 +1,111 @@
+/**
+ * The demo cooperative, one source of truth for both executors: `buildCoop` runs
+ * grammars/sql/coop.sql into a SQLite file and reads the same rows back into the logical-form
+ * fact base, through the dataset's lexicon (src/dataset/lexicon.ts) — so the SQL executor and the
+ * LF executor answer over identical facts.
+ *
+ * Fact base (from the lexicon's tables):
+ * - entities: the constant of every named row (`'Hilltop Rows'` → `hilltop_rows`) of growers,
+ *   orchards, varieties and sheds; every village of `growers.village`; and one anonymous entity
+ *   per lot (`lot#17`: in the domain, so quantifiers reach it, but not a constant of the language);
+ * - classes: grower, orchard, variety, shed, lot, and the subclasses (apple, grade_a, …);
+ * - relations: foreign-key, linking-table and attribute relations (owns, lives_in, grows, …);
+ * - measures: the numeric columns (hectares, tonnes, …), defined on their class only.
+ * Cost: one pass over each table; the demo has under 300 rows.
+ */
+import Database from 'better-sqlite3';
+import { CLASSES, MEASURES, RELATIONS, SUBCLASSES, type EntityClass, constantOf } from '../dataset/lexicon.ts';
+import { buildSqliteFileFrom } from './database.ts';
+import { makeFactBase, type FactBase } from './facts.ts';
+
+type Row = Record<string, unknown> & { id: number };
+
+/** Reads an existing cooperative database (opened read-only) into a fact base. */
+export function factsFromDatabase(dbPath: string): FactBase {
+  const db = new Database(dbPath, { readonly: true, fileMustExist: true });
+  try {
+    const rows = new Map<EntityClass, Row[]>();
+    const nameOf = new Map<EntityClass, Map<number, string>>();
+    const owner = new Map<string, string>(); // constant → where it came from (collision check)
+    const entities: string[] = [];
+    const anonymous: string[] = [];
+    const classes: Record<string, string[]> = {};
+    const claim = (name: string, where: string) => {
+      const prev = owner.get(name);
+      if (prev !== undefined && prev !== where) {
+        throw new Error(`${dbPath}: the constant ${name} would denote both ${prev} and ${where}`);
+      }
+      if (prev === undefined) {
+        owner.set(name, where);
+        entities.push(name);
+      }
+    };
+    for (const info of Object.values(CLASSES)) {
+      const rs = db.prepare(`SELECT * FROM ${info.table} ORDER BY id`).all() as Row[];
+      rows.set(info.name, rs);
+      const names = new Map<number, string>();
+      for (const r of rs) {
+        let e: string;
+        if (info.named) {
+          e = constantOf(String(r.name));
+          claim(e, `${info.table} row ${r.id}`);
+        } else {
+          e = `${info.name}#${r.id}`;
+          claim(e, `${info.table} row ${r.id}`);
+          anonymous.push(e);
+        }
+        names.set(r.id, e);
+      }
+      nameOf.set(info.name, names);
+      classes[info.name] = [...names.values()];
+    }
+    const entityOf = (cls: EntityClass, id: unknown): string => {
+      const e = nameOf.get(cls)!.get(Number(id));
+      if (e === undefined) throw new Error(`${dbPath}: no ${CLASSES[cls].table} row with id ${String(id)}`);
+      return e;
+    };
+    for (const s of SUBCLASSES) {
+      classes[s.name] = rows.get(s.of)!.filter((r) => r[s.column] === s.value).map((r) => entityOf(s.of, r.id));
+    }
+    const relations: Record<string, [string, string][]> = {};
+    for (const r of RELATIONS) {
+      const pairs: [string, string][] = [];
+      const link = r.link;
+      if (link.kind === 'attribute') {
+        for (const row of rows.get(r.subject)!) {
+          const v = constantOf(String(row[link.column]));
+          claim(v, `the ${link.column} value ${String(row[link.column])}`);
+          pairs.push([entityOf(r.subject, row.id), v]);
+        }
+      } else if (link.kind === 'fk') {
+        if (r.object === 'village') throw new Error(`lexicon: relation ${r.name} has a village object but a foreign-key link`);
+        const objectCls = r.object;
+        if (link.child === 'object') {
+          for (const row of rows.get(objectCls)!) pairs.push([entityOf(r.subject, row[link.fk]), entityOf(objectCls, row.id)]);
+        } else {
+          for (const row of rows.get(r.subject)!) pairs.push([entityOf(r.subject, row.id), entityOf(objectCls, row[link.fk])]);
+        }
+      } else {
+        if (r.object === 'village') throw new Error(`lexicon: relation ${r.name} has a village object but a linking table`);
+        const objectCls = r.object;
+        for (const row of rows.get(link.through)!) {
+          pairs.push([entityOf(r.subject, row[link.subjectFk]), entityOf(objectCls, row[link.objectFk])]);
+        }
+      }
+      relations[r.name] = pairs;
+    }
+    const measures: Record<string, [string, number][]> = {};
+    for (const m of MEASURES) {
+      measures[m.name] = rows.get(m.of)!.map((row) => [entityOf(m.of, row.id), Number(row[m.column])]);
+    }
+    return makeFactBase({ entities, anonymous, classes, relations, measures });
+  } finally {
+    db.close();
+  }
+}
+
+/** Builds the SQLite file from the SQL script and the fact base from the same rows. */
+export function buildCoop(sqlFile: string, dbPath: string): { dbPath: string; facts: FactBase } {
+  buildSqliteFileFrom(sqlFile, dbPath);
+  return { dbPath, facts: factsFromDatabase(dbPath) };
+}
