@@ -328,7 +328,7 @@ function checkLists(g: Grammar, facts: Facts, out: Diagnostic[], at: At): void {
       (c) => reach.has(c.sort) && c.fields.some((x) => x.type.kind === 'sort' && x.type.name === elem),
     );
     if (recursive) {
-      out.push(E.adjacentListElements(at(item.span), f.name, `a ${elem} can contain another ${elem}`));
+      out.push(E.adjacentListElements(at(item.span), f.name, `an element (${'`'}${elem}${'`'}) can contain another one`));
       return;
     }
     const clash = [...starters].sort().find((t) => inner.has(t));

@@ -55,6 +55,19 @@ export function decodeString(lit: StrLit): { value: string } | { at: Span; detai
   return { value: JSON.parse(raw) as string };
 }
 
+/** No lone surrogates (String.prototype.isWellFormed, written out for older type libraries). */
+function isWellFormed(s: string): boolean {
+  for (let i = 0; i < s.length; i++) {
+    const c = s.charCodeAt(i);
+    if (c >= 0xd800 && c <= 0xdbff) {
+      const d = s.charCodeAt(i + 1);
+      if (!(d >= 0xdc00 && d <= 0xdfff)) return false;
+      i++;
+    } else if (c >= 0xdc00 && c <= 0xdfff) return false;
+  }
+  return true;
+}
+
 /** Offset of a regjsparser failure, parsed from its message ("... at position N"). */
 function regexErrorPosition(message: string): number | null {
   const m = /at position (\d+)/.exec(message);
@@ -112,6 +125,10 @@ export function buildGrammar(ast: DescriptionAst, text: string, file: string, ha
       diags.push(E.badStringEscape(at(r.at), r.detail));
       return null;
     }
+    if (!isWellFormed(r.value)) {
+      diags.push(E.literalNotWellFormed(at(lit.span)));
+      return null;
+    }
     if (isText) {
       if (r.value === '') {
         diags.push(E.emptyLiteral(at(lit.span)));
@@ -157,6 +174,11 @@ export function buildGrammar(ast: DescriptionAst, text: string, file: string, ha
         }
         spaceSpan = d.span;
         space = literal(d.value, false);
+        const odd = space === null ? undefined : [...space].find((ch) => !/\s/u.test(ch));
+        if (odd !== undefined) {
+          diags.push(E.spaceNotWhitespace(at(d.value.span), odd));
+          space = null;
+        }
         break;
       }
       case 'token': {

@@ -182,6 +182,12 @@ export const literalWithSpace = (at: At, text: string) =>
     'write each word as its own literal: "GROUP" "BY"',
   );
 
+export const literalNotWellFormed = (at: At) =>
+  error('literal-not-well-formed', at, 'literal text contains a lone surrogate', 'write the whole character (both halves of the surrogate pair)');
+
+export const spaceNotWhitespace = (at: At, ch: string) =>
+  error('space-not-whitespace', at, `${q('space')} lists ${JSON.stringify(ch)}, which is not a whitespace character`, 'list only whitespace characters, e.g. `space " \\t\\r\\n"`');
+
 // ---- layouts ----------------------------------------------------------------------------------
 
 export const unknownLayoutField = (at: At, name: string, ctor: string, fields: readonly string[]) =>

@@ -591,7 +591,7 @@ describe('diagnostics', () => {
     const text = lines("grammar g", "start A", "space \" \"", "token N = /[0-9]+/ as int", "sort A { list(items: B*) = \"[\" items \"]\"; }", "sort B { b(n: N, c: B?) = \"let\" n \"in\" c; }", '');
     expect(report(text)).toBe(
       lines(
-        "g.twg:5:32: error: list `items` has no separator and its elements can run together: a B can contain another B",
+        "g.twg:5:32: error: list `items` has no separator and its elements can run together: an element (`B`) can contain another one",
         "5 | sort A { list(items: B*) = \"[\" items \"]\"; }",
         "  |                                ^~~~~",
         "hint: add a separator: `items sep \",\"`",
@@ -696,4 +696,48 @@ describe('diagnostics', () => {
     expect(compileDescription(text, 'g.twg').grammar).toBeNull();
   });
 
+  it("loneSurrogate", () => {
+    const text = lines("grammar g", "start A", "space \" \"", "sort A { a() = \"\\ud800\"; }", '');
+    expect(report(text)).toBe(
+      lines(
+        "g.twg:4:16: error: literal text contains a lone surrogate",
+        "4 | sort A { a() = \"\\ud800\"; }",
+        "  |                ^~~~~~~~",
+        "hint: write the whole character (both halves of the surrogate pair)",
+      ),
+    );
+    expect(compileDescription(text, 'g.twg').grammar).toBeNull();
+  });
+
+  it("spaceNotWhitespace", () => {
+    const text = lines("grammar g", "start A", "space \" _\"", "sort A { a() = \"x\"; }", '');
+    expect(report(text)).toBe(
+      lines(
+        "g.twg:3:7: error: `space` lists \"_\", which is not a whitespace character",
+        "3 | space \" _\"",
+        "  |       ^~~~",
+        "hint: list only whitespace characters, e.g. `space \" \\t\\r\\n\"`",
+      ),
+    );
+    expect(compileDescription(text, 'g.twg').grammar).toBeNull();
+  });
+
+  it('a valid description has no diagnostics and every check ran on it', () => {
+    const text = lines('grammar g', 'start A', 'space " "', 'sort A { a() = "x"; }', '');
+    expect(report(text)).toBe('');
+    expect(compileDescription(text, 'g.twg').grammar?.keywords).toEqual(['x']);
+  });
+
+  it('collects several errors in one run, errors before warnings, in source order', () => {
+    const text = lines(
+      'grammar g',
+      'start A',
+      'space " "',
+      'sort A { a(x: Nope) = "a" x; b(y: A?) = "b" z; }',
+      'sort A { c() = "c"; }',
+      '',
+    );
+    const codes = compileDescription(text, 'g.twg').diagnostics.map((d) => d.code);
+    expect(codes).toEqual(['undefined-type', 'field-missing-from-layout', 'unknown-layout-field', 'duplicate-sort']);
+  });
 });

@@ -1,0 +1,50 @@
+// Fuzz test of the description compiler: seeded random mutations of the four shipped grammars
+// (delete a span, duplicate a line, swap two tokens, truncate, insert punctuation; one to three per
+// case) must each give a grammar or located errors, never an exception, and each compile must end
+// within a second (a hang guard, not a performance test). Inputs kept under
+// test/cases/description-fuzz/ are checked the same way.
+import { readdirSync, readFileSync } from 'node:fs';
+import { describe, expect, it } from 'vitest';
+import { checkInput } from './fuzz-check.ts';
+import { randomMutant, rng } from './mutate.ts';
+
+const GRAMMARS = ['arith', 'json', 'lf', 'sql'];
+const PER_GRAMMAR = 150; // 600 cases in all
+const HANG_GUARD_MS = 1000;
+
+describe('description fuzz', () => {
+  for (const [gi, name] of GRAMMARS.entries()) {
+    it(`${PER_GRAMMAR} mutants of ${name}.twg compile or fail with located errors`, () => {
+      const text = readFileSync(`grammars/${name}/${name}.twg`, 'utf8');
+      const problems: string[] = [];
+      let changed = 0;
+      for (let i = 0; i < PER_GRAMMAR; i++) {
+        const seed = 7_000 + gi * 1_000 + i;
+        const m = randomMutant(text, rng(seed));
+        if (m.text !== text) changed++;
+        const t0 = performance.now();
+        const problem = checkInput(m.text, `${name}-mutant.twg`);
+        const ms = performance.now() - t0;
+        if (problem) problems.push(`seed ${seed} (${m.kinds.join(', ')}): ${problem}`);
+        if (ms > HANG_GUARD_MS) problems.push(`seed ${seed} (${m.kinds.join(', ')}): took ${ms.toFixed(0)} ms`);
+      }
+      expect(problems).toEqual([]);
+      // the mutator must actually mutate (a duplicated blank line or a swap of equal tokens may not)
+      expect(changed).toBeGreaterThan(PER_GRAMMAR * 0.9);
+    });
+  }
+
+  const dir = 'test/cases/description-fuzz';
+  const kept = readdirSync(dir).filter((f) => f.endsWith('.twg')).sort();
+  it('kept inputs exist', () => {
+    expect(kept.length).toBeGreaterThan(0);
+  });
+  for (const f of kept) {
+    it(`kept input ${f}`, () => {
+      const text = readFileSync(`${dir}/${f}`, 'utf8');
+      const t0 = performance.now();
+      expect(checkInput(text, f)).toBeNull();
+      expect(performance.now() - t0).toBeLessThan(HANG_GUARD_MS);
+    });
+  }
+});
