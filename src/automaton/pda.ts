@@ -1,0 +1,511 @@
+/**
+ * The pushdown automaton over bytes: an immutable compiled network (`Automaton`), a per-binding
+ * layer (`Bound`: name-set tries, liveness and shortest-completion tables under the bound names),
+ * and persistent runtime states.
+ *
+ * Runtime state (`PdaState`) = a set of threads + whether the last byte was a word character.
+ * A thread is one parse of the text so far:
+ * - BETWEEN (term = -1): the text so far ends after a complete terminal (or at the start); `node`
+ *   is the RTN node reached; any run of space characters may follow.
+ * - LEX (term ≥ 0): inside a lexeme of terminal `term`; `lex` is the lexeme automaton's state
+ *   (DFA state for lit/class/newvar, trie node for names; boundvar keeps `text`); `node` is the RTN
+ *   node reached once the lexeme ends.
+ * `frames` is the call stack as shared immutable linked frames (return node + the caller's scope),
+ * `env` the variables in scope (an immutable linked list). Advancing builds new threads and shares
+ * every frame, so forking a state is sharing a reference and rollback is keeping the old state.
+ *
+ * Invariants (established by construction, relied on by the masks):
+ * - Every thread of a state is viable: it has a completion under the bound names (options and
+ *   pushed frames are filtered by the liveness tables of `Bound`), except for the scoping caveat
+ *   in DEVELOPERS text: a `bound` field is live when some variable is in scope.
+ * - A state with no thread is dead; `viable(state)` is one comparison (threads.length !== 0).
+ * - The word-boundary rule: a terminal may start with a word byte only if the previous byte was
+ *   not a word byte (a space between two tokens resets it).
+ */
+import type { Grammar, NameBindings } from '../description/ir.ts';
+import { AutomatonError, buildRtn, closures, EDGE_CALL, EDGE_EPS, EDGE_TERM, type Option, type Rtn } from './cfg.ts';
+import { runDfa } from './regex.ts';
+
+export const INF = 0x3fffffff;
+
+/** Word characters for the word-boundary rule: [A-Za-z0-9_]. */
+export const WORD = new Uint8Array(256);
+for (let c = 0; c < 256; c++) {
+  WORD[c] = (c >= 48 && c <= 57) || (c >= 65 && c <= 90) || (c >= 97 && c <= 122) || c === 95 ? 1 : 0;
+}
+
+export class Env {
+  constructor(
+    readonly name: string, // lexeme bytes as a latin1 string
+    readonly next: Env | null,
+    readonly minLen: number,
+  ) {}
+  static add(env: Env | null, name: string): Env {
+    return new Env(name, env, env === null ? name.length : Math.min(env.minLen, name.length));
+  }
+}
+
+export class Frame {
+  constructor(
+    readonly ret: number,
+    readonly env: Env | null,
+    readonly next: Frame | null,
+    /** shortest completion (bytes, upper bound) of this frame and all below it */
+    readonly rest: number,
+  ) {}
+}
+
+export class Thread {
+  constructor(
+    readonly node: number,
+    readonly term: number,
+    readonly lex: number,
+    readonly text: string,
+    readonly frames: Frame | null,
+    readonly env: Env | null,
+  ) {}
+}
+
+export interface PdaState {
+  readonly threads: readonly Thread[];
+  readonly prevWord: boolean;
+  /** the state before the last advance (rollback), null at the start */
+  readonly prev: PdaState | null;
+}
+
+/** The compiled, immutable automaton of a grammar (independent of names and vocabulary). */
+export class Automaton {
+  readonly rtn: Rtn;
+  /** flattened options: node n's options are [optStart[n], optStart[n+1]) */
+  readonly optStart: Int32Array;
+  readonly optTerm: Int32Array;
+  readonly optTarget: Int32Array;
+  readonly optPush: readonly Int32Array[];
+  readonly canPop: Uint8Array;
+  /** the class terminal index whose DFA a terminal uses for precomputation, per terminal */
+  readonly startNode: number;
+
+  constructor(readonly grammar: Grammar) {
+    this.rtn = buildRtn(grammar);
+    const { options, canPop } = closures(this.rtn, grammar);
+    this.canPop = canPop;
+    const n = options.length;
+    this.optStart = new Int32Array(n + 1);
+    const all: Option[] = [];
+    for (let i = 0; i < n; i++) {
+      this.optStart[i] = all.length;
+      all.push(...options[i]);
+    }
+    this.optStart[n] = all.length;
+    this.optTerm = Int32Array.from(all.map((o) => o.term));
+    this.optTarget = Int32Array.from(all.map((o) => o.target));
+    this.optPush = all.map((o) => o.push);
+    this.startNode = this.rtn.nts[this.rtn.startNt].start;
+  }
+
+  /** Binds open name sets (and checks them); cheap: no vocabulary work. */
+  bind(names: NameBindings): Bound {
+    return new Bound(this, names);
+  }
+}
+
+/** A finite set of byte strings as a trie (name-set members). Node 0 is the root. */
+export class NameTrie {
+  readonly child: Array<Map<number, number>> = [new Map()];
+  readonly final: number[] = [0];
+  /** fewest bytes from the node to the end of a member */
+  minRest: Int32Array = new Int32Array(0);
+  shortest = '';
+  constructor(members: readonly Uint8Array[]) {
+    for (const m of members) {
+      let n = 0;
+      for (const b of m) {
+        let c = this.child[n].get(b);
+        if (c === undefined) {
+          c = this.child.length;
+          this.child.push(new Map());
+          this.final.push(0);
+          this.child[n].set(b, c);
+        }
+        n = c;
+      }
+      this.final[n] = 1;
+    }
+    const k = this.child.length;
+    this.minRest = new Int32Array(k).fill(INF);
+    for (let i = k - 1; i >= 0; i--) {
+      // children have larger ids than parents (built in insertion order)
+      let best = this.final[i] ? 0 : INF;
+      for (const c of this.child[i].values()) best = Math.min(best, this.minRest[c] + 1);
+      this.minRest[i] = best;
+    }
+    let best: Uint8Array | null = null;
+    for (const m of members) if (best === null || m.length < best.length) best = m;
+    this.shortest = best === null ? '' : Buffer.from(best).toString('latin1');
+  }
+  step(node: number, b: number): number {
+    const c = this.child[node].get(b);
+    return c === undefined ? -1 : c;
+  }
+}
+
+export class BindError extends Error {}
+
+const utf8 = new TextEncoder();
+
+/**
+ * The automaton under one binding of the open name sets. Holds the liveness and distance tables;
+ * creates and advances runtime states. Immutable after construction.
+ */
+export class Bound {
+  readonly tries: (NameTrie | null)[];
+  /** option viability per mode: [0] no variable in scope, [1] some variable in scope */
+  readonly optOk: [Uint8Array, Uint8Array];
+  /** shortest completion of a node to its nonterminal's end: mode 0 (bytes) */
+  readonly dist0: Int32Array;
+  /** mode 1: bytes excluding bound-variable lexemes (a) + number of bound-variable lexemes (k) */
+  readonly dist1a: Int32Array;
+  readonly dist1k: Int32Array;
+  /** shortest lexeme length of the classes used by `new` fields (for mode 0 → 1 after a binding) */
+  readonly newVarLen: number;
+  readonly termCost: Int32Array;
+  readonly start: PdaState;
+
+  constructor(readonly automaton: Automaton, names: NameBindings) {
+    const g = automaton.grammar;
+    const rtn = automaton.rtn;
+    for (const key of Object.keys(names)) {
+      if (!g.nameSets.some((s) => s.name === key)) {
+        throw new BindError(`names: ${JSON.stringify(key)} is not a name set of grammar ${g.name}; expected one of ${g.nameSets.map((s) => s.name).join(', ') || '(none)'}`);
+      }
+    }
+    this.tries = g.nameSets.map((s) => {
+      const members = names[s.name];
+      if (members === undefined) return null;
+      if (!Array.isArray(members)) throw new BindError(`names.${s.name}: expected an array of strings`);
+      const cls = g.tokens.find((t) => t.name === s.token)!;
+      const dfa = rtn.terminals.find((t) => t.tokenClass === cls.index && t.kind !== 'lit')?.dfa;
+      const bytes = members.map((m, i) => {
+        if (typeof m !== 'string') throw new BindError(`names.${s.name}[${i}]: expected a string`);
+        const b = utf8.encode(m);
+        if (dfa && !dfa.accept[runDfa(dfa, dfa.start, b)]) {
+          throw new BindError(`names.${s.name}[${i}]: ${JSON.stringify(m)} is not a lexeme of token class ${cls.name} (/${cls.pattern}/${cls.reserved ? ', reserved: keywords excluded' : ''})`);
+        }
+        return b;
+      });
+      return new NameTrie(bytes);
+    });
+    // unbound sets that the grammar uses are an error
+    for (const t of rtn.terminals) {
+      if (t.kind === 'names' && this.tries[t.nameSet] === null) {
+        throw new BindError(`names: the name set ${t.name} is not bound; expected a list of ${g.nameSets[t.nameSet].token} lexemes for it (--names FILE with {"${t.name}": [...]} or --db FILE)`);
+      }
+    }
+    let nv = INF;
+    for (const t of rtn.terminals) if (t.kind === 'newvar' && t.dfa.shortest) nv = Math.min(nv, t.dfa.shortest.length);
+    this.newVarLen = nv === INF ? 1 : nv;
+    // terminal costs: shortest lexeme + 1 when it starts with a word byte (a separating space)
+    const termCost = new Int32Array(rtn.terminals.length);
+    for (const t of rtn.terminals) {
+      let s: string | null = null;
+      if (t.kind === 'names') {
+        const trie = this.tries[t.nameSet]!;
+        s = trie.final.some((f) => f) ? trie.shortest : null;
+      } else if (t.kind === 'boundvar') s = '';
+      else s = t.dfa.shortest ? Buffer.from(t.dfa.shortest).toString('latin1') : null;
+      termCost[t.index] = s === null ? INF : t.kind === 'boundvar' ? 1 : s.length + (s.length > 0 && WORD[s.charCodeAt(0)] ? 1 : 0);
+    }
+    this.termCost = termCost;
+    const n = rtn.nodeNt.length;
+    const dist0 = new Int32Array(n).fill(INF);
+    const d1a = new Int32Array(n).fill(INF);
+    const d1k = new Int32Array(n).fill(0);
+    const w = 1 + this.newVarLen;
+    const v1 = (i: number) => (d1a[i] >= INF ? INF : d1a[i] + d1k[i] * w);
+    for (const nt of rtn.nts) {
+      dist0[nt.final] = 0;
+      d1a[nt.final] = 0;
+    }
+    for (let changed = true; changed; ) {
+      changed = false;
+      for (let m = n - 1; m >= 0; m--) {
+        for (let e = rtn.edgeStart[m]; e < rtn.edgeStart[m + 1]; e++) {
+          const to = rtn.edgeTo[e];
+          const kind = rtn.edgeKind[e];
+          let c0 = INF;
+          let c1a = INF;
+          let c1k = 0;
+          if (kind === EDGE_EPS) {
+            c0 = dist0[to];
+            c1a = d1a[to];
+            c1k = d1k[to];
+          } else if (kind === EDGE_TERM) {
+            const t = rtn.terminals[rtn.edgeArg[e]];
+            const tc = termCost[t.index];
+            if (t.kind === 'boundvar') {
+              if (d1a[to] < INF) {
+                c1a = d1a[to];
+                c1k = 1 + d1k[to];
+              }
+            } else if (tc < INF) {
+              if (t.kind === 'newvar') {
+                if (d1a[to] < INF) c0 = tc + v1(to);
+              } else if (dist0[to] < INF) c0 = tc + dist0[to];
+              if (d1a[to] < INF) {
+                c1a = tc + d1a[to];
+                c1k = d1k[to];
+              }
+            }
+          } else {
+            const st = rtn.nts[rtn.edgeArg[e]].start;
+            if (dist0[st] < INF && dist0[to] < INF) c0 = dist0[st] + dist0[to];
+            if (d1a[st] < INF && d1a[to] < INF) {
+              c1a = d1a[st] + d1a[to];
+              c1k = d1k[st] + d1k[to];
+            }
+          }
+          if (c0 < dist0[m]) {
+            dist0[m] = c0;
+            changed = true;
+          }
+          if (c1a < INF && c1a + c1k * w < v1(m)) {
+            d1a[m] = c1a;
+            d1k[m] = c1k;
+            changed = true;
+          }
+        }
+      }
+    }
+    this.dist0 = dist0;
+    this.dist1a = d1a;
+    this.dist1k = d1k;
+    const nOpt = automaton.optTerm.length;
+    const ok0 = new Uint8Array(nOpt);
+    const ok1 = new Uint8Array(nOpt);
+    for (let o = 0; o < nOpt; o++) {
+      const t = rtn.terminals[automaton.optTerm[o]];
+      const target = automaton.optTarget[o];
+      const push = automaton.optPush[o];
+      if (termCost[t.index] >= INF) continue;
+      let p0 = true;
+      let p1 = true;
+      for (const r of push) {
+        if (dist0[r] >= INF) p0 = false;
+        if (d1a[r] >= INF) p1 = false;
+      }
+      const t0 = t.kind === 'boundvar' ? false : t.kind === 'newvar' ? d1a[target] < INF : dist0[target] < INF;
+      const t1 = d1a[target] < INF;
+      ok0[o] = p0 && t0 ? 1 : 0;
+      ok1[o] = p1 && t1 ? 1 : 0;
+    }
+    this.optOk = [ok0, ok1];
+    if (dist0[automaton.startNode] >= INF) {
+      throw new BindError(`names: no program of grammar ${g.name} can be written with the bound names (${g.nameSets.map((s) => `${s.name}: ${names[s.name]?.length ?? 0}`).join(', ')}); expected non-empty name sets where the start sort needs them`);
+    }
+    this.start = { threads: [new Thread(automaton.startNode, -1, 0, '', null, null)], prevWord: false, prev: null };
+  }
+
+  /** Shortest completion (bytes, an achievable upper bound) from `node` to its nonterminal's end under `env`. */
+  nodeDist(node: number, env: Env | null): number {
+    if (env === null) return this.dist0[node];
+    const a = this.dist1a[node];
+    return a >= INF ? INF : a + this.dist1k[node] * (1 + env.minLen);
+  }
+
+  /** Shortest completion (bytes) of a BETWEEN thread at `node` with `frames`, `env`. */
+  betweenDist(node: number, env: Env | null, frames: Frame | null): number {
+    return this.nodeDist(node, env) + (frames === null ? 0 : frames.rest);
+  }
+
+  /** Shortest completion (bytes) of any thread. */
+  threadDist(th: Thread): number {
+    if (th.term < 0) return this.betweenDist(th.node, th.env, th.frames);
+    const t = this.automaton.rtn.terminals[th.term];
+    let lexRest: number;
+    let env = th.env;
+    if (t.kind === 'names') lexRest = this.tries[t.nameSet]!.minRest[th.lex - 1];
+    else if (t.kind === 'boundvar') lexRest = boundRest(th.env, th.text);
+    else {
+      lexRest = t.dfa.minAccept[th.lex];
+      if (t.kind === 'newvar') env = Env.add(env, th.text + 'x'.repeat(lexRest));
+    }
+    return lexRest + this.betweenDist(th.node, env, th.frames);
+  }
+
+  /** Pushes frames for option `o` on top of `frames` (caller scope `env`). */
+  pushFrames(o: number, frames: Frame | null, env: Env | null): Frame | null {
+    const push = this.automaton.optPush[o];
+    let f = frames;
+    for (let i = 0; i < push.length; i++) {
+      const r = push[i];
+      f = new Frame(r, env, f, this.nodeDist(r, env) + (f === null ? 0 : f.rest));
+    }
+    return f;
+  }
+
+  /** The first lexeme state of terminal `term` after byte `b` (0 = cannot start), for DFA/trie kinds. */
+  startLex(term: number, b: number, env: Env | null): number {
+    const t = this.automaton.rtn.terminals[term];
+    switch (t.kind) {
+      case 'names': {
+        const c = this.tries[t.nameSet]!.step(0, b);
+        return c < 0 ? 0 : c + 1; // trie nodes are stored +1 so that 0 stays "dead"
+      }
+      case 'boundvar':
+        return boundHasPrefix(env, String.fromCharCode(b)) ? 1 : 0;
+      default:
+        return t.dfa.trans[t.dfa.start * 256 + b];
+    }
+  }
+
+  /** Steps one thread by byte `b`; pushes the resulting threads onto `out`. */
+  stepThread(th: Thread, b: number, prevWord: boolean, out: Thread[]): void {
+    const a = this.automaton;
+    const rtn = a.rtn;
+    if (th.term < 0) {
+      if (rtn.space[b]) {
+        out.push(th);
+        return;
+      }
+      if (prevWord && WORD[b]) return;
+      let node = th.node;
+      let frames = th.frames;
+      let env = th.env;
+      for (;;) {
+        const ok = this.optOk[env === null ? 0 : 1];
+        for (let o = a.optStart[node]; o < a.optStart[node + 1]; o++) {
+          if (!ok[o]) continue;
+          const term = a.optTerm[o];
+          const s = this.startLex(term, b, env);
+          if (s === 0) continue;
+          const t = rtn.terminals[term];
+          const text = t.kind === 'newvar' || t.kind === 'boundvar' ? String.fromCharCode(b) : '';
+          out.push(new Thread(a.optTarget[o], term, s, text, this.pushFrames(o, frames, env), env));
+        }
+        if (!a.canPop[node] || frames === null) return;
+        node = frames.ret;
+        env = frames.env;
+        frames = frames.next;
+      }
+    }
+    const t = rtn.terminals[th.term];
+    let next = 0;
+    let accepting = false;
+    switch (t.kind) {
+      case 'names': {
+        const trie = this.tries[t.nameSet]!;
+        const c = trie.step(th.lex - 1, b);
+        next = c < 0 ? 0 : c + 1;
+        accepting = trie.final[th.lex - 1] === 1;
+        break;
+      }
+      case 'boundvar':
+        next = boundHasPrefix(th.env, th.text + String.fromCharCode(b)) ? 1 : 0;
+        accepting = boundHas(th.env, th.text);
+        break;
+      default:
+        next = t.dfa.trans[th.lex * 256 + b];
+        accepting = t.dfa.accept[th.lex] === 1;
+    }
+    if (next !== 0) {
+      const text = t.kind === 'newvar' || t.kind === 'boundvar' ? th.text + String.fromCharCode(b) : '';
+      out.push(new Thread(th.node, th.term, next, text, th.frames, th.env));
+    }
+    if (accepting) this.stepThread(this.endLexeme(th), b, prevWord, out);
+  }
+
+  /** The BETWEEN thread after the lexeme of LEX thread `th` ends here. */
+  endLexeme(th: Thread): Thread {
+    const t = this.automaton.rtn.terminals[th.term];
+    const env = t.kind === 'newvar' ? Env.add(th.env, th.text) : th.env;
+    return new Thread(th.node, -1, 0, '', th.frames, env);
+  }
+
+  /** True when the lexeme of LEX thread `th` may end here. */
+  lexAccepting(th: Thread): boolean {
+    const t = this.automaton.rtn.terminals[th.term];
+    if (t.kind === 'names') return this.tries[t.nameSet]!.final[th.lex - 1] === 1;
+    if (t.kind === 'boundvar') return boundHas(th.env, th.text);
+    return t.dfa.accept[th.lex] === 1;
+  }
+
+  /** True when a BETWEEN thread can finish the program (every frame may return, empty moves only). */
+  betweenComplete(th: Thread): boolean {
+    const a = this.automaton;
+    let node = th.node;
+    let frames = th.frames;
+    for (;;) {
+      if (!a.canPop[node]) return false;
+      if (frames === null) return true;
+      node = frames.ret;
+      frames = frames.next;
+    }
+  }
+
+  threadComplete(th: Thread): boolean {
+    if (th.term < 0) return this.betweenComplete(th);
+    return this.lexAccepting(th) && this.betweenComplete(this.endLexeme(th));
+  }
+
+  /** The state after `bytes`; a dead state (no threads) when they are not a viable continuation. */
+  advanceBytes(state: PdaState, bytes: ArrayLike<number>): PdaState {
+    let threads: readonly Thread[] = state.threads;
+    let prevWord = state.prevWord;
+    for (let i = 0; i < bytes.length && threads.length > 0; i++) {
+      const b = bytes[i];
+      const out: Thread[] = [];
+      for (const th of threads) this.stepThread(th, b, prevWord, out);
+      threads = dedupe(out);
+      prevWord = WORD[b] === 1;
+    }
+    return { threads, prevWord, prev: state };
+  }
+
+  isComplete(state: PdaState): boolean {
+    for (const th of state.threads) if (this.threadComplete(th)) return true;
+    return false;
+  }
+
+  viable(state: PdaState): boolean {
+    return state.threads.length !== 0;
+  }
+
+  /** Fewest bytes (an achievable upper bound on the true minimum) that complete the program. */
+  shortestCompletion(state: PdaState): number {
+    let best = INF;
+    for (const th of state.threads) best = Math.min(best, this.threadDist(th));
+    return best;
+  }
+}
+
+/** Removes duplicate threads (same fields, same frame/env objects). */
+function dedupe(threads: Thread[]): Thread[] {
+  if (threads.length < 2) return threads;
+  const out: Thread[] = [];
+  outer: for (const t of threads) {
+    for (const u of out) {
+      if (u === t || (u.node === t.node && u.term === t.term && u.lex === t.lex && u.text === t.text && u.frames === t.frames && u.env === t.env)) continue outer;
+    }
+    out.push(t);
+  }
+  if (out.length > 4096) throw new AutomatonError(`the text so far has more than 4096 parses; the grammar is too ambiguous for the mask automaton`);
+  return out;
+}
+
+export function boundHasPrefix(env: Env | null, prefix: string): boolean {
+  for (let e = env; e !== null; e = e.next) if (e.name.startsWith(prefix)) return true;
+  return false;
+}
+
+export function boundHas(env: Env | null, name: string): boolean {
+  for (let e = env; e !== null; e = e.next) if (e.name === name) return true;
+  return false;
+}
+
+function boundRest(env: Env | null, prefix: string): number {
+  let best = INF;
+  for (let e = env; e !== null; e = e.next) if (e.name.startsWith(prefix)) best = Math.min(best, e.name.length - prefix.length);
+  return best;
+}
+
+export { AutomatonError, EDGE_CALL };
