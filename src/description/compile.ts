@@ -4,7 +4,7 @@
  * analyses (productivity, reachability, ambiguity, left recursion) live in analysis.ts and run on
  * the IR only when this pass found no error.
  */
-import { parse as parseRegex } from 'regjsparser';
+import regjsparser from 'regjsparser';
 import type {
   Cardinality,
   Constructor,
@@ -236,7 +236,7 @@ export function buildGrammar(ast: DescriptionAst, text: string, file: string, ha
     let position: number | null = null;
     let detail: string | null = null;
     try {
-      parseRegex(r.body, r.flags, { namedGroups: true, lookbehind: true, unicodePropertyEscape: true });
+      regjsparser.parse(r.body, r.flags, { namedGroups: true, lookbehind: true, unicodePropertyEscape: true });
     } catch (e) {
       const msg = String((e as Error).message ?? e);
       position = regexErrorPosition(msg);

@@ -3,9 +3,11 @@
  * add a line here to make it part of the CLI.
  */
 import type { Command } from 'commander';
+import { register as check } from './check.ts';
 
 /** Adds one subcommand to the program. `setExit` records the process exit code. */
 export type RegisterCommand = (program: Command, setExit: (code: number) => void) => void;
 
 export const COMMANDS: RegisterCommand[] = [
+  check,
 ];
