@@ -1,0 +1,118 @@
+/**
+ * metrics.json and the taxonomy of failures, computed from result rows.
+ *
+ * metrics.json:
+ * ```
+ * { "<split>": {
+ *     "unconstrained": { "valid": R, "well_typed": R, "executable": R, "exact_match": R,
+ *                        "execution_accuracy": R, "latency_ms_p50": ms, "latency_ms_p95": ms },
+ *     "constrained":   { …the same… },
+ *     "mcnemar_p": { "exact_match": p, "execution_accuracy": p } } }
+ * ```
+ * where R = `{ "rate", "ci_low", "ci_high", "n" }` (95% percentile bootstrap, see stats.ts).
+ * valid = the output parses; well_typed = it also passes the tree check with the bound names;
+ * executable = it ran without error; exact_match = tree equal to gold; execution_accuracy = its
+ * answer equals the gold answer. `mcnemar_p` compares the two modes on the items decoded in both
+ * (exact two-sided test on discordant pairs); null when a mode has no rows.
+ */
+import { bootstrapRate, mcnemarPaired, quantile, type RateCI } from './stats.ts';
+import type { EvalRow, Mode } from './run.ts';
+
+export interface ModeMetrics {
+  readonly valid: RateCI;
+  readonly well_typed: RateCI;
+  readonly executable: RateCI;
+  readonly exact_match: RateCI;
+  readonly execution_accuracy: RateCI;
+  readonly latency_ms_p50: number | null;
+  readonly latency_ms_p95: number | null;
+}
+
+export interface SplitMetrics {
+  readonly unconstrained: ModeMetrics;
+  readonly constrained: ModeMetrics;
+  readonly mcnemar_p: { readonly exact_match: number | null; readonly execution_accuracy: number | null };
+}
+
+export type Metrics = Record<string, SplitMetrics>;
+
+export const RATE_METRICS = ['valid', 'well_typed', 'executable', 'exact_match', 'execution_accuracy'] as const;
+export type RateMetric = (typeof RATE_METRICS)[number];
+
+function outcome(row: EvalRow, metric: RateMetric): boolean {
+  switch (metric) {
+    case 'valid': return row.parses;
+    case 'well_typed': return row.well_typed;
+    case 'executable': return row.executes;
+    case 'exact_match': return row.exact_match;
+    case 'execution_accuracy': return row.denotation_match;
+  }
+}
+
+function modeMetrics(rows: readonly EvalRow[]): ModeMetrics {
+  const lat = rows.map((r) => r.latency_ms);
+  const rate = (m: RateMetric) => bootstrapRate(rows.map((r) => outcome(r, m)));
+  return {
+    valid: rate('valid'),
+    well_typed: rate('well_typed'),
+    executable: rate('executable'),
+    exact_match: rate('exact_match'),
+    execution_accuracy: rate('execution_accuracy'),
+    latency_ms_p50: round(quantile(lat, 0.5)),
+    latency_ms_p95: round(quantile(lat, 0.95)),
+  };
+}
+
+function round(x: number | null): number | null {
+  return x === null ? null : Math.round(x * 1000) / 1000;
+}
+
+/** Splits in first-seen order. */
+export function splitsOf(rows: readonly EvalRow[]): string[] {
+  return [...new Set(rows.map((r) => r.split))];
+}
+
+export function computeMetrics(rows: readonly EvalRow[]): Metrics {
+  const out: Metrics = {};
+  for (const split of splitsOf(rows)) {
+    const inSplit = rows.filter((r) => r.split === split);
+    const by = (mode: Mode) => inSplit.filter((r) => r.mode === mode);
+    const un = by('unconstrained');
+    const co = by('constrained');
+    const coById = new Map(co.map((r) => [r.id, r]));
+    const pairs = un.filter((r) => coById.has(r.id)).map((r) => [r, coById.get(r.id)!] as const);
+    const p = (metric: RateMetric) =>
+      pairs.length === 0 ? null : mcnemarPaired(pairs.map(([, c]) => outcome(c, metric)), pairs.map(([u]) => outcome(u, metric))).p;
+    out[split] = {
+      unconstrained: modeMetrics(un),
+      constrained: modeMetrics(co),
+      mcnemar_p: { exact_match: p('exact_match'), execution_accuracy: p('execution_accuracy') },
+    };
+  }
+  return out;
+}
+
+export interface TaxonomyEntry {
+  readonly category: string;
+  readonly count: number;
+  /** an example id (the first seen) */
+  readonly example: string;
+}
+
+/** Failures per mode, most frequent first (ties by category name). */
+export function computeTaxonomy(rows: readonly EvalRow[]): Record<Mode, TaxonomyEntry[]> {
+  const result = { unconstrained: [] as TaxonomyEntry[], constrained: [] as TaxonomyEntry[] };
+  for (const mode of ['unconstrained', 'constrained'] as const) {
+    const counts = new Map<string, { count: number; example: string }>();
+    for (const r of rows) {
+      if (r.mode !== mode || r.failure === null) continue;
+      const c = counts.get(r.failure.category);
+      if (c) c.count++;
+      else counts.set(r.failure.category, { count: 1, example: r.id });
+    }
+    result[mode] = [...counts]
+      .map(([category, { count, example }]) => ({ category, count, example }))
+      .sort((a, b) => b.count - a.count || (a.category < b.category ? -1 : a.category > b.category ? 1 : 0));
+  }
+  return result;
+}
