@@ -26,7 +26,7 @@ export interface VocabularyParts {
   trie?: TokenTrie;
 }
 
-const decoder = new TextDecoder();
+const decoder = new TextDecoder('utf-8', { ignoreBOM: true });
 
 export class Vocabulary {
   /** Max token id + 1 over the model vocabulary and the added tokens. */
