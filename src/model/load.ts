@@ -1,0 +1,199 @@
+/**
+ * Loading a seq2seq model folder: config.json, the tokenizer, the ONNX sessions; every check that
+ * can fail is done here, before any decoding starts.
+ */
+import { existsSync, readFileSync, statSync } from 'node:fs';
+import { join, resolve } from 'node:path';
+import * as ort from 'onnxruntime-node';
+import { AutoTokenizer, type PreTrainedTokenizer } from '@huggingface/transformers';
+import { loadVocabulary, type Vocabulary } from '../vocab/index.ts';
+import { ModelError, errors } from './errors.ts';
+import { DecoderRun } from './run.ts';
+
+export interface ModelConfig {
+  readonly encoderLayers: number;
+  readonly decoderLayers: number;
+  readonly heads: number;
+  readonly dKv: number;
+  readonly dModel: number;
+  readonly vocabSize: number;
+  readonly padId: number;
+  readonly eosIds: readonly number[];
+  readonly decoderStartId: number;
+  /** Longest decoder sequence the model supports (max_position_embeddings, else n_positions, else 512). */
+  readonly maxPositions: number;
+}
+
+export interface LoadModelOptions {
+  /** onnxruntime intra-op threads (default: onnxruntime's choice). */
+  threads?: number;
+  /** Ignore decoder_model_merged.onnx and decode without cache from decoder_model.onnx. */
+  noCache?: boolean;
+}
+
+function readJson(file: string): Record<string, unknown> {
+  if (!existsSync(file)) throw errors.missingFile(file);
+  let value: unknown;
+  try {
+    value = JSON.parse(readFileSync(file, 'utf8'));
+  } catch (e) {
+    throw errors.badJson(file, (e as Error).message);
+  }
+  if (value === null || typeof value !== 'object' || Array.isArray(value)) throw errors.badJson(file, 'the top level is not an object');
+  return value as Record<string, unknown>;
+}
+
+function readConfig(file: string): ModelConfig {
+  const c = readJson(file);
+  const int = (key: string, fallback?: number): number => {
+    const v = c[key] ?? fallback;
+    if (typeof v !== 'number' || !Number.isInteger(v) || v < 0) throw errors.badConfigField(file, key, c[key], 'a non-negative integer');
+    return v;
+  };
+  if (c.is_encoder_decoder !== true) throw errors.badConfigField(file, 'is_encoder_decoder', c.is_encoder_decoder, 'true (a seq2seq model)');
+  const eosRaw = c.eos_token_id;
+  const eosIds = Array.isArray(eosRaw) ? eosRaw : [eosRaw];
+  if (eosIds.length === 0 || !eosIds.every((x) => typeof x === 'number' && Number.isInteger(x) && x >= 0)) {
+    throw errors.badConfigField(file, 'eos_token_id', eosRaw, 'a token id or a list of token ids');
+  }
+  const encoderLayers = int('num_layers');
+  const padId = int('pad_token_id');
+  return {
+    encoderLayers,
+    decoderLayers: int('num_decoder_layers', encoderLayers),
+    heads: int('num_heads'),
+    dKv: int('d_kv'),
+    dModel: int('d_model'),
+    vocabSize: int('vocab_size'),
+    padId,
+    eosIds: eosIds as number[],
+    decoderStartId: int('decoder_start_token_id', padId),
+    maxPositions: int('max_position_embeddings', typeof c.n_positions === 'number' ? c.n_positions : 512),
+  };
+}
+
+async function session(file: string, threads: number | undefined): Promise<ort.InferenceSession> {
+  if (!existsSync(file)) throw errors.missingFile(file);
+  try {
+    const opts: ort.InferenceSession.SessionOptions = { graphOptimizationLevel: 'all' };
+    if (threads !== undefined) {
+      opts.intraOpNumThreads = threads;
+      opts.interOpNumThreads = 1;
+    }
+    return await ort.InferenceSession.create(file, opts);
+  } catch (e) {
+    throw errors.badOnnx(file, (e as Error).message.replace(/\s+/g, ' ').trim());
+  }
+}
+
+function requireNames(file: string, s: ort.InferenceSession, inputs: readonly string[], outputs: readonly string[]): void {
+  for (const n of inputs) if (!s.inputNames.includes(n)) throw errors.missingInput(file, n, s.inputNames);
+  for (const n of outputs) if (!s.outputNames.includes(n)) throw errors.missingOutput(file, n, s.outputNames);
+}
+
+/**
+ * A loaded seq2seq model: tokenizer, vocabulary index and ONNX sessions. Immutable after loading;
+ * each question gets its own `DecoderRun` (see `start`).
+ */
+export class Seq2SeqModel {
+  constructor(
+    /** absolute path of the folder */
+    readonly dir: string,
+    readonly config: ModelConfig,
+    /** the transformers.js tokenizer (used to encode questions) */
+    readonly tokenizer: PreTrainedTokenizer,
+    /** the token byte strings (used for output text and by token masks) */
+    readonly vocabulary: Vocabulary,
+    readonly encoder: ort.InferenceSession,
+    readonly decoder: ort.InferenceSession,
+    /** true when `decoder` is decoder_model_merged.onnx (KV cache); false for decoder_model.onnx */
+    readonly cached: boolean,
+    /** the logits dimension, equal to vocabulary.vocabSize (checked when loading) */
+    readonly vocabSize: number,
+  ) {}
+
+  /** File name of the decoder graph in use, relative to the folder. */
+  get decoderFile(): string {
+    return this.cached ? 'onnx/decoder_model_merged.onnx' : 'onnx/decoder_model.onnx';
+  }
+
+  /** Token ids of a question, as the tokenizer encodes it (EOS appended by its template). */
+  encodeQuestion(question: string): number[] {
+    return this.tokenizer.encode(question);
+  }
+
+  /** Runs the encoder on a question and returns a decoding run (one sequence, batch grows for beams). */
+  async start(question: string | readonly number[]): Promise<DecoderRun> {
+    const ids = typeof question === 'string' ? this.encodeQuestion(question) : question;
+    return DecoderRun.create(this, ids);
+  }
+
+  async dispose(): Promise<void> {
+    await this.encoder.release();
+    await this.decoder.release();
+  }
+}
+
+/**
+ * Loads a model folder in the standard seq2seq layout. Throws a `ModelError` naming the file for a
+ * missing or corrupt piece, a graph without the expected inputs/outputs, or a tokenizer whose size
+ * differs from the logits dimension.
+ */
+export async function loadModel(dir: string, options: LoadModelOptions = {}): Promise<Seq2SeqModel> {
+  const abs = resolve(dir);
+  if (!existsSync(abs) || !statSync(abs).isDirectory()) throw errors.notAFolder(dir);
+  const config = readConfig(join(dir, 'config.json'));
+  const tokFile = join(dir, 'tokenizer.json');
+  if (!existsSync(tokFile)) throw errors.missingFile(tokFile);
+  if (!existsSync(join(dir, 'tokenizer_config.json'))) throw errors.missingFile(join(dir, 'tokenizer_config.json'));
+  const vocabulary = loadVocabulary(tokFile);
+
+  const encFile = join(dir, 'onnx', 'encoder_model.onnx');
+  const mergedFile = join(dir, 'onnx', 'decoder_model_merged.onnx');
+  const plainFile = join(dir, 'onnx', 'decoder_model.onnx');
+  const cached = !options.noCache && existsSync(mergedFile);
+  if (!cached && !existsSync(plainFile)) throw errors.missingDecoder(dir);
+  const decFile = cached ? mergedFile : plainFile;
+
+  const encoder = await session(encFile, options.threads);
+  requireNames(encFile, encoder, ['input_ids'], ['last_hidden_state']);
+  const decoder = await session(decFile, options.threads);
+  requireNames(decFile, decoder, ['input_ids', 'encoder_hidden_states'], ['logits']);
+  if (cached) {
+    const want: string[] = [];
+    const out: string[] = [];
+    for (let i = 0; i < config.decoderLayers; i++) {
+      for (const kv of ['key', 'value']) {
+        want.push(`past_key_values.${i}.decoder.${kv}`);
+        out.push(`present.${i}.decoder.${kv}`);
+      }
+    }
+    requireNames(decFile, decoder, want, out);
+  }
+
+  const logitsMeta = decoder.outputMetadata.find((m) => m.name === 'logits');
+  const declared = logitsMeta && logitsMeta.isTensor ? logitsMeta.shape[2] : undefined;
+  let logitsDim: number;
+  if (typeof declared === 'number') logitsDim = declared;
+  else {
+    // a symbolic vocabulary dimension: one probe step on a one-token input tells the real size
+    const probe = new Seq2SeqModel(abs, config, null as never, vocabulary, encoder, decoder, cached, config.vocabSize);
+    const run = await probe.start([config.eosIds[0]]);
+    logitsDim = (await run.step([config.decoderStartId], null)).length;
+  }
+  if (logitsDim !== config.vocabSize) {
+    throw errors.badConfigField(join(dir, 'config.json'), 'vocab_size', config.vocabSize, `${logitsDim}, the logits dimension of ${decFile}`);
+  }
+  if (vocabulary.vocabSize !== logitsDim) throw errors.vocabMismatch(tokFile, vocabulary.vocabSize, decFile, logitsDim);
+
+  let tokenizer: PreTrainedTokenizer;
+  try {
+    // an absolute folder path is read directly (no hub lookup); local_files_only keeps it offline
+    tokenizer = await AutoTokenizer.from_pretrained(abs, { local_files_only: true });
+  } catch (e) {
+    throw errors.tokenizer(dir, (e as Error).message);
+  }
+  return new Seq2SeqModel(abs, config, tokenizer, vocabulary, encoder, decoder, cached, logitsDim);
+}
+
+export { ModelError };

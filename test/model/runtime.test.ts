@@ -1,0 +1,138 @@
+import { copyFileSync, cpSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { loadModel, ModelError, type Seq2SeqModel } from '../../src/model/index.ts';
+
+const FIXTURE = 'test/fixtures/tiny-seq2seq';
+const QUESTION = 'lf: which orchards does chen li own?';
+
+let model: Seq2SeqModel;
+let plain: Seq2SeqModel;
+let scratch: string;
+
+beforeAll(async () => {
+  model = await loadModel(FIXTURE, { threads: 1 });
+  plain = await loadModel(FIXTURE, { threads: 1, noCache: true });
+  scratch = mkdtempSync(join(tmpdir(), 'tw-model-'));
+});
+afterAll(() => rmSync(scratch, { recursive: true, force: true }));
+
+/** A copy of the fixture folder, changed by `edit`, under the scratch folder. */
+function variant(name: string, edit: (dir: string) => void): string {
+  const dir = join(scratch, name);
+  cpSync(FIXTURE, dir, { recursive: true });
+  edit(dir);
+  return dir;
+}
+
+async function loadError(dir: string): Promise<string> {
+  try {
+    await loadModel(dir, { threads: 1 });
+  } catch (e) {
+    expect(e).toBeInstanceOf(ModelError);
+    return (e as Error).message;
+  }
+  throw new Error('expected loadModel to fail');
+}
+
+describe('loading', () => {
+  it('reads the configuration, the tokenizer and the merged decoder', () => {
+    expect(model.cached).toBe(true);
+    expect(model.decoderFile).toBe('onnx/decoder_model_merged.onnx');
+    expect(model.vocabSize).toBe(267);
+    expect(model.config).toMatchObject({ encoderLayers: 2, decoderLayers: 2, heads: 4, dKv: 8, dModel: 32, padId: 0, eosIds: [1], decoderStartId: 0 });
+    // the tokenizer appends </s> (id 1) as its post-processor template says
+    expect(model.encodeQuestion(QUESTION).at(-1)).toBe(1);
+  });
+
+  it('falls back to decoder_model.onnx when the merged decoder is absent', async () => {
+    const dir = variant('no-merged', (d) => rmSync(join(d, 'onnx', 'decoder_model_merged.onnx')));
+    const m = await loadModel(dir, { threads: 1 });
+    expect(m.cached).toBe(false);
+    expect(m.decoderFile).toBe('onnx/decoder_model.onnx');
+  });
+
+  it('names the missing piece', async () => {
+    expect(await loadError(join(scratch, 'nowhere'))).toBe(
+      `${join(scratch, 'nowhere')}: not a folder; expected a model folder (a seq2seq model folder holds config.json, tokenizer.json, tokenizer_config.json, onnx/encoder_model.onnx and onnx/decoder_model_merged.onnx (or onnx/decoder_model.onnx))`,
+    );
+    const noEncoder = variant('no-encoder', (d) => rmSync(join(d, 'onnx', 'encoder_model.onnx')));
+    expect(await loadError(noEncoder)).toBe(
+      `${join(noEncoder, 'onnx', 'encoder_model.onnx')}: file is missing; expected it in the model folder (a seq2seq model folder holds config.json, tokenizer.json, tokenizer_config.json, onnx/encoder_model.onnx and onnx/decoder_model_merged.onnx (or onnx/decoder_model.onnx))`,
+    );
+    const noDecoder = variant('no-decoder', (d) => {
+      rmSync(join(d, 'onnx', 'decoder_model_merged.onnx'));
+      rmSync(join(d, 'onnx', 'decoder_model.onnx'));
+    });
+    expect(await loadError(noDecoder)).toBe(
+      `${noDecoder}/onnx: neither decoder_model_merged.onnx nor decoder_model.onnx is present; expected one of them (decoder_model_merged.onnx gives cached decoding)`,
+    );
+  });
+
+  it('rejects a corrupt ONNX file before decoding', async () => {
+    const dir = variant('corrupt', (d) => {
+      const f = join(d, 'onnx', 'decoder_model_merged.onnx');
+      writeFileSync(f, readFileSync(f).subarray(0, 5000));
+    });
+    const msg = await loadError(dir);
+    expect(msg.startsWith(`${join(dir, 'onnx', 'decoder_model_merged.onnx')}: not a loadable ONNX model (onnxruntime: `)).toBe(true);
+    expect(msg.endsWith('); expected an ONNX file exported for this folder\'s config.json')).toBe(true);
+  });
+
+  it('rejects a graph from another model (missing inputs)', async () => {
+    const dir = variant('swapped', (d) => copyFileSync(join(d, 'onnx', 'decoder_model.onnx'), join(d, 'onnx', 'decoder_model_merged.onnx')));
+    expect(await loadError(dir)).toBe(
+      `${join(dir, 'onnx', 'decoder_model_merged.onnx')}: the graph has no input "past_key_values.0.decoder.key"; expected it among the inputs (the graph has: input_ids, encoder_attention_mask, encoder_hidden_states)`,
+    );
+  });
+
+  it('rejects a tokenizer whose size differs from the logits dimension', async () => {
+    const dir = variant('bigger-tokenizer', (d) => {
+      const f = join(d, 'tokenizer.json');
+      const tok = JSON.parse(readFileSync(f, 'utf8'));
+      tok.model.vocab.push(['▁extra', -20]);
+      writeFileSync(f, JSON.stringify(tok));
+    });
+    expect(await loadError(dir)).toBe(
+      `${join(dir, 'tokenizer.json')}: at $.model.vocab: the tokenizer has 268 tokens (added tokens included) but the logits of ${join(dir, 'onnx', 'decoder_model_merged.onnx')} have 267 entries; expected equal sizes — the tokenizer does not belong to this model`,
+    );
+  });
+
+  it('rejects a config.json that is not a seq2seq configuration', async () => {
+    const dir = variant('decoder-only', (d) => {
+      const f = join(d, 'config.json');
+      const c = JSON.parse(readFileSync(f, 'utf8'));
+      c.is_encoder_decoder = false;
+      writeFileSync(f, JSON.stringify(c));
+    });
+    expect(await loadError(dir)).toBe(`${join(dir, 'config.json')}: at $.is_encoder_decoder: found false; expected true (a seq2seq model)`);
+  });
+});
+
+describe('the KV cache', () => {
+  it('gives the same logits as re-running the uncached decoder, across beam reorderings', async () => {
+    // Reference: decoder_model.onnx re-run on each row's whole prefix (no cache) — an independent graph.
+    const a = await model.start(QUESTION);
+    const b = await plain.start(QUESTION);
+    const V = model.vocabSize;
+    const plan: { tokens: number[]; parents: number[] | null }[] = [
+      { tokens: [0], parents: null },
+      { tokens: [26, 7, 10], parents: [0, 0, 0] },
+      { tokens: [12, 12, 5], parents: [2, 0, 0] },
+      { tokens: [8, 90], parents: [1, 1] },
+      { tokens: [35, 36, 44], parents: [1, 0, 1] },
+    ];
+    let worst = 0;
+    for (const { tokens, parents } of plan) {
+      const la = await a.step(tokens, parents);
+      const lb = await b.step(tokens, parents);
+      expect(la.length).toBe(tokens.length * V);
+      expect(lb.length).toBe(tokens.length * V);
+      for (let i = 0; i < la.length; i++) worst = Math.max(worst, Math.abs(la[i] - lb[i]));
+    }
+    expect(worst).toBeLessThan(1e-4);
+    expect(a.steps).toBe(5);
+    expect(a.modelMs).toBeGreaterThan(0);
+  });
+});
