@@ -388,30 +388,31 @@ export class Bound {
         frames = frames.next;
       }
     }
-    const t = rtn.terminals[th.term];
+    const cont = this.stepLex(th, b);
+    if (cont !== null) out.push(cont);
+    if (this.lexAccepting(th)) this.stepThread(this.endLexeme(th), b, prevWord, out);
+  }
+
+  /** The LEX thread `th` continuing its lexeme with byte `b`, or null. */
+  stepLex(th: Thread, b: number): Thread | null {
+    const t = this.automaton.rtn.terminals[th.term];
     let next = 0;
-    let accepting = false;
     switch (t.kind) {
       case 'names': {
         const trie = this.tries[t.nameSet]!;
         const c = trie.step(th.lex - 1, b);
         next = c < 0 ? 0 : c + 1;
-        accepting = trie.final[th.lex - 1] === 1;
         break;
       }
       case 'boundvar':
         next = boundHasPrefix(th.env, th.text + String.fromCharCode(b)) ? 1 : 0;
-        accepting = boundHas(th.env, th.text);
         break;
       default:
         next = t.dfa.trans[th.lex * 256 + b];
-        accepting = t.dfa.accept[th.lex] === 1;
     }
-    if (next !== 0) {
-      const text = t.kind === 'newvar' || t.kind === 'boundvar' ? th.text + String.fromCharCode(b) : '';
-      out.push(new Thread(th.node, th.term, next, text, th.frames, th.env));
-    }
-    if (accepting) this.stepThread(this.endLexeme(th), b, prevWord, out);
+    if (next === 0) return null;
+    const text = t.kind === 'newvar' || t.kind === 'boundvar' ? th.text + String.fromCharCode(b) : '';
+    return new Thread(th.node, th.term, next, text, th.frames, th.env);
   }
 
   /** The BETWEEN thread after the lexeme of LEX thread `th` ends here. */

@@ -1,0 +1,26 @@
+/**
+ * automaton/ — grammar IR → a pushdown automaton over UTF-8 bytes.
+ *
+ * Produces `new Automaton(grammar)` (immutable: the recursive transition network of cfg.ts, the
+ * token-class DFAs of regex.ts, static next-terminal closures), `automaton.bind(names)` → `Bound`
+ * (name-set tries, liveness and shortest-completion tables; no vocabulary work), and persistent
+ * runtime states: `bound.advanceBytes(state, bytes)`, `isComplete`, `viable`, `shortestCompletion`;
+ * rollback is `state.prev`; forking is sharing the state.
+ *
+ * Example:
+ *   const b = new Automaton(loadGrammar('grammars/arith/arith.twg')).bind({ Func: ['max'] });
+ *   const s = b.advanceBytes(b.start, new TextEncoder().encode('max(1, 2'));
+ *   b.viable(s) // true;  b.isComplete(s) // false;  b.shortestCompletion(s) // 1 (")")
+ *
+ * Worst-case cost: one byte step is O(threads × options per node × pop depth); threads are the
+ * parses of an ambiguous prefix (1–3 for the shipped grammars; capped at 4096, an error beyond).
+ * Building is linear in the description plus DFA construction (exponential worst case for
+ * pathological regexes, capped at 20,000 states).
+ *
+ * Limits: regexes without lookaround, back-references or \b; left recursion through non-operator
+ * layouts is refused; a `bound` field is treated as live whenever some variable is in scope (the
+ * shipped lf grammar only reaches bound fields inside binders or next to an Entity alternative).
+ */
+export { Automaton, Bound, BindError, Thread, Frame, Env, WORD, INF, type PdaState } from './pda.ts';
+export { buildRtn, closures, AutomatonError, type Rtn, type Terminal, type TerminalKind } from './cfg.ts';
+export { compileRegex, literalDfa, runDfa, RegexError, type ByteDfa } from './regex.ts';

@@ -1,0 +1,411 @@
+/**
+ * The mask engine: automaton × vocabulary → per-binding `TokenConstraint`s.
+ *
+ * Mask of a state = union over its threads (a token is allowed iff some parse can read it):
+ * - a thread inside a token-class lexeme at DFA state d: `inside[d]` (precomputed, budget-
+ *   filtered), plus a walk of the trie below each precomputed exit node x with the thread's
+ *   continuation, plus — when the lexeme may end here — the BETWEEN mask of the continuation;
+ * - a BETWEEN thread: for every next terminal that is a token class, `inside[W0]` (spaces, then
+ *   that class; word-start tokens removed when the previous byte was a word byte) and its exits;
+ *   the finite terminals (literals, name-set members, variables) and space-only tokens by a trie
+ *   walk from the root that prunes at the first byte no terminal can read;
+ * - other lexemes (literals, names, variables): a trie walk from the root.
+ * EOS ids are added exactly when the state is complete. Special and absent ids are never in the
+ * trie, so never allowed.
+ *
+ * Budget (tokens, the chosen one included): a token is allowed only if the shortest completion
+ * after it, L bytes (an achievable upper bound, see automaton/pda.ts), satisfies L + 1 ≤ budget − 1:
+ * every remaining byte can be emitted as a single-byte token (checked at compile time for every
+ * byte of every shortest lexeme and literal) and EOS takes one more. Induction: the start state
+ * needs L₀ + 1 tokens; if budget ≥ L₀ + 1 then at each step the first byte of a shortest completion
+ * (a single-byte token) stays allowed, so every constrained output is complete within the budget.
+ */
+import type { NameBindings, Grammar } from '../description/ir.ts';
+import type { TokenConstraint } from '../util/constraint.ts';
+import { Automaton, Bound, Env, Thread, WORD, INF, type PdaState, type Frame } from '../automaton/pda.ts';
+import type { Vocabulary, TokenTrie } from '../vocab/index.ts';
+import { buildClassTables, MAX_LE, wMinAccept, wStep, type ClassTables } from './precompute.ts';
+
+export class MaskError extends Error {}
+
+/** A decoding state: the automaton state, plus `ended` after EOS. */
+export interface MaskState extends PdaState {
+  readonly ended?: boolean;
+}
+
+export interface CompileOptions {
+  /** skip the check that every needed byte has a single-byte token (tests with tiny vocabularies) */
+  readonly allowMissingBytes?: boolean;
+}
+
+/** Compiled tables for one grammar × vocabulary; `bind` gives constraints for name bindings. */
+export class MaskEngine {
+  readonly automaton: Automaton;
+  readonly trie: TokenTrie;
+  /** per token class index: tables, or null when no `class` terminal uses it */
+  readonly classes: (ClassTables | null)[];
+  /** tokens whose first byte is a word byte */
+  readonly wordStart: Uint32Array;
+  readonly nWords: number;
+  /** single-byte token id per byte, -1 when none */
+  readonly byteToken: Int32Array;
+  readonly preprocessMs: number;
+
+  constructor(readonly grammar: Grammar, readonly vocab: Vocabulary, opts: CompileOptions = {}, tables?: (ClassTables | null)[]) {
+    const t0 = performance.now();
+    this.automaton = new Automaton(grammar);
+    this.trie = vocab.trie;
+    this.nWords = (vocab.vocabSize + 31) >>> 5;
+    const trie = this.trie;
+    this.byteToken = new Int32Array(256).fill(-1);
+    for (let c = trie.end[0] > 1 ? 1 : trie.nodeCount; c < trie.nodeCount; c = trie.end[c]) {
+      if (trie.tokStart[c + 1] > trie.tokStart[c]) this.byteToken[trie.byte[c]] = trie.tokens[trie.tokStart[c]];
+    }
+    this.wordStart = new Uint32Array(this.nWords);
+    for (let c = 1; c < trie.nodeCount; c = trie.end[c]) {
+      if (!WORD[trie.byte[c]]) continue;
+      for (let i = trie.tokStart[c]; i < trie.tokStart[trie.end[c]]; i++) {
+        const id = trie.tokens[i];
+        this.wordStart[id >>> 5] |= 1 << (id & 31);
+      }
+    }
+    if (!opts.allowMissingBytes) this.checkBytes();
+    const rtn = this.automaton.rtn;
+    const follow = new Uint8Array(256);
+    for (let b = 0; b < 256; b++) if (rtn.space[b]) follow[b] = 1;
+    for (const t of rtn.terminals) for (let b = 0; b < 256; b++) if (t.dfa.trans[t.dfa.start * 256 + b] !== 0) follow[b] = 1;
+    if (tables) this.classes = tables;
+    else {
+      this.classes = grammar.tokens.map((tc) => {
+        const term = rtn.terminals.find((t) => t.kind === 'class' && t.tokenClass === tc.index);
+        return term ? buildClassTables(term.dfa, trie, rtn.space, follow, WORD, this.nWords) : null;
+      });
+    }
+    this.preprocessMs = performance.now() - t0;
+  }
+
+  /** Every byte of a shortest lexeme / literal and every space byte needs a single-byte token. */
+  private checkBytes(): void {
+    const need = new Map<number, string>();
+    for (const t of this.automaton.rtn.terminals) {
+      const s = t.dfa.shortest;
+      if (!s) continue;
+      for (const b of s) if (!need.has(b)) need.set(b, t.kind === 'lit' ? `the keyword ${JSON.stringify(t.name)}` : `token class ${t.name}`);
+    }
+    for (const [b, what] of need) {
+      if (this.byteToken[b] < 0) {
+        throw new MaskError(`${this.vocab.fileHash ? 'tokenizer' : ''} vocabulary has no single-byte token for byte 0x${b.toString(16).padStart(2, '0')} (${JSON.stringify(String.fromCharCode(b))}), needed by ${what} of grammar ${this.grammar.name} (${this.grammar.file}); expected a tokenizer that can spell every byte (byte-level BPE or byte fallback)`);
+      }
+    }
+  }
+
+  /** A constraint for one binding of the open name sets. Cheap: no vocabulary work. */
+  bind(names: NameBindings = {}): MaskConstraint {
+    return new MaskConstraint(this, this.automaton.bind(names));
+  }
+}
+
+/** The TokenConstraint implementation. Scratch buffers make `fillMask` allocation-light. */
+export class MaskConstraint implements TokenConstraint<MaskState> {
+  readonly vocabSize: number;
+  readonly eosIds: readonly number[];
+  private mask: Uint32Array = new Uint32Array(0);
+  private lim = INF;
+  private rootPrevWord = false;
+  private readonly pathBytes = new Uint8Array(4096);
+  private readonly scratch: Thread[] = [];
+
+  constructor(readonly engine: MaskEngine, readonly bound: Bound) {
+    this.vocabSize = engine.vocab.vocabSize;
+    this.eosIds = engine.vocab.eosIds;
+  }
+
+  start(): MaskState {
+    return this.bound.start;
+  }
+
+  isComplete(state: MaskState): boolean {
+    return state.ended === true || this.bound.isComplete(state);
+  }
+
+  viable(state: MaskState): boolean {
+    return state.threads.length !== 0;
+  }
+
+  /** Rollback: the state before the last advance (the start state stays itself). */
+  rollback(state: MaskState): MaskState {
+    return state.prev ?? state;
+  }
+
+  /** Shortest completion of the state in bytes (an achievable upper bound). */
+  shortestBytes(state: MaskState): number {
+    return state.ended ? 0 : this.bound.shortestCompletion(state);
+  }
+
+  /**
+   * Fewest tokens that surely complete the program, EOS included: completion bytes as single-byte
+   * tokens + 1. This is the bound the budget uses.
+   */
+  tokensToComplete(state: MaskState): number {
+    return state.ended ? 0 : this.bound.shortestCompletion(state) + 1;
+  }
+
+  advance(state: MaskState, id: number): MaskState {
+    const v = this.engine.vocab;
+    if (state.ended) throw new MaskError(`token ${id} after the end of sequence; expected nothing more`);
+    if (this.eosIds.includes(id)) {
+      if (!this.bound.isComplete(state)) throw new MaskError(`end of sequence (token ${id}) before the program is complete`);
+      return { threads: state.threads, prevWord: state.prevWord, prev: state, ended: true };
+    }
+    if (!v.isNormal(id)) throw new MaskError(`token ${id} is ${id < 0 || id >= v.vocabSize ? 'out of range' : 'special or absent'}; never allowed as program text`);
+    const next = this.bound.advanceBytes(state, v.bytesOf(id));
+    if (next.threads.length === 0) throw new MaskError(`token ${id} (${JSON.stringify(v.text(id))}) is not allowed here: the text would not be a prefix of any program`);
+    return next;
+  }
+
+  /** Advances by raw bytes (no token); a dead state when not viable. */
+  advanceBytes(state: MaskState, bytes: Uint8Array): MaskState {
+    return this.bound.advanceBytes(state, bytes);
+  }
+
+  fillMask(state: MaskState, budget: number, mask: Uint32Array): void {
+    mask.fill(0);
+    if (state.ended || budget < 1) return;
+    this.mask = mask;
+    this.lim = budget === Infinity ? INF : budget - 2;
+    this.rootPrevWord = state.prevWord;
+    const bound = this.bound;
+    if (budget >= 2) for (const th of state.threads) this.maskThread(th);
+    if (bound.isComplete(state)) for (const id of this.eosIds) mask[id >>> 5] |= 1 << (id & 31);
+  }
+
+  /** Reference implementation: tries every token with the same automaton (the naive baseline). */
+  fillMaskNaive(state: MaskState, budget: number, mask: Uint32Array): void {
+    mask.fill(0);
+    if (state.ended || budget < 1) return;
+    const v = this.engine.vocab;
+    const lim = budget === Infinity ? INF : budget - 2;
+    if (budget >= 2) {
+      for (let id = 0; id < v.vocabSize; id++) {
+        if (!v.isNormal(id)) continue;
+        const next = this.bound.advanceBytes(state, v.bytesOf(id));
+        if (next.threads.length !== 0 && this.bound.shortestCompletion(next) <= lim) mask[id >>> 5] |= 1 << (id & 31);
+      }
+    }
+    if (this.bound.isComplete(state)) for (const id of this.eosIds) mask[id >>> 5] |= 1 << (id & 31);
+  }
+
+  // ---- mask internals ----
+
+  private markNode(c: number, dist: number): void {
+    if (dist > this.lim) return;
+    const trie = this.engine.trie;
+    const mask = this.mask;
+    for (let i = trie.tokStart[c], e = trie.tokStart[c + 1]; i < e; i++) {
+      const id = trie.tokens[i];
+      mask[id >>> 5] |= 1 << (id & 31);
+    }
+  }
+
+  private maskThread(th: Thread): void {
+    const bound = this.bound;
+    if (th.term < 0) {
+      this.maskBetweenRoot(th);
+      return;
+    }
+    const t = bound.automaton.rtn.terminals[th.term];
+    if (t.kind === 'class') {
+      const tables = this.engine.classes[t.tokenClass]!;
+      const d = th.lex;
+      const end = bound.endLexeme(th);
+      const rest = bound.betweenDist(th.node, th.env, th.frames);
+      this.orInside(tables, d, this.lim - rest, false);
+      const ex = tables.exits[d];
+      for (let i = 0; i < ex.length; i++) this.walkBetween(ex[i], end, false);
+      if (t.dfa.accept[d]) this.maskBetweenRoot(end);
+      return;
+    }
+    // literals, names, variables: the end of the lexeme here is a BETWEEN mask at the root;
+    // continuing the lexeme is a (short) walk.
+    if (bound.lexAccepting(th)) this.maskBetweenRoot(bound.endLexeme(th));
+    if (t.kind === 'lit') {
+      this.walkLex(0, th, th.lex, bound.betweenDist(th.node, th.env, th.frames));
+      return;
+    }
+    const trie = this.engine.trie;
+    for (let c = 1; c < trie.nodeCount; c = trie.end[c]) {
+      const t2 = bound.stepLex(th, trie.byte[c]);
+      if (t2 === null) continue;
+      this.markNode(c, bound.threadDist(t2));
+      if (trie.end[c] > c + 1) this.walkGeneric(c, t2);
+    }
+  }
+
+  /** OR inside[d] (or the budget level) into the mask; `noWordStart` removes word-start tokens. */
+  private orInside(tables: ClassTables, d: number, room: number, noWordStart: boolean): void {
+    if (room < 0) return;
+    const km = tables.kmax[d];
+    let src: Uint32Array;
+    if (room >= km) src = tables.inside[d];
+    else if (room < MAX_LE) src = tables.le[d][room];
+    else {
+      this.orInsideSlow(tables, d, room, noWordStart);
+      return;
+    }
+    const mask = this.mask;
+    if (noWordStart) {
+      const ws = this.engine.wordStart;
+      for (let w = 0; w < src.length; w++) mask[w] |= src[w] & ~ws[w];
+    } else {
+      for (let w = 0; w < src.length; w++) mask[w] |= src[w];
+    }
+  }
+
+  private orInsideSlow(tables: ClassTables, d: number, room: number, noWordStart: boolean): void {
+    const v = this.engine.vocab;
+    const src = tables.inside[d];
+    for (let w = 0; w < src.length; w++) {
+      let word = src[w];
+      while (word !== 0) {
+        const low = word & -word;
+        const id = (w << 5) + (31 - Math.clz32(low));
+        word ^= low;
+        if (noWordStart && (this.engine.wordStart[w] & low) !== 0) continue;
+        let s = d;
+        for (let i = v.offsets[id]; i < v.offsets[id + 1] && s !== 0; i++) s = wStep(tables, s, v.bytes[i]);
+        if (s !== 0 && wMinAccept(tables, s) <= room) this.mask[w] |= low;
+      }
+    }
+  }
+
+  /** Mask of a BETWEEN thread at the trie root. */
+  private maskBetweenRoot(th: Thread): void {
+    const bound = this.bound;
+    const a = bound.automaton;
+    const rtn = a.rtn;
+    let node = th.node;
+    let frames = th.frames;
+    let env = th.env;
+    for (;;) {
+      const ok = bound.optOk[env === null ? 0 : 1];
+      for (let o = a.optStart[node]; o < a.optStart[node + 1]; o++) {
+        if (!ok[o]) continue;
+        const t = rtn.terminals[a.optTerm[o]];
+        if (t.kind !== 'class') continue;
+        const tables = this.engine.classes[t.tokenClass]!;
+        const pushed = bound.pushFrames(o, frames, env);
+        const target = a.optTarget[o];
+        const rest = bound.betweenDist(target, env, pushed);
+        this.orInside(tables, tables.w0, this.lim - rest, this.rootPrevWord);
+        const ex = tables.exits[tables.w0];
+        if (ex.length > 0) {
+          const end = new Thread(target, -1, 0, '', pushed, env);
+          const trie = this.engine.trie;
+          for (let i = 0; i < ex.length; i++) {
+            const x = ex[i];
+            if (this.rootPrevWord && WORD[this.firstByte(x)] && !rtn.space[this.firstByte(x)]) continue;
+            void trie;
+            this.walkBetween(x, end, false);
+          }
+        }
+      }
+      if (!a.canPop[node] || frames === null) break;
+      node = frames.ret;
+      env = frames.env;
+      frames = frames.next;
+    }
+    this.walkBetween(0, th, true);
+  }
+
+  private firstByte(x: number): number {
+    const trie = this.engine.trie;
+    const v = this.engine.vocab;
+    return v.bytes[v.offsets[trie.tokens[trie.tokStart[x]]]];
+  }
+
+  /** Walks the children of trie node x with BETWEEN thread th (skipping class terminals if asked). */
+  private walkBetween(x: number, th: Thread, skipClasses: boolean): void {
+    const bound = this.bound;
+    const a = bound.automaton;
+    const rtn = a.rtn;
+    const trie = this.engine.trie;
+    const { byte, end } = trie;
+    const pw = x === 0 ? this.rootPrevWord : WORD[byte[x]] === 1;
+    const dist = bound.betweenDist(th.node, th.env, th.frames);
+    for (let c = x + 1, stop = end[x]; c < stop; c = end[c]) {
+      const b = byte[c];
+      if (rtn.space[b]) {
+        this.markNode(c, dist);
+        if (end[c] > c + 1) this.walkBetween(c, th, skipClasses);
+        continue;
+      }
+      if (pw && WORD[b]) continue;
+      let node = th.node;
+      let frames = th.frames;
+      let env = th.env;
+      for (;;) {
+        const ok = bound.optOk[env === null ? 0 : 1];
+        for (let o = a.optStart[node]; o < a.optStart[node + 1]; o++) {
+          if (!ok[o]) continue;
+          const term = a.optTerm[o];
+          const t = rtn.terminals[term];
+          if (skipClasses && t.kind === 'class') continue;
+          const s = bound.startLex(term, b, env);
+          if (s === 0) continue;
+          const text = t.kind === 'newvar' || t.kind === 'boundvar' ? String.fromCharCode(b) : '';
+          const nt = new Thread(a.optTarget[o], term, s, text, bound.pushFrames(o, frames, env), env);
+          if (t.kind === 'lit' || t.kind === 'class') {
+            const rest = bound.betweenDist(nt.node, env, nt.frames);
+            this.markNode(c, t.dfa.minAccept[s] + rest);
+            if (end[c] > c + 1) this.walkLex(c, nt, s, rest);
+          } else {
+            this.markNode(c, bound.threadDist(nt));
+            if (end[c] > c + 1) this.walkGeneric(c, nt);
+          }
+        }
+        if (!a.canPop[node] || frames === null) break;
+        node = frames.ret;
+        env = frames.env;
+        frames = frames.next;
+      }
+    }
+  }
+
+  /** Walks below x with a lit/class LEX thread in DFA state s; `rest` = completion after the lexeme. */
+  private walkLex(x: number, th: Thread, s: number, rest: number): void {
+    const t = this.bound.automaton.rtn.terminals[th.term];
+    const dfa = t.dfa;
+    const trie = this.engine.trie;
+    const { byte, end } = trie;
+    if (x !== 0 && dfa.accept[s] && end[x] > x + 1) this.walkBetween(x, this.bound.endLexeme(th), false);
+    const base = s * 256;
+    for (let c = x + 1, stop = end[x]; c < stop; c = end[c]) {
+      const s2 = dfa.trans[base + byte[c]];
+      if (s2 === 0) continue;
+      this.markNode(c, dfa.minAccept[s2] + rest);
+      if (end[c] > c + 1) this.walkLex(c, th, s2, rest);
+    }
+  }
+
+  /** Walks below x with any thread, stepping it byte by byte (names, variables). */
+  private walkGeneric(x: number, th: Thread): void {
+    const bound = this.bound;
+    const trie = this.engine.trie;
+    const { byte, end } = trie;
+    const pw = x === 0 ? this.rootPrevWord : WORD[byte[x]] === 1;
+    const scratch = this.scratch;
+    for (let c = x + 1, stop = end[x]; c < stop; c = end[c]) {
+      const base = scratch.length;
+      bound.stepThread(th, byte[c], pw, scratch);
+      const top = scratch.length;
+      for (let i = base; i < top; i++) {
+        const t2 = scratch[i];
+        this.markNode(c, bound.threadDist(t2));
+        if (end[c] > c + 1) this.walkGeneric(c, t2);
+      }
+      scratch.length = base;
+    }
+  }
+}
+
+export { Env, type Frame };

@@ -1,0 +1,29 @@
+/**
+ * masks/ — grammar × vocabulary → token masks: `compileMasks(grammar, vocabulary)` gives an
+ * engine; `engine.bind(names)` gives a `TokenConstraint` (src/util/constraint.ts) for one binding of
+ * the open name sets (rebinding does no vocabulary work).
+ *
+ * Example:
+ *   const engine = compileMasks(loadGrammar('grammars/sql/sql.twg'), loadVocabulary(tok));
+ *   const c = engine.bind({ Table: ['orchard'], Column: ['variety', 'yield_kg'] });
+ *   let s = c.start(); const mask = new Uint32Array(Math.ceil(c.vocabSize / 32));
+ *   c.fillMask(s, 64, mask);              // bit id set ⇔ token id keeps the output a program prefix
+ *   s = c.advance(s, id);                 // persistent: the old s is still valid (beams, rollback)
+ *
+ * Design (see DEVELOPERS.md, "Token masks"): per token-class DFA state, precomputed bitsets of the
+ * tokens that stay inside the lexeme and the trie nodes where a lexeme can end inside a token;
+ * everything else is a trie walk pruned at the first byte no parse can read.
+ *
+ * Worst-case cost per mask: O(threads × (bitset words × budget levels + visited trie nodes)); the
+ * visited nodes are bounded by the tokens that begin with a literal, a name or a lexeme end.
+ * Limits: see automaton/index.ts (ambiguity cap, regex subset, scoping caveat).
+ */
+export { MaskEngine, MaskConstraint, MaskError, type MaskState, type CompileOptions } from './engine.ts';
+import type { Grammar } from '../description/ir.ts';
+import type { Vocabulary } from '../vocab/index.ts';
+import { MaskEngine, type CompileOptions } from './engine.ts';
+
+/** Compiles the mask tables of `grammar` for `vocabulary` (see MaskEngine). */
+export function compileMasks(grammar: Grammar, vocabulary: Vocabulary, opts: CompileOptions = {}): MaskEngine {
+  return new MaskEngine(grammar, vocabulary, opts);
+}

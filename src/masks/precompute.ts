@@ -1,0 +1,135 @@
+/**
+ * Per-lexical-state tables that do not depend on the parser stack, for each token class:
+ *
+ * For a class T with DFA states 1…n−1 (0 dead) we add one state W0 = n: "any run of spaces, then
+ * a lexeme of T" (W0 loops on space bytes and otherwise moves like T's start). For every state d
+ * (W0 included):
+ * - `inside[d]`: the tokens t such that reading t from d keeps the DFA alive (t stays inside the
+ *   lexeme, possibly ending exactly where the lexeme could end). From a thread in state d, with any
+ *   stack, all of them are viable (every live DFA state can reach acceptance and every thread is
+ *   viable — see automaton/pda.ts), so they are OR-ed into the mask without further work.
+ * - `le[d][k]`: the tokens of `inside[d]` after which the lexeme needs ≤ k more bytes
+ *   (k < kmax[d]); the length budget selects one of these bitsets instead of `inside[d]`.
+ * - `exits[d]`: trie nodes x (x ≠ root) where the lexeme may end after the string of x and x has a
+ *   child whose byte could follow a lexeme of T (a space, or a first byte of some terminal, minus
+ *   word bytes when x ends with a word byte). The rest of those tokens is resolved at run time by
+ *   walking x's subtree with the thread's continuation; nothing else can leave the lexeme.
+ *
+ * Cost: one pre-order scan of the trie per DFA state, skipping dead subtrees: O(live nodes) per
+ * state. Memory: (1 + kmax) bitsets of ⌈V/32⌉ words per state.
+ */
+import type { TokenTrie } from '../vocab/index.ts';
+import type { ByteDfa } from '../automaton/regex.ts';
+
+/** Longest budget threshold kept as a bitset; larger needs fall back to per-token checks. */
+export const MAX_LE = 24;
+
+export interface ClassTables {
+  /** the class's DFA with state W0 = stateCount appended; transitions of W0 in `w0` */
+  readonly dfa: ByteDfa;
+  readonly w0: number;
+  /** W0's transitions (space bytes loop to W0) */
+  readonly w0Trans: Int32Array;
+  /** per state (0..w0): inside bitset (empty for state 0) */
+  readonly inside: Uint32Array[];
+  /** per state: le[d][k] for k < kmax[d] */
+  readonly le: Uint32Array[][];
+  readonly kmax: Int32Array;
+  /** per state: exit trie nodes */
+  readonly exits: Uint32Array[];
+}
+
+/** The DFA state after reading `b` from `s`, where s may be W0. */
+export function wStep(t: ClassTables, s: number, b: number): number {
+  return s === t.w0 ? t.w0Trans[b] : t.dfa.trans[s * 256 + b];
+}
+
+export function wMinAccept(t: ClassTables, s: number): number {
+  return s === t.w0 ? w0MinAccept(t.dfa, WORD_BYTES) : t.dfa.minAccept[s];
+}
+
+const WORD_BYTES = new Uint8Array(256).map((_, c) => ((c >= 48 && c <= 57) || (c >= 65 && c <= 90) || (c >= 97 && c <= 122) || c === 95 ? 1 : 0));
+
+/**
+ * W0's completion cost: the shortest lexeme plus one space when it starts with a word byte (keep
+ * in sync with the terminal costs in automaton/pda.ts, so both mask paths agree on the budget).
+ */
+function w0MinAccept(dfa: ByteDfa, word: Uint8Array): number {
+  const s = dfa.shortest;
+  return dfa.minAccept[dfa.start] + (s !== null && s.length > 0 && word[s[0]] ? 1 : 0);
+}
+
+/**
+ * Builds the tables of one class. `space[b]` = 1 for space bytes; `follow[b]` = 1 for bytes that
+ * may follow a lexeme (spaces and first bytes of terminals); `words` = bitset words per mask.
+ */
+export function buildClassTables(dfa: ByteDfa, trie: TokenTrie, space: Uint8Array, follow: Uint8Array, word: Uint8Array, nWords: number): ClassTables {
+  const w0 = dfa.stateCount;
+  const w0Cost = w0MinAccept(dfa, word);
+  const w0Trans = new Int32Array(256);
+  for (let b = 0; b < 256; b++) w0Trans[b] = space[b] ? w0 : dfa.trans[dfa.start * 256 + b];
+  const inside: Uint32Array[] = [new Uint32Array(0)];
+  const le: Uint32Array[][] = [[]];
+  const kmax = new Int32Array(w0 + 1);
+  const exits: Uint32Array[] = [new Uint32Array(0)];
+  const nodeCount = trie.nodeCount;
+  const { byte, depth, end, tokStart, tokens } = trie;
+  const stateAt = new Int32Array(1024);
+  const tokK = new Int32Array(tokens.length); // scratch: k per token position in `tokens`, -1 = not inside
+  for (let d = 1; d <= w0; d++) {
+    const bits = new Uint32Array(nWords);
+    const ex: number[] = [];
+    let maxK = 0;
+    tokK.fill(-1);
+    stateAt[0] = d;
+    let c = 1;
+    while (c < nodeCount) {
+      const dep = depth[c];
+      if (dep >= stateAt.length) {
+        c = end[c];
+        continue;
+      }
+      const p = stateAt[dep - 1];
+      const s = p === w0 ? w0Trans[byte[c]] : dfa.trans[p * 256 + byte[c]];
+      if (s === 0) {
+        c = end[c];
+        continue;
+      }
+      stateAt[dep] = s;
+      const k = s === w0 ? w0Cost : dfa.minAccept[s];
+      if (k > maxK) maxK = k;
+      for (let i = tokStart[c]; i < tokStart[c + 1]; i++) {
+        const id = tokens[i];
+        bits[id >>> 5] |= 1 << (id & 31);
+        tokK[i] = k;
+      }
+      if (s !== w0 && dfa.accept[s] === 1 && end[c] > c + 1) {
+        const wordEnd = word[byte[c]] === 1;
+        for (let ch = c + 1; ch < end[c]; ch = end[ch]) {
+          const b = byte[ch];
+          if (follow[b] && !(wordEnd && word[b] && !space[b])) {
+            ex.push(c);
+            break;
+          }
+        }
+      }
+      c++;
+    }
+    inside.push(bits);
+    exits.push(Uint32Array.from(ex));
+    const levels: Uint32Array[] = [];
+    const km = Math.min(maxK, MAX_LE);
+    for (let k = 0; k < km; k++) levels.push(new Uint32Array(nWords));
+    if (km > 0) {
+      for (let i = 0; i < tokens.length; i++) {
+        const k = tokK[i];
+        if (k < 0 || k >= km) continue;
+        const id = tokens[i];
+        for (let j = k; j < km; j++) levels[j][id >>> 5] |= 1 << (id & 31);
+      }
+    }
+    le.push(levels);
+    kmax[d] = maxK;
+  }
+  return { dfa, w0, w0Trans, inside, le, kmax, exits };
+}
