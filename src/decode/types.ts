@@ -1,0 +1,61 @@
+/**
+ * Options and results shared by the decoders.
+ */
+import type { TokenConstraint } from '../util/constraint.ts';
+
+export type Strategy = 'greedy' | 'beam' | 'sample';
+
+export interface DecodeOptions {
+  /** default 'greedy' */
+  strategy?: Strategy;
+  /** the mask engine's constraint (or any TokenConstraint over the model's token ids); null/absent: unconstrained */
+  constraint?: TokenConstraint<unknown> | null;
+  /** most tokens generated, the end-of-sequence token included (default 128, at most the model's positions − 1) */
+  maxTokens?: number;
+  /** beam: number of hypotheses kept (default 4) */
+  beamWidth?: number;
+  /** beam: a finished hypothesis scores sum(logprob) / length^lengthPenalty (default 1) */
+  lengthPenalty?: number;
+  /** beam: stop as soon as `beamWidth` hypotheses have finished (default true); when false, stop only
+   * when no live hypothesis can still beat the worst of the best `beamWidth` finished ones */
+  earlyStop?: boolean;
+  /** sample: softmax temperature, > 0 (default 1) */
+  temperature?: number;
+  /** sample: nucleus size; only the most probable tokens whose mass reaches topP are kept (default 1) */
+  topP?: number;
+  /** sample: PRNG seed (default 0); the same seed gives the same output */
+  seed?: number;
+}
+
+/** One token as it is chosen (streaming). */
+export interface StreamToken {
+  /** position in the output, from 0 */
+  readonly index: number;
+  readonly id: number;
+  /** the token's text (its bytes as UTF-8; a partial character shows as U+FFFD) */
+  readonly text: string;
+  /** the model's log-probability of the token (before masking) */
+  readonly logprob: number;
+}
+
+export interface DecodeResult {
+  /** the output text: the bytes of the non-special tokens, one leading space dropped when the
+   * tokenizer's decoder drops it */
+  text: string;
+  /** generated token ids, without the decoder start token and without the final EOS */
+  tokens: number[];
+  /** each token's text (see StreamToken.text) */
+  tokenTexts: string[];
+  /** each token's log-probability under the model (log-softmax of the raw logits, before masking) */
+  logprobs: number[];
+  /** 'eos' when the model ended the sequence; 'length' when maxTokens ran out (or, constrained, no
+   * token was allowed) */
+  finished: 'eos' | 'length';
+  /** beam: the winning hypothesis's length-normalised score; otherwise the sum of logprobs (EOS included) */
+  score: number;
+  /** milliseconds in onnxruntime (encoder, decoder, cache handling) */
+  model_ms: number;
+  /** milliseconds computing masks, applying them to logits and advancing constraint states */
+  mask_ms: number;
+  total_ms: number;
+}
