@@ -1,0 +1,39 @@
+/**
+ * The tree stage: typed JSON trees of a grammar and everything that moves between trees and code.
+ *
+ * Produces, from a compiled Grammar (description/ir.ts):
+ * - validateTree(grammar, value, {names, sort}) → the first problem as a JSON path, or null
+ *   ("well-typed": structure, kinds, fields, cardinalities, token values, bound names, scoping);
+ * - toJsonSchema(grammar, names?) → a draft 2020-12 JSON Schema of the trees;
+ * - printTree(grammar, tree) → canonical code (README layout rules, minimal parentheses);
+ * - createParser(grammar).parse(text, {file, names}) → a tree, or a located ParseError
+ *   (`file:line:col: expected "(", Num or Func` and an excerpt with `^`);
+ * - sampleTree / createSampler(grammar, {seed, maxDepth, names, weights, sort}) → random
+ *   well-typed trees, reproducible from the seed;
+ * - loadNames(path) / namesFromDatabase(path) (names.ts) → bindings for open name sets.
+ *
+ * Example (arith):
+ *   const g = loadGrammar('grammars/arith/arith.twg');
+ *   const t = createParser(g).parse('(1 + 2) * max(3, -4)');
+ *   // {kind: 'mul', left: {kind: 'add', ...}, right: {kind: 'call', fn: 'max', args: [...]}}
+ *   printTree(g, t) === '(1 + 2) * max(3, -4)'
+ *
+ * Worst-case cost: validation, printing and sampling are linear in the tree (sampling builds its
+ * depth tables once, O(constructors · fields · rounds)); parsing is ohm's memoising PEG, O(n · R)
+ * time and memory for n characters and R generated rules; building a parser compiles one ohm
+ * grammar per Grammar object (cached).
+ *
+ * Limits: the parser is a PEG with one-token FOLLOW look-ahead on a sort's alternatives, greedy
+ * lists and optionals, and a PEG reading of token regexes (see regex.ts, parse.ts) — a grammar
+ * that needs more look-ahead than that is parsed incompletely (the property tests catch it for
+ * the shipped grammars). The word-boundary rule is exact for token classes whose lexemes all end
+ * with a word character or none does; for mixed classes it is not enforced after the token. The
+ * JSON Schema cannot express variable scoping or numeric token regexes (schema.ts).
+ */
+export { validateTree, assertTree, TreeError, type Tree, type TreeValue, type TreeIssue, type ValidateOptions } from './validate.ts';
+export { printTree } from './print.ts';
+export { createParser, ParseError, GrammarFeatureError, type Parser, type ParseOptions } from './parse.ts';
+export { sampleTree, createSampler, mulberry32, SampleError, type Sampler, type SampleOptions } from './sample.ts';
+export { toJsonSchema } from './schema.ts';
+export { loadNames, namesFromDatabase, namesFromJson, checkNames, NamesError } from './names.ts';
+export { valueToLexeme, lexemeToValue } from './lexeme.ts';

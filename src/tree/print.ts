@@ -1,0 +1,179 @@
+/**
+ * The printer: tree → canonical code.
+ *
+ * Layout (README, "Layout items" and "Canonical layout"): one space between printed items unless
+ * the item is glued (`~`); a `~` on an item that prints nothing carries over to the next printed
+ * item; a `~` before anything of the same template has printed is ignored (the enclosing template
+ * decides the spacing around a node). List elements are separated by one space, or by the
+ * separator (glued to the element before it when written `sep ~","`, then one space).
+ *
+ * Two rules keep the output parseable where a glue would merge two tokens (both follow from the
+ * parser's word-boundary and longest-keyword rules): a space is printed anyway between two word
+ * characters, and after a keyword when the glued text would extend it into a longer keyword
+ * (`<` then `=` is printed `< =`, never `<=`).
+ *
+ * Parentheses: an operator node is wrapped in its sort's `parens` exactly when the parser's
+ * precedence levels could not read it in that position (see needsParens).
+ */
+import type { Constructor, Grammar, LayoutItem } from '../description/ir.ts';
+import { grammarInfo, type GrammarInfo } from './info.ts';
+import { valueToLexeme, type TokenValue } from './lexeme.ts';
+import { isWordCode } from './regex.ts';
+import { assertTree, type Tree, type TreeValue } from './validate.ts';
+
+/** Prints a tree of the start sort (validated first; throws TreeError with a JSON path when invalid). */
+export function printTree(grammar: Grammar, tree: unknown, opts: { sort?: string } = {}): string {
+  assertTree(grammar, tree, { sort: opts.sort });
+  const out = new Output(grammarInfo(grammar));
+  printNode(out, tree, false, null);
+  return out.text();
+}
+
+/** Position of a child inside an operator parent: which operand, and the parent's constructor. */
+interface OperandPosition {
+  readonly parent: Constructor;
+  readonly side: 'left' | 'right';
+}
+
+class Output {
+  private readonly parts: string[] = [];
+  private last = '';
+  private lastIsKeyword = false;
+  private readonly longer: ReadonlyMap<string, readonly string[]>;
+  constructor(readonly info: GrammarInfo) {
+    const longer = new Map<string, string[]>();
+    for (const k of info.grammar.keywords) {
+      const ext = info.grammar.keywords.filter((l) => l.length > k.length && l.startsWith(k));
+      if (ext.length > 0) longer.set(k, ext);
+    }
+    this.longer = longer;
+  }
+  /** Appends one token; `glue` asks for no space before it. */
+  emit(text: string, glue: boolean, keyword: boolean): void {
+    if (this.parts.length > 0) {
+      let space = !glue;
+      if (!space && isWordCode(this.last.charCodeAt(this.last.length - 1)) && isWordCode(text.charCodeAt(0))) space = true;
+      if (!space && this.lastIsKeyword) {
+        const joined = this.last + text;
+        if (this.longer.get(this.last)?.some((l) => joined.startsWith(l))) space = true;
+      }
+      if (space) this.parts.push(' ');
+    }
+    this.parts.push(text);
+    this.last = text;
+    this.lastIsKeyword = keyword;
+  }
+  text(): string {
+    return this.parts.join('');
+  }
+}
+
+/**
+ * Prints `node`; `glue` is the spacing the enclosing template asks for before the node's first
+ * token. Returns whether anything was printed.
+ */
+function printNode(out: Output, node: Tree, glue: boolean, position: OperandPosition | null): boolean {
+  const info = out.info;
+  const ctor = info.ctor.get(node.kind)!;
+  if (position !== null && needsParens(info, ctor, position)) {
+    const parens = info.sort.get(ctor.sort)!.parens!;
+    out.emit(parens.open, glue, true);
+    printTemplate(out, ctor, node, true);
+    out.emit(parens.close, true, true);
+    return true;
+  }
+  return printTemplate(out, ctor, node, glue);
+}
+
+function printTemplate(out: Output, ctor: Constructor, node: Tree, glueIn: boolean): boolean {
+  const state = { started: false, carry: false, glueIn };
+  const operands = out.info.operands.get(ctor.name);
+  const walk = (items: readonly LayoutItem[]) => {
+    for (const item of items) {
+      const glue = state.started ? state.carry || item.glue : state.glueIn;
+      let printed = false;
+      if (item.kind === 'text') {
+        out.emit(item.text, glue, true);
+        printed = true;
+      } else if (item.kind === 'slot') {
+        const value = node[item.field];
+        const field = out.info.field(ctor.name, item.field)!;
+        const pos: OperandPosition | null =
+          operands === undefined ? null
+          : operands.left === item.field ? { parent: ctor, side: 'left' }
+          : operands.right === item.field ? { parent: ctor, side: 'right' }
+          : null;
+        if (field.card === 'list' || field.card === 'nonempty') {
+          const list = value as readonly TreeValue[];
+          for (let i = 0; i < list.length; i++) {
+            let g = glue;
+            if (i > 0) {
+              if (item.sep !== null) out.emit(item.sep, item.sepGlue, true);
+              g = false;
+            }
+            if (printValue(out, field.type.kind, field.type.name, list[i], printed ? g : glue, pos)) printed = true;
+          }
+        } else if (value !== null) {
+          printed = printValue(out, field.type.kind, field.type.name, value, glue, pos);
+        }
+      } else {
+        const value = node[item.field];
+        const present = Array.isArray(value) ? value.length > 0 : value !== null;
+        if (present) {
+          const before = state.started;
+          state.carry = glue;
+          if (!before) state.glueIn = glue;
+          walk(item.items);
+          continue;
+        }
+      }
+      if (printed) {
+        state.started = true;
+        state.carry = false;
+      } else if (state.started) {
+        state.carry = glue;
+      } else {
+        // nothing printed yet: the enclosing template's spacing still applies to the first token
+      }
+    }
+  };
+  walk(ctor.layout);
+  return state.started;
+}
+
+function printValue(out: Output, kind: 'sort' | 'token' | 'names', typeName: string, value: TreeValue, glue: boolean, pos: OperandPosition | null): boolean {
+  if (kind === 'sort') return printNode(out, value as Tree, glue, pos);
+  if (kind === 'names') {
+    out.emit(value as string, glue, false);
+    return true;
+  }
+  const tok = out.info.token.get(typeName)!;
+  out.emit(valueToLexeme(tok.token.value, value as TokenValue), glue, false);
+  return true;
+}
+
+/**
+ * Whether an operator node `child` needs parentheses as the `side` operand of `parent`. The parser
+ * reads operands with precedence levels: the left operand of a left-associative infix at level P
+ * (and the operand of a postfix at P) accepts operators of precedence ≥ P; the right operand of a
+ * right-associative infix (and the operand of a prefix) likewise; other operand positions accept
+ * only precedence > P. At equal precedence only shapes that associate the same way read back
+ * unchanged: left infix/postfix on the left, right infix/prefix on the right; under a prefix
+ * anything at its level; under a postfix left infix/postfix.
+ * Keep in sync with the level rules in parse.ts.
+ */
+export function needsParens(info: GrammarInfo, child: Constructor, position: OperandPosition): boolean {
+  const c = child.operator;
+  if (c === null) return false;
+  const p = position.parent.operator!;
+  if (c.precedence > p.precedence) return false;
+  if (c.precedence < p.precedence) return true;
+  const childLeftish = (c.fixity === 'infix' && c.assoc === 'left') || c.fixity === 'postfix';
+  const childRightish = (c.fixity === 'infix' && c.assoc === 'right') || c.fixity === 'prefix';
+  if (p.fixity === 'prefix') return false;
+  if (p.fixity === 'postfix') return !childLeftish;
+  if (p.assoc === 'left' && position.side === 'left') return !childLeftish;
+  if (p.assoc === 'right' && position.side === 'right') return !childRightish;
+  void info;
+  return true;
+}

@@ -1,0 +1,262 @@
+/**
+ * The sampler: random well-typed trees, reproducible from a seed.
+ *
+ * At each node it picks a constructor of the wanted sort among those that (a) have weight > 0 and
+ * (b) can still be finished within the remaining depth — `minDepth` tables, computed once per
+ * sampler by a fixpoint over constructors, give the depth of the shallowest tree of each
+ * constructor with and without a variable in scope. Near the depth bound only shallow
+ * constructors remain, so sampling always terminates. Lists get 0–3 extra elements beyond their
+ * minimum, optional fields are present half of the time (when the depth allows).
+ *
+ * Values: name-set fields take a member of the bound set (`names`), or one of five placeholder
+ * names generated per set from its token class; `new` variables are generated from their token
+ * class and `bound` ones are drawn from the variables in scope; other token values are generated
+ * from the class regex and kept only when they print back to themselves (validateTree's rule).
+ *
+ * Cost: O(nodes) per tree after an O(C · F · rounds) table build (C constructors, F fields).
+ */
+import type { Constructor, Field, Grammar, NameBindings } from '../description/ir.ts';
+import { grammarInfo, type GrammarInfo, type TokenInfo } from './info.ts';
+import { lexemeToValue, nameSpellingProblem, tokenValueProblem, type TokenValue } from './lexeme.ts';
+import { generate } from './regex.ts';
+import type { Tree, TreeValue } from './validate.ts';
+
+export interface SampleOptions {
+  /** any 32-bit integer; the same seed gives the same trees */
+  readonly seed: number;
+  /** maximum node depth (the root is depth 1); default 7 */
+  readonly maxDepth?: number;
+  /** members of open name sets; sets not listed get placeholder names */
+  readonly names?: NameBindings;
+  /** relative constructor weights (default 1); 0 disables a constructor */
+  readonly weights?: Readonly<Record<string, number>>;
+  /** sort of the sampled trees (default: the start sort) */
+  readonly sort?: string;
+}
+
+export interface Sampler {
+  /** the next tree of the stream */
+  next(): Tree;
+}
+
+/** Thrown when the options make sampling impossible (e.g. every constructor of a needed sort disabled). */
+export class SampleError extends Error {
+  constructor(message: string) {
+    super(message);
+    this.name = 'SampleError';
+  }
+}
+
+/**
+ * mulberry32: a 32-bit-state PRNG (Tommy Ettinger's public-domain generator, from memory; common
+ * practice for small reproducible streams, not cryptographic). Returns floats in [0, 1).
+ * Hand-written because it is eight lines and the seed → stream mapping must never change.
+ */
+export function mulberry32(seed: number): () => number {
+  let a = seed >>> 0;
+  return () => {
+    a = (a + 0x6d2b79f5) >>> 0;
+    let t = a;
+    t = Math.imul(t ^ (t >>> 15), t | 1);
+    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
+    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
+  };
+}
+
+/** One tree (the first of the stream for `seed`). */
+export function sampleTree(grammar: Grammar, opts: SampleOptions): Tree {
+  return createSampler(grammar, opts).next();
+}
+
+const INF = Number.MAX_SAFE_INTEGER;
+
+export function createSampler(grammar: Grammar, opts: SampleOptions): Sampler {
+  const info = grammarInfo(grammar);
+  const rand = mulberry32(opts.seed);
+  const maxDepth = opts.maxDepth ?? 7;
+  const sortName = opts.sort ?? grammar.start;
+  const names = opts.names ?? {};
+  if (!info.sort.has(sortName)) throw new SampleError(`unknown sort ${sortName}`);
+  for (const key of Object.keys(opts.weights ?? {})) {
+    if (!info.ctor.has(key)) throw new SampleError(`weights: unknown constructor ${key}`);
+    const w = opts.weights![key]!;
+    if (!(w >= 0) || !Number.isFinite(w)) throw new SampleError(`weights: ${key} must be a finite number ≥ 0, got ${w}`);
+  }
+  const weight = (c: Constructor) => opts.weights?.[c.name] ?? 1;
+  const tables = minDepthTables(info, names, weight);
+  const need = tables.sort(sortName, false);
+  if (need >= INF) throw new SampleError(`no finite tree of sort ${sortName} exists with these weights and names`);
+  if (need > maxDepth) throw new SampleError(`max depth ${maxDepth} is below the depth ${need} of the smallest ${sortName} tree`);
+
+  // placeholder names for unbound sets: five per set, drawn once
+  const placeholders = new Map<string, string[]>();
+  for (const set of grammar.nameSets) {
+    if (names[set.name] !== undefined) continue;
+    const tok = info.token.get(set.token)!;
+    const pool: string[] = [];
+    for (let attempt = 0; pool.length < 5 && attempt < 500; attempt++) {
+      const s = lexeme(tok, rand);
+      if (nameSpellingProblem(tok, s) === null && !pool.includes(s)) pool.push(s);
+    }
+    if (pool.length === 0) throw new SampleError(`cannot invent names for ${set.name} from ${tok.token.name}`);
+    placeholders.set(set.name, pool);
+  }
+
+  const pick = <T>(xs: readonly T[]): T => xs[Math.floor(rand() * xs.length)]!;
+
+  const node = (sort: string, budget: number, scope: readonly string[]): Tree => {
+    const h = scope.length > 0;
+    const ctors = info.sort.get(sort)!.constructors.map((n) => info.ctor.get(n)!);
+    const eligible = ctors.filter((c) => weight(c) > 0 && tables.ctor(c, h) <= budget);
+    let chosen: Constructor;
+    if (eligible.length === 0) {
+      // unreachable when the tables are right: the caller only asks for sorts that fit
+      throw new SampleError(`internal: no ${sort} constructor fits depth ${budget}`);
+    } else {
+      let total = 0;
+      for (const c of eligible) total += weight(c);
+      let r = rand() * total;
+      chosen = eligible[eligible.length - 1]!;
+      for (const c of eligible) {
+        r -= weight(c);
+        if (r < 0) {
+          chosen = c;
+          break;
+        }
+      }
+    }
+    const out: Record<string, TreeValue> = { kind: chosen.name };
+    let inScope = scope;
+    for (const f of chosen.fields) {
+      const v = fieldValue(f, budget - 1, inScope);
+      out[f.name] = v;
+      if (f.scoping === 'binds') {
+        if (typeof v === 'string') inScope = inScope.concat([v]);
+        else if (Array.isArray(v)) inScope = inScope.concat(v as string[]);
+      }
+    }
+    return out as Tree;
+  };
+
+  const fieldValue = (f: Field, budget: number, scope: readonly string[]): TreeValue => {
+    const one = () => element(f, budget, scope);
+    switch (f.card) {
+      case 'one':
+        return one();
+      case 'optional':
+        return elementPossible(f, budget, scope) && rand() < 0.5 ? one() : null;
+      case 'list':
+      case 'nonempty': {
+        const min = f.card === 'nonempty' ? 1 : 0;
+        if (!elementPossible(f, budget, scope)) return [];
+        let n = min;
+        while (n < min + 3 && rand() < 0.5) n++;
+        const xs: TreeValue[] = [];
+        for (let i = 0; i < n; i++) xs.push(one());
+        return xs;
+      }
+    }
+  };
+
+  const elementPossible = (f: Field, budget: number, scope: readonly string[]): boolean => {
+    if (f.type.kind === 'sort') return tables.sort(f.type.name, scope.length > 0) <= budget;
+    if (f.scoping === 'bound') return scope.length > 0;
+    if (f.type.kind === 'names') return (names[f.type.name] ?? placeholders.get(f.type.name) ?? []).length > 0;
+    return true;
+  };
+
+  const element = (f: Field, budget: number, scope: readonly string[]): TreeValue => {
+    switch (f.type.kind) {
+      case 'sort':
+        return node(f.type.name, budget, scope);
+      case 'names':
+        return pick(names[f.type.name] ?? placeholders.get(f.type.name)!);
+      case 'token': {
+        if (f.scoping === 'bound') return pick(scope);
+        const tok = info.token.get(f.type.name)!;
+        return tokenValue(tok, rand);
+      }
+    }
+  };
+
+  return { next: () => node(sortName, maxDepth, []) };
+}
+
+function lexeme(tok: TokenInfo, rand: () => number): string {
+  const parts: string[] = [];
+  generate(tok.rx(), rand, parts);
+  return parts.join('');
+}
+
+/** A random valid value of a token class: generated lexemes are kept when they print back to themselves. */
+export function tokenValue(tok: TokenInfo, rand: () => number): TokenValue {
+  for (let attempt = 0; attempt < 1000; attempt++) {
+    const v = lexemeToValue(tok.token.value, lexeme(tok, rand));
+    if (v !== null && tokenValueProblem(tok, v) === null) return v;
+  }
+  throw new SampleError(`cannot generate a valid ${tok.token.name} value from /${tok.token.pattern}/`);
+}
+
+interface MinDepthTables {
+  /** depth of the shallowest tree of the sort; `h`: a variable is in scope */
+  sort(name: string, h: boolean): number;
+  ctor(c: Constructor, h: boolean): number;
+  /** depth below the node that the field needs (0 for fields that need no subtree) */
+  field(f: Field, h: boolean): number;
+}
+
+/** Shortest-derivation depths with and without a variable in scope (a Bellman–Ford style fixpoint). */
+function minDepthTables(info: GrammarInfo, names: NameBindings, weight: (c: Constructor) => number): MinDepthTables {
+  const g = info.grammar;
+  const sortIdx = new Map(g.sorts.map((s, i) => [s.name, i]));
+  const sd = [new Array<number>(g.sorts.length).fill(INF), new Array<number>(g.sorts.length).fill(INF)];
+  const cd = [new Array<number>(g.constructors.length).fill(INF), new Array<number>(g.constructors.length).fill(INF)];
+  const fieldNeed = (f: Field, h: boolean): number => {
+    const required = f.card === 'one' || f.card === 'nonempty';
+    switch (f.type.kind) {
+      case 'sort':
+        return required ? sd[h ? 1 : 0][sortIdx.get(f.type.name)!] : 0;
+      case 'token':
+        return required && f.scoping === 'bound' && !h ? INF : 0;
+      case 'names': {
+        const members = names[f.type.name];
+        return required && members !== undefined && members.length === 0 ? INF : 0;
+      }
+    }
+  };
+  const ctorDepth = (c: Constructor, h: boolean): number => {
+    let scope = h;
+    let deepest = 0;
+    for (const f of c.fields) {
+      const need = fieldNeed(f, scope);
+      if (need >= INF) return INF;
+      deepest = Math.max(deepest, need);
+      if (f.scoping === 'binds' && (f.card === 'one' || f.card === 'nonempty')) scope = true;
+    }
+    return 1 + deepest;
+  };
+  for (let changed = true; changed; ) {
+    changed = false;
+    for (const h of [false, true]) {
+      const k = h ? 1 : 0;
+      for (const c of g.constructors) {
+        if (weight(c) <= 0) continue;
+        const d = ctorDepth(c, h);
+        if (d < cd[k][c.index]) {
+          cd[k][c.index] = d;
+          changed = true;
+        }
+        const si = sortIdx.get(c.sort)!;
+        if (d < sd[k][si]) {
+          sd[k][si] = d;
+          changed = true;
+        }
+      }
+    }
+  }
+  return {
+    sort: (name, h) => sd[h ? 1 : 0][sortIdx.get(name)!],
+    ctor: (c, h) => cd[h ? 1 : 0][c.index],
+    field: (f, h) => fieldNeed(f, h),
+  };
+}
