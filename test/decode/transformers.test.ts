@@ -1,0 +1,91 @@
+// Outside reference: @huggingface/transformers (transformers.js) v4 loading the same folder with
+// AutoModelForSeq2SeqLM + AutoTokenizer, remote loading off, and running its own generate().
+import { resolve } from 'node:path';
+import { AutoModelForSeq2SeqLM, AutoTokenizer, env, type PreTrainedModel, type PreTrainedTokenizer, type Tensor } from '@huggingface/transformers';
+import { beforeAll, describe, expect, it } from 'vitest';
+import { loadModel, type Seq2SeqModel } from '../../src/model/index.ts';
+import { decode } from '../../src/decode/search.ts';
+import { ConstraintLogitsProcessor } from '../../src/decode/hook.ts';
+import { FiniteSetConstraint } from './toy-constraint.ts';
+
+const FIXTURE = resolve('test/fixtures/tiny-seq2seq');
+const QUESTIONS = [
+  'lf: which orchards does chen li own?',
+  'sql: how many tonnes of elstar were stored in shed b?',
+  'lf: what is the largest orchard by hectares?',
+  'sql: which growers planted morello after 2019?',
+  'lf: does fenna dekker manage a cold room?',
+  'sql: list the varieties grown at river bend',
+  'lf: how many lots of conference pears were harvested in 2021?',
+  'sql: what is the temperature of the north store?',
+];
+const TARGETS = [
+  ' lambda $x. orchard($x)',
+  ' lambda $x. grower($x) & owns($x, hillcrest)',
+  ' value: count $x. (shed($x))',
+  ' holds: tonnes(elstar) >= 12',
+  ' value: 7',
+];
+
+let ours: Seq2SeqModel;
+let theirs: PreTrainedModel;
+let tokenizer: PreTrainedTokenizer;
+
+beforeAll(async () => {
+  env.allowRemoteModels = false;
+  ours = await loadModel(FIXTURE, { threads: 1 });
+  tokenizer = await AutoTokenizer.from_pretrained(FIXTURE, { local_files_only: true });
+  theirs = await AutoModelForSeq2SeqLM.from_pretrained(FIXTURE, { local_files_only: true, dtype: 'fp32', session_options: { intraOpNumThreads: 1 } });
+});
+
+/** transformers.js greedy generate(); returns the ids after the decoder start token, EOS removed. */
+async function reference(question: string, maxNewTokens: number, processor: ConstraintLogitsProcessor | null): Promise<number[]> {
+  const inputs = tokenizer(question);
+  const out = (await theirs.generate({
+    ...inputs,
+    max_new_tokens: maxNewTokens,
+    do_sample: false,
+    ...(processor ? { logits_processor: [processor] as never } : {}),
+  })) as Tensor;
+  const ids = (out.tolist() as bigint[][])[0].map(Number);
+  expect(ids[0]).toBe(ours.config.decoderStartId);
+  const body = ids.slice(1);
+  const eos = body.indexOf(ours.config.eosIds[0]);
+  return eos < 0 ? body : body.slice(0, eos);
+}
+
+describe('against transformers.js generate()', () => {
+  it('the question is tokenized identically', () => {
+    for (const q of QUESTIONS) expect(ours.encodeQuestion(q)).toEqual(tokenizer.encode(q));
+  });
+
+  it('unconstrained greedy output equals ours token for token', async () => {
+    for (const q of QUESTIONS) {
+      const mine = await decode(ours, q, { maxTokens: 16 });
+      expect(mine.tokens).toEqual(await reference(q, 16, null));
+    }
+  });
+
+  it('with the hook, constrained greedy output equals our constrained greedy', async () => {
+    const c = new FiniteSetConstraint(ours.vocabulary, TARGETS);
+    const hook = new ConstraintLogitsProcessor(c, { maxNewTokens: 40 });
+    for (const q of QUESTIONS) {
+      const mine = await decode(ours, q, { constraint: c, maxTokens: 40 });
+      expect(mine.finished).toBe('eos');
+      // one processor instance serves successive generate() calls
+      expect(await reference(q, 40, hook)).toEqual(mine.tokens);
+    }
+    expect(hook.maskMs).toBeGreaterThan(0);
+  });
+
+  it('the hook keeps the token budget of max_new_tokens', async () => {
+    const c = new FiniteSetConstraint(ours.vocabulary, TARGETS);
+    const fewest = Math.min(...TARGETS.map((_, i) => c.fewestTokens(i)));
+    const hook = new ConstraintLogitsProcessor(c, { maxNewTokens: fewest + 1 });
+    for (const q of QUESTIONS.slice(0, 3)) {
+      const ids = await reference(q, fewest + 1, hook);
+      expect(ids).toEqual((await decode(ours, q, { constraint: c, maxTokens: fewest + 1 })).tokens);
+      expect(ids.length).toBe(fewest);
+    }
+  });
+});
