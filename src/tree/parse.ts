@@ -34,7 +34,7 @@ import type { Constructor, Field, Grammar, LayoutItem, NameBindings, Span } from
 import { excerpt, lineColumn } from '../util/source.ts';
 import { grammarInfo, type GrammarInfo } from './info.ts';
 import { kindWords, lexemeToValue } from './lexeme.ts';
-import { RegexFeatureError, lastChars, pairsOf, setComplement, setSize, WORD, setIntersect, type CharSet, type Rx } from './regex.ts';
+import { RegexFeatureError, firstChars, lastChars, pairsOf, setComplement, setIntersect, setSize, setUnion, WORD, type CharSet, type Rx } from './regex.ts';
 import type { Tree, TreeValue } from './validate.ts';
 
 export interface ParseOptions {
@@ -122,6 +122,8 @@ interface Generated {
   readonly terms: ReadonlyMap<string, string>;
   /** order of terms in messages */
   readonly termOrder: ReadonlyMap<string, number>;
+  /** guard description → the terminal rule names (or 'end of input') it looks for */
+  readonly guardItems: ReadonlyMap<string, readonly string[]>;
 }
 
 const cache = new WeakMap<Grammar, Generated>();
@@ -274,6 +276,7 @@ function generateOhm(info: GrammarInfo): Generated {
   });
   terms.set('end of input', 'end of input');
   termOrder.set('end of input', 3000);
+  const termRank = (t: string) => (t === '$' ? 3000 : termOrder.get(t) ?? 4000);
 
   // syntactic rules
   const rules = new Map<string, PE>();
@@ -362,24 +365,50 @@ function generateOhm(info: GrammarInfo): Generated {
   const startRule = seq(app(`S${sortIdx.get(g.start)!}`), { k: 'end' });
   rules.set('Start', startRule);
 
-  // FOLLOW sets, then the look-ahead guards on atom alternatives
-  const follow = followSets(rules, 'Start');
+  // FOLLOW sets, then the look-ahead guards on atom alternatives. A guard is a described rule
+  // (`G<i> (g<i>)`), so a failing guard shows up as one item that messages expand to its FOLLOW
+  // set only when nothing more precise failed at the same position.
+  const { follow, firstOf } = analyse(rules);
+  const guards: string[] = [];
+  const guardItems = new Map<string, readonly string[]>();
+  // first characters of terminals: two alternatives can only be confused when these meet
+  const termChars = (t: string): CharSet => {
+    let m: RegExpExecArray | null;
+    if ((m = /^kw(\d+)$/.exec(t)) !== null) {
+      const c = g.keywords[Number(m[1])]!.codePointAt(0)!;
+      return [c, c];
+    }
+    if ((m = /^tok(\d+)$/.exec(t)) !== null) return firstChars(info.token.get(g.tokens[Number(m[1])]!.name)!.rx());
+    if ((m = /^nm(\d+)$/.exec(t)) !== null) return firstChars(info.token.get(g.nameSets[Number(m[1])]!.token)!.rx());
+    return [];
+  };
+  const charsOf = (terms: Set<string>): CharSet => [...terms].reduce<CharSet>((acc, t) => setUnion(acc, termChars(t)), []);
   for (const [si, alts] of atomAlts) {
-    if (alts.xs.length < 2) continue;
-    const f = [...(follow.get(`S${si}_A`) ?? [])].sort();
-    const guard: PE = { k: 'and', x: { k: 'alt', xs: f.map((t) => (t === '$' ? ({ k: 'end' } as PE) : app(t))), cases: null } };
-    rules.set(`S${si}_A`, { k: 'alt', xs: alts.xs.map((x) => seq(x, guard)), cases: alts.cases });
+    const firsts = alts.xs.map((x) => charsOf(firstOf(x)));
+    // alternative i needs the look-ahead when a later alternative can begin the same way
+    const needs = alts.xs.map((x, i) => firsts.some((f, j) => j > i && setIntersect(f, firsts[i]!, 0x10ffff).length > 0) || firstOf(x).size === 0);
+    if (!needs.some(Boolean)) continue;
+    const f = [...(follow.get(`S${si}_A`) ?? [])].sort((a, b) => termRank(a) - termRank(b));
+    const body: PE = { k: 'alt', xs: f.map((t) => (t === '$' ? ({ k: 'end' } as PE) : app(t))), cases: null };
+    guards.push(`G${si} (g${si})\n    = ${emit(body)}`);
+    guardItems.set(`g${si}`, f.map((t) => (t === '$' ? 'end of input' : t)));
+    const guard: PE = { k: 'and', x: app(`G${si}`) };
+    rules.set(`S${si}_A`, { k: 'alt', xs: alts.xs.map((x, i) => (needs[i] ? seq(x, guard) : x)), cases: alts.cases });
   }
 
   const lines = [`G${g.name.replace(/[^A-Za-z0-9_]/g, '_')} {`];
   for (const [name, pe] of rules) lines.push(`  ${name}\n    = ${emit(pe)}`);
+  for (const l of guards) lines.push(`  ${l}`);
   for (const l of lexical) lines.push(`  ${l}`);
   lines.push('}');
-  return { source: lines.join('\n'), terms, termOrder };
+  return { source: lines.join('\n'), terms, termOrder, guardItems };
 }
 
-/** FOLLOW sets of syntactic rules (terminals: lexical rule names and '$' for the end). */
-function followSets(rules: ReadonlyMap<string, PE>, start: string): Map<string, Set<string>> {
+/**
+ * FIRST and FOLLOW over the syntactic rules, read as a context-free grammar (terminals: lexical
+ * rule names and '$' for the end; look-aheads are ignored).
+ */
+function analyse(rules: ReadonlyMap<string, PE>): { follow: Map<string, Set<string>>; firstOf(pe: PE): Set<string> } {
   const isTerminal = (r: string) => !rules.has(r);
   const nullable = new Map<string, boolean>();
   const first = new Map<string, Set<string>>();
@@ -482,8 +511,14 @@ function followSets(rules: ReadonlyMap<string, PE>, start: string): Map<string, 
     changedRef.v = false;
     for (const [r, pe] of rules) visit(pe, follow.get(r)!, r, changedRef);
   }
-  void start;
-  return follow;
+  return {
+    follow,
+    firstOf: (pe) => {
+      const out = new Set<string>();
+      fst(pe, out);
+      return out;
+    },
+  };
 }
 
 // ---- the parser -------------------------------------------------------------------------------
@@ -529,12 +564,18 @@ export function createParser(grammar: Grammar): Parser {
 function syntaxError(gen: Generated, file: string, text: string, m: ohm.MatchResult): ParseError {
   // ohm 17 has these on failed match results; its typings omit them
   const failed = m as unknown as { getRightmostFailurePosition(): number; getRightmostFailures(): { getText(): string }[] };
-  const pos = failed.getRightmostFailurePosition();
+  let pos = failed.getRightmostFailurePosition();
   const seen = new Set<string>();
+  const guarded = new Set<string>();
   for (const f of failed.getRightmostFailures()) {
     const t = f.getText();
     if (gen.terms.has(t)) seen.add(t);
+    for (const x of gen.guardItems.get(t) ?? []) guarded.add(x);
   }
+  for (const x of guarded) seen.add(x);
+  // a failure after trailing whitespace is reported where the text ends
+  const trimmed = text.trimEnd().length;
+  if (pos > trimmed && /^\s*$/.test(text.slice(trimmed))) pos = trimmed;
   const items = [...seen].sort((a, b) => gen.termOrder.get(a)! - gen.termOrder.get(b)!).map((t) => gen.terms.get(t)!);
   const list = items.length <= 1 ? (items[0] ?? 'nothing') : `${items.slice(0, -1).join(', ')} or ${items[items.length - 1]}`;
   return new ParseError(file, text, { start: pos, end: pos + 1 }, `expected ${list}`, items);
