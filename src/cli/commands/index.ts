@@ -4,10 +4,12 @@
  */
 import type { Command } from 'commander';
 import { register as check } from './check.ts';
+import { register as generate } from './generate.ts';
 
 /** Adds one subcommand to the program. `setExit` records the process exit code. */
 export type RegisterCommand = (program: Command, setExit: (code: number) => void) => void;
 
 export const COMMANDS: RegisterCommand[] = [
   check,
+  generate,
 ];

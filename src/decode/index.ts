@@ -1,0 +1,85 @@
+/**
+ * decode/ — turns a question into a program with a seq2seq model (src/model/): greedy, beam search
+ * (width, length penalty, early stop) or seeded nucleus sampling, each constrained by a
+ * TokenConstraint (one persistent state per hypothesis; masks set disallowed logits to −Infinity;
+ * the budget is the number of tokens left) or unconstrained; plus a logits processor that applies
+ * the same masks inside @huggingface/transformers' own generate() (hook.ts).
+ *
+ * Produces: `DecodeResult` {text, tokens, tokenTexts, logprobs, finished, score, model_ms, mask_ms,
+ * total_ms}; `generate()` adds {tree, parses, well_typed, parse_error} when given a grammar.
+ *
+ * Example:
+ *   const model = await loadModel('models/coop');
+ *   const grammar = loadGrammar('grammars/sql/sql.twg');
+ *   const r = await generate(model, 'sql: which sheds hold elstar?', {
+ *     grammar, names: namesFromDatabase('demo.db'), strategy: 'beam', beamWidth: 4 });
+ *   r.text; r.tree; r.well_typed;                 // constrained: parses and is well-typed
+ *   for await (const t of decodeStream(model, q, { constraint })) process.stdout.write(t.text);
+ *
+ * Cost per step: one batched decoder call, plus per hypothesis one mask fill (the mask engine's
+ * cost), one pass over the V logits to apply it and one to normalise; beam search also keeps the
+ * 2·width best entries of each row (O(V · width) worst case, O(V) typical).
+ * Limits: one question per call (no batching of questions); beam search streams only its final
+ * result; log-probabilities are the model's (before masking), so a constrained sequence's score is
+ * what the unconstrained model thinks of it; a constraint whose completion cannot fit the budget
+ * ends the output early with finished = 'length'.
+ */
+import type { Grammar, NameBindings } from '../description/ir.ts';
+import { compileMasks, type MaskEngine } from '../masks/index.ts';
+import type { Seq2SeqModel } from '../model/index.ts';
+import { createParser, validateTree, type Tree } from '../tree/index.ts';
+import type { Vocabulary } from '../vocab/index.ts';
+import { decode } from './search.ts';
+import type { DecodeOptions, DecodeResult } from './types.ts';
+
+export { decode, decodeStream, textOf } from './search.ts';
+export { ConstraintLogitsProcessor, type HookOptions } from './hook.ts';
+export type { DecodeOptions, DecodeResult, StreamToken, Strategy } from './types.ts';
+
+export interface GenerateOptions extends DecodeOptions {
+  /** the target language; with it the output is parsed and checked, and (unless `unconstrained`
+   * or an explicit `constraint`) decoding is constrained by its masks */
+  grammar?: Grammar | null;
+  /** bindings of the grammar's open name sets */
+  names?: NameBindings;
+  /** decode without masks even though a grammar is given (the output is still parsed) */
+  unconstrained?: boolean;
+}
+
+export interface GenerateResult extends DecodeResult {
+  /** the parsed tree, or null when the text does not parse (or no grammar was given) */
+  tree: Tree | null;
+  parses: boolean;
+  /** parses and passes validateTree with the bound names */
+  well_typed: boolean;
+  /** the parser's or validator's message when `well_typed` is false (null without a grammar) */
+  parse_error: string | null;
+}
+
+const engines = new WeakMap<Grammar, WeakMap<Vocabulary, MaskEngine>>();
+
+/** The mask engine of a grammar for a model's vocabulary, compiled once per pair and kept. */
+export function maskEngine(model: Seq2SeqModel, grammar: Grammar): MaskEngine {
+  let byVocab = engines.get(grammar);
+  if (byVocab === undefined) engines.set(grammar, (byVocab = new WeakMap()));
+  let engine = byVocab.get(model.vocabulary);
+  if (engine === undefined) byVocab.set(model.vocabulary, (engine = compileMasks(grammar, model.vocabulary)));
+  return engine;
+}
+
+/** Decodes a question and, given a grammar, parses and checks the output (see GenerateOptions). */
+export async function generate(model: Seq2SeqModel, question: string, options: GenerateOptions = {}): Promise<GenerateResult> {
+  const { grammar = null, names = {}, unconstrained = false, ...rest } = options;
+  let constraint = rest.constraint ?? null;
+  if (grammar !== null && !unconstrained && constraint === null) constraint = maskEngine(model, grammar).bind(names);
+  const result = await decode(model, question, { ...rest, constraint: unconstrained ? null : constraint });
+  if (grammar === null) return { ...result, tree: null, parses: false, well_typed: false, parse_error: null };
+  let tree: Tree;
+  try {
+    tree = createParser(grammar).parse(result.text, { file: '<output>' });
+  } catch (e) {
+    return { ...result, tree: null, parses: false, well_typed: false, parse_error: (e as Error).message };
+  }
+  const issue = validateTree(grammar, tree, { names });
+  return { ...result, tree, parses: true, well_typed: issue === null, parse_error: issue === null ? null : `${issue.path}: ${issue.message}` };
+}

@@ -1,0 +1,54 @@
+// Constrained decoding with the real mask engine (src/masks) on the tiny fixture model: every
+// output must parse with the grammar's parser (src/tree) and be well-typed with the bound names.
+import { beforeAll, describe, expect, it } from 'vitest';
+import { loadGrammar } from '../../src/description/index.ts';
+import type { Grammar, NameBindings } from '../../src/description/ir.ts';
+import { generate } from '../../src/decode/index.ts';
+import { loadModel, type Seq2SeqModel } from '../../src/model/index.ts';
+import { loadNames, printTree } from '../../src/tree/index.ts';
+
+const QUESTIONS = [
+  'lf: which orchards does chen li own?',
+  'lf: what is the largest orchard by hectares?',
+  'lf: does fenna dekker manage a cold room?',
+  'lf: how many lots of conference pears were harvested in 2021?',
+];
+
+let model: Seq2SeqModel;
+let lf: Grammar;
+let names: NameBindings;
+beforeAll(async () => {
+  model = await loadModel('test/fixtures/tiny-seq2seq', { threads: 1 });
+  lf = loadGrammar('grammars/lf/lf.twg');
+  names = loadNames('grammars/lf/samples/names.json');
+});
+
+describe('generate() with a grammar', () => {
+  it('constrained greedy, beam and sampling outputs parse and are well-typed', async () => {
+    for (const q of QUESTIONS) {
+      for (const opts of [{}, { strategy: 'beam' as const, beamWidth: 3 }, { strategy: 'sample' as const, seed: 5, temperature: 1.2 }]) {
+        const r = await generate(model, q, { grammar: lf, names, maxTokens: 48, ...opts });
+        expect(r.parse_error).toBeNull();
+        expect(r).toMatchObject({ parses: true, well_typed: true, finished: 'eos' });
+        // the canonical print of the tree re-parses to the same tree (the printer is src/tree's)
+        expect(r.tree).not.toBeNull();
+        expect(printTree(lf, r.tree!).length).toBeGreaterThan(0);
+        expect(r.mask_ms).toBeGreaterThan(0);
+      }
+    }
+  });
+
+  it('unconstrained output of the random model is reported as not parsing, with the parser message', async () => {
+    const r = await generate(model, QUESTIONS[0], { grammar: lf, names, unconstrained: true, maxTokens: 12 });
+    expect(r.mask_ms).toBe(0);
+    expect(r.parses).toBe(false);
+    expect(r.tree).toBeNull();
+    expect(r.parse_error).toMatch(/^<output>:1:\d+: /);
+  });
+
+  it('an unbound name set is an error before decoding', async () => {
+    await expect(generate(model, QUESTIONS[0], { grammar: lf, names: {}, maxTokens: 12 })).rejects.toThrow(
+      'names: the name set Measure is not bound; expected a list of Name lexemes for it (--names FILE with {"Measure": [...]} or --db FILE)',
+    );
+  });
+});
