@@ -17,6 +17,7 @@ import Database from 'better-sqlite3';
 import { CLASSES, MEASURES, RELATIONS, SUBCLASSES, type EntityClass, constantOf } from '../dataset/lexicon.ts';
 import { buildSqliteFileFrom } from './database.ts';
 import { makeFactBase, type FactBase } from './facts.ts';
+import type { LfAnswer } from './lf.ts';
 
 type Row = Record<string, unknown> & { id: number };
 
@@ -108,4 +109,41 @@ export function factsFromDatabase(dbPath: string): FactBase {
 export function buildCoop(sqlFile: string, dbPath: string): { dbPath: string; facts: FactBase } {
   buildSqliteFileFrom(sqlFile, dbPath);
   return { dbPath, facts: factsFromDatabase(dbPath) };
+}
+
+/**
+ * Whether an LF answer and a SQL result say the same thing, by the dataset's answer conventions
+ * (lexicon.ts, end): a set ↔ one `name` column (names mapped to constants, compared as sets); an
+ * argmax/argmin ↔ exactly one row whose name is the single best entity; a number ↔ one numeric
+ * cell (relative tolerance 1e-9, absolute below 1); a truth value ↔ one count cell, yes ⟺ count > 0.
+ * Returns null when they agree, else why not.
+ */
+export function lfAgreesWithSql(lf: LfAnswer, sql: { readonly columns: readonly string[]; readonly rows: readonly (readonly unknown[])[] }): string | null {
+  const cell = (): unknown => (sql.rows.length === 1 && sql.rows[0].length === 1 ? sql.rows[0][0] : undefined);
+  switch (lf.type) {
+    case 'set': {
+      if (sql.columns.length !== 1) return `a set answer needs one column, SQL gave ${sql.columns.length}`;
+      const fromSql = [...new Set(sql.rows.map((r) => constantOf(String(r[0]))))].sort();
+      const fromLf = [...new Set(lf.members)].sort();
+      return fromSql.length === fromLf.length && fromSql.every((x, i) => x === fromLf[i])
+        ? null
+        : `LF {${fromLf.join(', ')}} vs SQL {${fromSql.join(', ')}}`;
+    }
+    case 'best': {
+      const c = cell();
+      if (c === undefined) return `an argmax/argmin answer needs one row of one column, SQL gave ${sql.rows.length} rows`;
+      const name = constantOf(String(c));
+      return lf.members.length === 1 && lf.members[0] === name ? null : `LF best {${lf.members.join(', ')}} vs SQL ${name}`;
+    }
+    case 'number': {
+      const c = cell();
+      if (typeof c !== 'number') return `a number answer needs one numeric cell, SQL gave ${JSON.stringify(sql.rows).slice(0, 80)}`;
+      return Math.abs(c - lf.value) <= 1e-9 * Math.max(1, Math.abs(c)) ? null : `LF ${lf.value} vs SQL ${c}`;
+    }
+    case 'truth': {
+      const c = cell();
+      if (typeof c !== 'number') return `a yes/no answer needs one count cell, SQL gave ${JSON.stringify(sql.rows).slice(0, 80)}`;
+      return c > 0 === lf.value ? null : `LF ${lf.value ? 'yes' : 'no'} vs SQL count ${c}`;
+    }
+  }
 }

@@ -16,7 +16,9 @@
  */
 import { fork, type ChildProcess } from 'node:child_process';
 import { fileURLToPath } from 'node:url';
-import type { ExecContext, ExecResult, Tree } from './types.ts';
+import type { Grammar } from '../description/ir.ts';
+import { printTree } from '../tree/index.ts';
+import type { ExecResult, ExecuteFn, Tree } from './types.ts';
 
 const CHILD = fileURLToPath(new URL('./sql-child.mjs', import.meta.url));
 
@@ -156,4 +158,22 @@ export function checkSelectTree(tree: Tree): string | null {
     return `only a single SELECT may run, but the tree's root is "${tree.kind}" (at $.kind)`;
   }
   return null;
+}
+
+/**
+ * An executor (see types.ts) for trees of the `sql` grammar: checks the root, prints the tree
+ * canonically and runs the text on `runner`. Rows come back as `{ columns, rows }`.
+ */
+export function sqlExecutor(runner: SqlRunner, grammar: Grammar): ExecuteFn {
+  return async (tree: Tree): Promise<ExecResult> => {
+    const problem = checkSelectTree(tree);
+    if (problem) return { ok: false, error: problem };
+    let text: string;
+    try {
+      text = printTree(grammar, tree);
+    } catch (err) {
+      return { ok: false, error: `the tree cannot be printed as SQL: ${(err as Error).message}` };
+    }
+    return runner.run(text);
+  };
 }
