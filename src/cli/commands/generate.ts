@@ -10,10 +10,7 @@
 import { existsSync } from 'node:fs';
 import type { Command } from 'commander';
 import type { NameBindings } from '../../description/ir.ts';
-import { loadGrammar } from '../../description/index.ts';
-import { generate, type GenerateOptions } from '../../decode/index.ts';
-import { loadModel } from '../../model/index.ts';
-import { checkNames, loadNames, namesFromDatabase } from '../../tree/index.ts';
+import type { GenerateOptions } from '../../decode/index.ts';
 import type { RegisterCommand } from './index.ts';
 
 interface Flags {
@@ -65,6 +62,11 @@ export const register: RegisterCommand = (program: Command, setExit) => {
     .option('--json', 'print one JSON object on stdout')
     .action(async (question: string, f: Flags) => {
       try {
+        // loaded here so that other commands start without onnxruntime and the mask engine
+        const { loadGrammar } = await import('../../description/index.ts');
+        const { generate } = await import('../../decode/index.ts');
+        const { loadModel } = await import('../../model/index.ts');
+        const { checkNames, loadNames, namesFromDatabase } = await import('../../tree/index.ts');
         if (f.names !== undefined && f.db !== undefined) throw new Error('--names and --db: found both; expected at most one source of name bindings');
         if (f.beam !== undefined && f.sample) throw new Error('--beam and --sample: found both; expected one decoding strategy');
         const gPath = grammarPath(f.grammar);
