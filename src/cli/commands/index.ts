@@ -4,6 +4,7 @@
  */
 import type { Command } from 'commander';
 import { register as check } from './check.ts';
+import { register as evaluate } from './evaluate.ts';
 import { register as generate } from './generate.ts';
 
 /** Adds one subcommand to the program. `setExit` records the process exit code. */
@@ -11,5 +12,6 @@ export type RegisterCommand = (program: Command, setExit: (code: number) => void
 
 export const COMMANDS: RegisterCommand[] = [
   check,
+  evaluate,
   generate,
 ];

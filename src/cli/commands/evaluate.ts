@@ -1,0 +1,195 @@
+/**
+ * `treewright evaluate --model DIR --grammar G --data FILE.jsonl --out DIR [--beam K] [--limit N]
+ * [--split NAME] [--db FILE] [--names FILE] [--executor MODULE] [--max-tokens N] [--prefix TEXT]`:
+ * decodes every item of the data file twice (unconstrained, constrained), scores each output
+ * (parses, well-typed, executes, exact match, execution accuracy, tokens, latency, mask-time
+ * share) and writes to --out: results.jsonl (appended row by row; a killed run started again
+ * continues where it stopped), metrics.json, taxonomy.json and report.html.
+ *
+ * Executors: the `sql` grammar runs on --db (SQLite, read-only); the `lf` grammar runs on the fact
+ * base read from --db through the demo lexicon; any grammar may use --executor MODULE (a module
+ * exporting execute(tree, context), see src/exec/types.ts). The model's input is
+ * `<prefix><question>`, prefix `<grammar name>: ` by default.
+ * Exit code 0 when the run finished, 1 on an error (printed on stderr, naming the file).
+ */
+import { existsSync } from 'node:fs';
+import type { Command } from 'commander';
+import type { NameBindings } from '../../description/ir.ts';
+import type { ExecuteFn } from '../../exec/types.ts';
+import type { DecodeFn, EvalRow, Mode } from '../../eval/run.ts';
+import type { RegisterCommand } from './index.ts';
+
+interface Flags {
+  model: string;
+  grammar: string;
+  data: string;
+  out: string;
+  beam?: string;
+  limit?: string;
+  split?: string;
+  db?: string;
+  names?: string;
+  executor?: string;
+  maxTokens?: string;
+  prefix?: string;
+}
+
+/** `--grammar sql` names a shipped grammar (grammars/sql/sql.twg); anything else is a path. */
+function grammarPath(g: string): string {
+  if (/^[a-z][a-z0-9_-]*$/.test(g) && !existsSync(g)) return `grammars/${g}/${g}.twg`;
+  return g;
+}
+
+function positiveInt(flag: string, value: string | undefined): number | undefined {
+  if (value === undefined) return undefined;
+  const n = Number(value);
+  if (value.trim() === '' || !Number.isInteger(n) || n < 1) throw new Error(`--${flag}: found ${JSON.stringify(value)}; expected a positive integer`);
+  return n;
+}
+
+export const register: RegisterCommand = (program: Command, setExit) => {
+  program
+    .command('evaluate')
+    .description('measure a model on a data file, unconstrained and constrained: validity, accuracy, latency, and an HTML report')
+    .requiredOption('--model <dir>', 'model folder (config.json, tokenizer.json, onnx/...)')
+    .requiredOption('--grammar <g>', 'grammar description (.twg path, or a shipped grammar: sql, lf)')
+    .requiredOption('--data <file>', 'JSONL rows {id, split, question, <grammar name>: gold program}')
+    .requiredOption('--out <dir>', 'output folder: results.jsonl, metrics.json, taxonomy.json, report.html')
+    .option('--beam <k>', 'beam search with k hypotheses (default greedy)')
+    .option('--limit <n>', 'evaluate only the first n items (after --split)')
+    .option('--split <name>', 'evaluate only the items of this split')
+    .option('--db <file>', 'SQLite database: runs SQL, feeds the LF fact base, binds names')
+    .option('--names <file>', 'JSON bindings of the open name sets (instead of those from --db)')
+    .option('--executor <module>', 'your own executor: an ES module exporting execute(tree, context)')
+    .option('--max-tokens <n>', 'most tokens generated per output, end of sequence included (default 128)')
+    .option('--prefix <text>', 'text put before each question (default "<grammar name>: ")')
+    .action(async (f: Flags) => {
+      let closeRunner: (() => void) | null = null;
+      try {
+        // loaded here so that other commands start without onnxruntime and the mask engine
+        const { loadGrammar } = await import('../../description/index.ts');
+        const { generate } = await import('../../decode/index.ts');
+        const { loadModel } = await import('../../model/index.ts');
+        const { checkNames, loadNames, namesFromDatabase } = await import('../../tree/index.ts');
+        const { SqlRunner, sqlExecutor, lfExecutor, factsFromDatabase, factNames, loadExecutor } = await import('../../exec/index.ts');
+        const { evaluate, loadItems } = await import('../../eval/evaluate.ts');
+        const { createScorer } = await import('../../eval/target.ts');
+
+        const beam = positiveInt('beam', f.beam);
+        const limit = positiveInt('limit', f.limit);
+        const maxTokens = positiveInt('max-tokens', f.maxTokens);
+        const gPath = grammarPath(f.grammar);
+        const grammar = loadGrammar(gPath);
+        if (f.db !== undefined && !existsSync(f.db)) throw new Error(`--db ${f.db}: no such file (expected a SQLite database)`);
+
+        let names: NameBindings = {};
+        let namesSource = '';
+        let execute: ExecuteFn;
+        if (f.executor !== undefined) {
+          execute = await loadExecutor(f.executor);
+          if (f.db !== undefined && grammar.name === 'sql') [names, namesSource] = [namesFromDatabase(f.db), f.db];
+        } else if (grammar.name === 'sql') {
+          if (f.db === undefined) throw new Error(`--db: missing; expected the SQLite database the ${gPath} programs run on`);
+          const runner = new SqlRunner(f.db);
+          closeRunner = () => runner.close();
+          execute = sqlExecutor(runner, grammar);
+          [names, namesSource] = [namesFromDatabase(f.db), f.db];
+        } else if (grammar.name === 'lf') {
+          if (f.db === undefined) throw new Error(`--db: missing; expected the SQLite database the ${gPath} fact base is read from`);
+          const facts = factsFromDatabase(f.db);
+          execute = lfExecutor(facts);
+          [names, namesSource] = [factNames(facts), f.db];
+        } else {
+          throw new Error(`--executor: missing; expected an executor module for grammar ${grammar.name} (${gPath}); the shipped executors cover sql and lf`);
+        }
+        if (f.names !== undefined) [names, namesSource] = [loadNames(f.names), f.names];
+        if (namesSource !== '') checkNames(grammar, names, namesSource);
+
+        const items = loadItems(f.data, { goldField: grammar.name, split: f.split, limit });
+        if (items.length === 0) throw new Error(`${f.data}: no items${f.split !== undefined ? ` in split ${JSON.stringify(f.split)}` : ''}; expected at least one row`);
+        const model = await loadModel(f.model);
+        const prefix = f.prefix ?? `${grammar.name}: `;
+        const decode: DecodeFn = async (item, mode: Mode) => {
+          const r = await generate(model, prefix + item.question, {
+            grammar,
+            names,
+            unconstrained: mode === 'unconstrained',
+            strategy: beam !== undefined ? 'beam' : 'greedy',
+            beamWidth: beam,
+            maxTokens,
+          });
+          return { text: r.text, tokens: r.tokens.length, model_ms: r.model_ms, mask_ms: r.mask_ms, truncated: r.finished === 'length' };
+        };
+        const scorer = createScorer({ grammar, names, execute, context: { grammar, db: f.db } });
+
+        const progress = await makeProgress();
+        const result = await evaluate({
+          items,
+          decode,
+          scorer,
+          outDir: f.out,
+          meta: {
+            model: f.model,
+            grammar: gPath,
+            data: f.data + (f.split !== undefined ? ` (split ${f.split})` : '') + (limit !== undefined ? ` (first ${limit})` : ''),
+            decoding: beam !== undefined ? `beam ${beam}` : 'greedy',
+          },
+          onStart: progress.start,
+          onRow: progress.row,
+        });
+        progress.stop();
+        const warnGold = new Set(result.rows.filter((r) => r.gold_error !== null).map((r) => r.gold_error));
+        for (const w of warnGold) process.stderr.write(`warning: ${w}\n`);
+        process.stderr.write(
+          `evaluate: ${result.written} rows written, ${result.resumed} kept from an earlier run` +
+            (result.repairedBytes > 0 ? `, a torn last line of ${result.repairedBytes} bytes dropped` : '') +
+            `; wrote ${f.out}/results.jsonl, metrics.json, taxonomy.json, report.html\n`,
+        );
+        for (const [split, m] of Object.entries(result.metrics)) {
+          const p = (x: number | null) => (x === null ? '–' : `${(x * 100).toFixed(1)}%`);
+          for (const mode of ['unconstrained', 'constrained'] as const) {
+            const mm = m[mode];
+            process.stderr.write(
+              `  ${split} ${mode.padEnd(13)} valid ${p(mm.valid.rate)} · well-typed ${p(mm.well_typed.rate)} · executes ${p(mm.executable.rate)} · ` +
+                `exact ${p(mm.exact_match.rate)} · execution ${p(mm.execution_accuracy.rate)} · p50 ${mm.latency_ms_p50?.toFixed(1) ?? '–'} ms\n`,
+            );
+          }
+        }
+        setExit(0);
+      } catch (err) {
+        process.stderr.write(`treewright evaluate: ${(err as Error).message}\n`);
+        setExit(1);
+      } finally {
+        closeRunner?.();
+      }
+    });
+};
+
+interface Progress {
+  start(done: number, total: number): void;
+  row(row: EvalRow, done: number, total: number): void;
+  stop(): void;
+}
+
+/** A cli-progress bar on a terminal; plain lines (every 10 rows and the last) otherwise. */
+async function makeProgress(): Promise<Progress> {
+  if (process.stderr.isTTY) {
+    const { SingleBar, Presets } = await import('cli-progress');
+    const bar = new SingleBar(
+      { format: 'evaluate [{bar}] {value}/{total} rows · {eta_formatted} left · {last}', stream: process.stderr, hideCursor: true },
+      Presets.shades_classic,
+    );
+    return {
+      start: (done, total) => bar.start(total, done, { last: '' }),
+      row: (r, done) => bar.update(done, { last: `${r.id} ${r.mode}: ${r.well_typed ? 'well-typed' : 'invalid'}` }),
+      stop: () => bar.stop(),
+    };
+  }
+  return {
+    start: (done, total) => process.stderr.write(`evaluate: ${total} rows to produce, ${done} already in results.jsonl\n`),
+    row: (r, done, total) => {
+      if (done % 10 === 0 || done === total) process.stderr.write(`evaluate: ${done}/${total} rows (last: ${r.id} ${r.mode}, ${r.well_typed ? 'well-typed' : 'invalid'})\n`);
+    },
+    stop: () => undefined,
+  };
+}
