@@ -31,7 +31,7 @@
  * JSON Schema cannot express variable scoping or numeric token regexes (schema.ts).
  */
 export { validateTree, assertTree, TreeError, type Tree, type TreeValue, type TreeIssue, type ValidateOptions } from './validate.ts';
-export { printTree } from './print.ts';
+export { printTree, printTokens } from './print.ts';
 export { createParser, ParseError, GrammarFeatureError, type Parser, type ParseOptions } from './parse.ts';
 export { sampleTree, createSampler, mulberry32, SampleError, type Sampler, type SampleOptions } from './sample.ts';
 export { toJsonSchema } from './schema.ts';

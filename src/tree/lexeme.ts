@@ -33,11 +33,12 @@ export function lexemeToValue(kind: ValueKind, lexeme: string): TokenValue | nul
     case 'int': {
       if (!/^[+-]?[0-9]+$/.test(lexeme)) return null;
       const n = Number(lexeme);
-      return Number.isSafeInteger(n) ? n : null;
+      return Number.isSafeInteger(n) ? n + 0 : null;
     }
     case 'number': {
       const n = Number(lexeme);
-      return Number.isFinite(n) && lexeme.trim() !== '' ? n : null;
+      // -0 reads as 0: trees never hold -0 (JSON.stringify prints it as 0)
+      return Number.isFinite(n) && lexeme.trim() !== '' ? n + 0 : null;
     }
     case 'json-string':
       try {

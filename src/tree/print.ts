@@ -29,6 +29,17 @@ export function printTree(grammar: Grammar, tree: unknown, opts: { sort?: string
   return out.text();
 }
 
+/**
+ * The canonical tokens of a tree, in order: each lexeme or keyword with whether the canonical text
+ * puts a space before it. `printTree` is these joined. (Tests re-space programs with it.)
+ */
+export function printTokens(grammar: Grammar, tree: unknown, opts: { sort?: string } = {}): { text: string; space: boolean }[] {
+  assertTree(grammar, tree, { sort: opts.sort });
+  const out = new Output(grammarInfo(grammar));
+  printNode(out, tree, false, null);
+  return out.tokens;
+}
+
 /** Position of a child inside an operator parent: which operand, and the parent's constructor. */
 interface OperandPosition {
   readonly parent: Constructor;
@@ -37,6 +48,7 @@ interface OperandPosition {
 
 class Output {
   private readonly parts: string[] = [];
+  readonly tokens: { text: string; space: boolean }[] = [];
   private last = '';
   private lastIsKeyword = false;
   private readonly longer: ReadonlyMap<string, readonly string[]>;
@@ -50,8 +62,9 @@ class Output {
   }
   /** Appends one token; `glue` asks for no space before it. */
   emit(text: string, glue: boolean, keyword: boolean): void {
+    let space = false;
     if (this.parts.length > 0) {
-      let space = !glue;
+      space = !glue;
       if (!space && isWordCode(this.last.charCodeAt(this.last.length - 1)) && isWordCode(text.charCodeAt(0))) space = true;
       if (!space && this.lastIsKeyword) {
         const joined = this.last + text;
@@ -60,6 +73,7 @@ class Output {
       if (space) this.parts.push(' ');
     }
     this.parts.push(text);
+    this.tokens.push({ text, space });
     this.last = text;
     this.lastIsKeyword = keyword;
   }
