@@ -29,6 +29,7 @@
  */
 import type { Constructor, Field, Grammar, LayoutItem, Sort, Span, TokenClass } from './ir.ts';
 import * as E from './errors.ts';
+import { stronglyConnected } from './graph.ts';
 import type { Diagnostic } from './errors.ts';
 
 /** What can begin (or end) a printed term: literal texts and token classes. */
@@ -91,31 +92,49 @@ class Facts {
     }
   }
 
-  /** Literal texts / token classes that can begin (`first`) or end (`last`) a term of each sort. */
+  /**
+   * Literal texts / token classes that can begin (`first`) or end (`last`) a term of each sort.
+   * A sort's set is its own direct contributions plus the sets of the sorts its layouts can begin
+   * (end) with; closed in one pass over the strongly connected components of that dependency graph.
+   */
   private computeEdges(which: 'first' | 'last'): void {
     const table = which === 'first' ? this.first : this.last;
-    for (const s of this.g.sorts) {
+    const sorts = this.g.sorts;
+    const id = new Map(sorts.map((s, i) => [s.name, i]));
+    const direct: Edge[] = [];
+    const deps: number[][] = [];
+    for (const s of sorts) {
       const e: Edge = { texts: new Set(), tokens: new Set() };
       if (s.parens) e.texts.add(which === 'first' ? s.parens.open : s.parens.close);
-      table.set(s.name, e);
-    }
-    let changed = true;
-    while (changed) {
-      changed = false;
-      for (const s of this.g.sorts) {
-        const e = table.get(s.name)!;
-        const before = e.texts.size + e.tokens.size;
-        for (const n of s.constructors) {
-          const c = this.ctors.get(n)!;
-          this.edgeOfItems(c, c.layout, which, e);
-        }
-        if (e.texts.size + e.tokens.size !== before) changed = true;
+      const d = new Set<string>();
+      for (const n of s.constructors) {
+        const c = this.ctors.get(n)!;
+        this.edgeOfItems(c, c.layout, which, e, d);
       }
+      direct.push(e);
+      deps.push([...d].map((x) => id.get(x)!));
+    }
+    for (const comp of stronglyConnected(sorts.length, deps)) {
+      const e: Edge = { texts: new Set(), tokens: new Set() };
+      for (const v of comp) {
+        for (const t of direct[v]!.texts) e.texts.add(t);
+        for (const t of direct[v]!.tokens) e.tokens.add(t);
+        for (const w of deps[v]!) {
+          const done = table.get(sorts[w]!.name);
+          if (!done) continue; // same component, added via direct sets
+          for (const t of done.texts) e.texts.add(t);
+          for (const t of done.tokens) e.tokens.add(t);
+        }
+      }
+      for (const v of comp) table.set(sorts[v]!.name, e);
     }
   }
 
-  /** Adds what can begin/end `items` to `into`; returns whether all of `items` can print as nothing. */
-  edgeOfItems(c: Constructor, items: readonly LayoutItem[], which: 'first' | 'last', into: Edge): boolean {
+  /**
+   * Adds what can begin/end `items` to `into`; returns whether all of `items` can print as nothing.
+   * With `deps`, sorts met at the edge are recorded there instead of being looked up.
+   */
+  edgeOfItems(c: Constructor, items: readonly LayoutItem[], which: 'first' | 'last', into: Edge, deps?: Set<string>): boolean {
     const ordered = which === 'first' ? items : [...items].reverse();
     for (const item of ordered) {
       if (item.kind === 'text') {
@@ -123,11 +142,12 @@ class Facts {
         return false;
       }
       if (item.kind === 'when') {
-        this.edgeOfItems(c, item.items, which, into);
+        this.edgeOfItems(c, item.items, which, into, deps);
         continue;
       }
       const f = this.field(c, item.field);
-      this.edgeOfType(f, which, into);
+      if (deps && f.type.kind === 'sort') deps.add(f.type.name);
+      else this.edgeOfType(f, which, into);
       if (!this.fieldNullable(f)) return false;
     }
     return true;
@@ -372,21 +392,17 @@ function checkLeftRecursion(g: Grammar, facts: Facts, out: Diagnostic[], at: At)
     for (const n of s.constructors) for (const e of edges.get(n)!) set.add(e.target);
     sortEdges.set(s.name, set);
   }
-  const leadsTo = (from: string, goal: string): boolean => {
-    const seen = new Set<string>([from]);
-    const stack = [from];
-    while (stack.length > 0) {
-      const x = stack.pop()!;
-      if (x === goal) return true;
-      for (const y of sortEdges.get(x)!) {
-        if (!seen.has(y)) {
-          seen.add(y);
-          stack.push(y);
-        }
-      }
-    }
-    return false;
-  };
+  // an edge S -> T closes a cycle exactly when T leads back to S: T == S or both in one component
+  const sortId = new Map(g.sorts.map((s, i) => [s.name, i]));
+  const component = new Int32Array(g.sorts.length);
+  stronglyConnected(
+    g.sorts.length,
+    g.sorts.map((s) => [...sortEdges.get(s.name)!].map((t) => sortId.get(t)!)),
+  ).forEach((comp, k) => {
+    for (const v of comp) component[v] = k;
+  });
+  const leadsTo = (from: string, goal: string): boolean =>
+    from === goal || component[sortId.get(from)!] === component[sortId.get(goal)!];
   for (const c of g.constructors) {
     for (const e of edges.get(c.name)!) {
       if (leadsTo(e.target, c.sort)) {
