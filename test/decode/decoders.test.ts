@@ -1,9 +1,12 @@
-import { beforeAll, describe, expect, it } from 'vitest';
+import { beforeAll, describe, expect, it, vi } from 'vitest';
 import { loadModel, type Seq2SeqModel } from '../../src/model/index.ts';
 import { decode, decodeStream } from '../../src/decode/search.ts';
 import { Prng, sampleRow } from '../../src/decode/logits.ts';
 import { FiniteSetConstraint, type ToyState } from './toy-constraint.ts';
 import * as ort from 'onnxruntime-node';
+
+// model runs share two cores with other work in CI: generous limits, no timing assertions
+vi.setConfig({ testTimeout: 120_000, hookTimeout: 120_000 });
 
 const FIXTURE = 'test/fixtures/tiny-seq2seq';
 const QUESTIONS = [

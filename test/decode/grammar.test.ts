@@ -1,11 +1,14 @@
 // Constrained decoding with the real mask engine (src/masks) on the tiny fixture model: every
 // output must parse with the grammar's parser (src/tree) and be well-typed with the bound names.
-import { beforeAll, describe, expect, it } from 'vitest';
+import { beforeAll, describe, expect, it, vi } from 'vitest';
 import { loadGrammar } from '../../src/description/index.ts';
 import type { Grammar, NameBindings } from '../../src/description/ir.ts';
 import { generate } from '../../src/decode/index.ts';
 import { loadModel, type Seq2SeqModel } from '../../src/model/index.ts';
 import { loadNames, printTree } from '../../src/tree/index.ts';
+
+// model runs share two cores with other work in CI: generous limits, no timing assertions
+vi.setConfig({ testTimeout: 120_000, hookTimeout: 120_000 });
 
 const QUESTIONS = [
   'lf: which orchards does chen li own?',

@@ -2,11 +2,14 @@
 // AutoModelForSeq2SeqLM + AutoTokenizer, remote loading off, and running its own generate().
 import { resolve } from 'node:path';
 import { AutoModelForSeq2SeqLM, AutoTokenizer, env, type PreTrainedModel, type PreTrainedTokenizer, type Tensor } from '@huggingface/transformers';
-import { beforeAll, describe, expect, it } from 'vitest';
+import { beforeAll, describe, expect, it, vi } from 'vitest';
 import { loadModel, type Seq2SeqModel } from '../../src/model/index.ts';
 import { decode } from '../../src/decode/search.ts';
 import { ConstraintLogitsProcessor } from '../../src/decode/hook.ts';
 import { FiniteSetConstraint } from './toy-constraint.ts';
+
+// model runs share two cores with other work in CI: generous limits, no timing assertions
+vi.setConfig({ testTimeout: 120_000, hookTimeout: 120_000 });
 
 const FIXTURE = resolve('test/fixtures/tiny-seq2seq');
 const QUESTIONS = [

@@ -1,8 +1,11 @@
 import { copyFileSync, cpSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { afterAll, beforeAll, describe, expect, it, vi } from 'vitest';
 import { loadModel, ModelError, type Seq2SeqModel } from '../../src/model/index.ts';
+
+// model runs share two cores with other work in CI: generous limits, no timing assertions
+vi.setConfig({ testTimeout: 120_000, hookTimeout: 120_000 });
 
 const FIXTURE = 'test/fixtures/tiny-seq2seq';
 const QUESTION = 'lf: which orchards does chen li own?';
