@@ -4,14 +4,12 @@
  * tree validates, and mutated trees (a dropped field, a wrong kind, a wrong JSON type, an extra
  * field) do not — and validateTree agrees with ajv on each mutant.
  */
-import Ajv2020Module from 'ajv/dist/2020.js';
+import { Ajv2020 } from 'ajv/dist/2020.js';
 import { describe, expect, it } from 'vitest';
 import { loadGrammar } from '../../src/description/index.ts';
 import type { Grammar, NameBindings } from '../../src/description/ir.ts';
 import { createSampler, mulberry32, toJsonSchema, validateTree, type Tree, type TreeValue } from '../../src/tree/index.ts';
 
-// ajv ships CommonJS; under ESM the class is the default export's `default`
-const Ajv2020 = (Ajv2020Module as unknown as { default: typeof Ajv2020Module }).default ?? Ajv2020Module;
 
 const SAMPLES = 250;
 const GRAMMARS = ['arith', 'json', 'lf', 'sql'] as const;
