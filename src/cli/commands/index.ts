@@ -5,6 +5,7 @@
 import type { Command } from 'commander';
 import { register as check } from './check.ts';
 import { register as evaluate } from './evaluate.ts';
+import { register as demo } from './demo.ts';
 import { register as generate } from './generate.ts';
 
 /** Adds one subcommand to the program. `setExit` records the process exit code. */
@@ -13,5 +14,6 @@ export type RegisterCommand = (program: Command, setExit: (code: number) => void
 export const COMMANDS: RegisterCommand[] = [
   check,
   evaluate,
+  demo,
   generate,
 ];

@@ -1,0 +1,47 @@
+/**
+ * The demo (`npm run demo`) on the shipped grammars: it runs to the end, its parse-and-print part
+ * gives the canonical text, the rows SQLite returns for it, and located errors for the broken
+ * programs.
+ */
+import { describe, expect, it } from 'vitest';
+import { compactJson, runDemo } from '../../src/cli/commands/demo.ts';
+import { coopDatabase } from './support.ts';
+
+describe('demo', () => {
+  it('runs every section and exits 0', { timeout: 120_000 }, async () => {
+    const out: string[] = [];
+    const code = await runDemo((line) => out.push(line));
+    const text = out.join('\n');
+    const lines = text.split('\n');
+    expect(code, text).toBe(0);
+    for (const title of ['1. Check', '2. Sample', '3. Parse and print', '4. Errors']) {
+      expect(lines.some((l) => l.startsWith(title)), title).toBe(true);
+    }
+    const printed =
+      'SELECT name, hectares FROM orchards WHERE altitude_m > 300 AND NOT planted_year < 1990 ORDER BY hectares DESC LIMIT 3';
+    expect(lines).toContain(`printed ${printed}`);
+    // the rows shown are the rows SQLite gives for the printed program
+    const rows = coopDatabase().prepare(printed).all() as Record<string, unknown>[];
+    expect(rows.length).toBe(3);
+    const first = lines.findIndex((l) => l.startsWith('rows '));
+    const shown = lines.slice(first, first + 3);
+    expect(shown.map((l) => l.slice(8))).toEqual(rows.map((r) => JSON.stringify(r)));
+    // every broken program is reported with its file, line and column
+    for (const file of ['broken.sql', 'broken.lf', 'broken.json']) {
+      expect(lines.some((l) => new RegExp(`^${file.replace('.', '\\.')}:1:\\d+: `).test(l)), file).toBe(true);
+    }
+    // every sampled SQL program is shown with SQLite's verdict
+    const verdicts = lines.filter((l) => l.startsWith('    SQLite: '));
+    expect(verdicts.length).toBe(4);
+  });
+
+  it('compactJson keeps short values on one line and breaks long ones', () => {
+    expect(compactJson({ a: [1, 2], b: null }, 40)).toBe('{"a":[1,2],"b":null}');
+    expect(compactJson({ kind: 'x', items: [{ kind: 'y', v: 'a long string value here' }] }, 50)).toBe(
+      '{\n  "kind": "x",\n  "items": [\n    {"kind":"y","v":"a long string value here"}\n  ]\n}',
+    );
+    // breaking is lossless
+    const value = { kind: 'select', items: [{ kind: 'star' }], where: { kind: 'and', left: { n: 1 }, right: { n: [2, 3] } } };
+    expect(JSON.parse(compactJson(value, 10))).toEqual(value);
+  });
+});
