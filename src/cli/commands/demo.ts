@@ -80,9 +80,10 @@ const checkSection: DemoSection = {
       const { grammar, diagnostics } = compileDescription(readFileSync(inRepo(path), 'utf8'), path);
       if (!grammar) throw new Error(`${path} does not compile (run \`npx treewright check ${path}\`)`);
       const warnings = diagnostics.filter((d) => d.severity === 'warning').length;
+      const count = (n: number, what: string) => `${n} ${what}${n === 1 ? '' : what.endsWith('s') ? 'es' : 's'}`;
       out(
-        `${path.padEnd(26)} ${grammar.sorts.length} sorts, ${grammar.constructors.length} constructors, ` +
-          `${grammar.tokens.length} token classes, ${grammar.nameSets.length} name sets, ${warnings} warnings`,
+        `${path.padEnd(26)} ${count(grammar.sorts.length, 'sort')}, ${count(grammar.constructors.length, 'constructor')}, ` +
+          `${count(grammar.tokens.length, 'token class')}, ${count(grammar.nameSets.length, 'name set')}, ${count(warnings, 'warning')}`,
       );
     }
     out('');
