@@ -66,6 +66,13 @@ export class Thread {
   ) {}
 }
 
+/** Options grouped by first byte: options for bytes[i] are opts[off[i] .. off[i+1]). */
+export interface Dispatch {
+  readonly bytes: Uint8Array;
+  readonly off: Int32Array;
+  readonly opts: Int32Array;
+}
+
 export interface PdaState {
   readonly threads: readonly Thread[];
   readonly prevWord: boolean;
@@ -303,6 +310,60 @@ export class Bound {
       throw new BindError(`names: no program of grammar ${g.name} can be written with the bound names (${g.nameSets.map((s) => `${s.name}: ${names[s.name]?.length ?? 0}`).join(', ')}); expected non-empty name sets where the start sort needs them`);
     }
     this.start = { threads: [new Thread(automaton.startNode, -1, 0, '', null, null)], prevWord: false, prev: null };
+  }
+
+  private readonly dispatchCache: (Dispatch | undefined)[] = [];
+  private readonly classCache: (Int32Array | undefined)[] = [];
+
+  /**
+   * The viable options of `node` in `mode` (0: no variable in scope, 1: some) grouped by the bytes
+   * that can begin their terminal (boundvar: any first byte of its class; the scope is checked by
+   * startLex). `skipClasses` leaves out `class` terminals. Built on first use, then kept.
+   */
+  dispatch(node: number, mode: number, skipClasses: boolean): Dispatch {
+    const key = node * 4 + mode * 2 + (skipClasses ? 1 : 0);
+    const hit = this.dispatchCache[key];
+    if (hit !== undefined) return hit;
+    const a = this.automaton;
+    const rtn = a.rtn;
+    const ok = this.optOk[mode];
+    const byByte: number[][] = Array.from({ length: 256 }, () => []);
+    for (let o = a.optStart[node]; o < a.optStart[node + 1]; o++) {
+      if (!ok[o]) continue;
+      const t = rtn.terminals[a.optTerm[o]];
+      if (skipClasses && t.kind === 'class') continue;
+      for (let b = 0; b < 256; b++) {
+        const can = t.kind === 'names' ? this.tries[t.nameSet]!.step(0, b) >= 0 : t.dfa.trans[t.dfa.start * 256 + b] !== 0;
+        if (can) byByte[b].push(o);
+      }
+    }
+    const bytes: number[] = [];
+    const off: number[] = [0];
+    const opts: number[] = [];
+    for (let b = 0; b < 256; b++) {
+      if (byByte[b].length === 0) continue;
+      bytes.push(b);
+      opts.push(...byByte[b]);
+      off.push(opts.length);
+    }
+    const d: Dispatch = { bytes: Uint8Array.from(bytes), off: Int32Array.from(off), opts: Int32Array.from(opts) };
+    this.dispatchCache[key] = d;
+    return d;
+  }
+
+  /** The viable options of `node` in `mode` whose terminal is a token class (`class` kind). */
+  classOptions(node: number, mode: number): Int32Array {
+    const key = node * 2 + mode;
+    const hit = this.classCache[key];
+    if (hit !== undefined) return hit;
+    const a = this.automaton;
+    const out: number[] = [];
+    for (let o = a.optStart[node]; o < a.optStart[node + 1]; o++) {
+      if (this.optOk[mode][o] && a.rtn.terminals[a.optTerm[o]].kind === 'class') out.push(o);
+    }
+    const r = Int32Array.from(out);
+    this.classCache[key] = r;
+    return r;
   }
 
   /** Shortest completion (bytes, an achievable upper bound) from `node` to its nonterminal's end under `env`. */

@@ -18,7 +18,8 @@
  * Cost: NFA size linear in the pattern (bounded repetitions are expanded); subset construction is
  * exponential in the worst case (refused above MAX_DFA_STATES); the shipped classes give ≤ 120 states.
  */
-import { parse as parseRegex } from 'regjsparser';
+import regjsparser from 'regjsparser';
+const parseRegex = regjsparser.parse;
 
 /** Refuse DFAs larger than this (a regex with large counted repetitions of alternations). */
 export const MAX_DFA_STATES = 20000;

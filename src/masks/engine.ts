@@ -22,11 +22,14 @@
  */
 import type { NameBindings, Grammar } from '../description/ir.ts';
 import type { TokenConstraint } from '../util/constraint.ts';
-import { Automaton, Bound, Env, Thread, WORD, INF, type PdaState, type Frame } from '../automaton/pda.ts';
+import { Automaton, Bound, Env, Thread, WORD, INF, type PdaState, type Frame, type Dispatch } from '../automaton/pda.ts';
 import type { Vocabulary, TokenTrie } from '../vocab/index.ts';
 import { buildClassTables, MAX_LE, wMinAccept, wStep, type ClassTables } from './precompute.ts';
 
 export class MaskError extends Error {}
+
+/** Trie nodes with at least this many children get a direct 256-entry child table. */
+const WIDE = 24;
 
 /** A decoding state: the automaton state, plus `ended` after EOS. */
 export interface MaskState extends PdaState {
@@ -50,6 +53,16 @@ export class MaskEngine {
   /** single-byte token id per byte, -1 when none */
   readonly byteToken: Int32Array;
   readonly preprocessMs: number;
+  /** per trie node: index of its direct child table, or -1 (fewer than WIDE children) */
+  readonly wide: Int32Array;
+  readonly wideChild: Int32Array;
+  /** per trie node: the first byte of its string */
+  readonly firstByte: Uint8Array;
+  readonly spaceBytes: Uint8Array;
+  /** tokens made only of space bytes */
+  readonly wsTokenIds: Uint32Array;
+  /** per non-space byte b: trie nodes for "one or more spaces, then b" */
+  readonly wsChildren: Int32Array[];
 
   constructor(readonly grammar: Grammar, readonly vocab: Vocabulary, opts: CompileOptions = {}, tables?: (ClassTables | null)[]) {
     const t0 = performance.now();
@@ -69,6 +82,40 @@ export class MaskEngine {
         this.wordStart[id >>> 5] |= 1 << (id & 31);
       }
     }
+    // direct child tables for wide trie nodes (the root, " ", …): O(1) child lookup
+    this.wide = new Int32Array(trie.nodeCount).fill(-1);
+    const direct: number[] = [];
+    let nWide = 0;
+    for (let n = 0; n < trie.nodeCount; n++) {
+      if (trie.end[n] === n + 1) continue;
+      let k = 0;
+      for (let c = n + 1; c < trie.end[n] && k < WIDE; c = trie.end[c]) k++;
+      if (k < WIDE) continue;
+      this.wide[n] = nWide++;
+      const base = direct.length;
+      for (let b = 0; b < 256; b++) direct.push(-1);
+      for (let c = n + 1; c < trie.end[n]; c = trie.end[c]) direct[base + trie.byte[c]] = c;
+    }
+    this.wideChild = Int32Array.from(direct);
+    this.firstByte = new Uint8Array(trie.nodeCount);
+    for (let n = 1; n < trie.nodeCount; n++) this.firstByte[n] = trie.depth[n] === 1 ? trie.byte[n] : this.firstByte[n - 1];
+    this.spaceBytes = Uint8Array.from([...Array(256).keys()].filter((b) => this.automaton.rtn.space[b]));
+    // the space-only part of the trie: its tokens, and per byte the children that leave it
+    const wsIds: number[] = [];
+    const wsOut: number[][] = Array.from({ length: 256 }, () => []);
+    const space = this.automaton.rtn.space;
+    const visitWs = (n: number): void => {
+      for (let c = n + 1; c < trie.end[n]; c = trie.end[c]) {
+        const b = trie.byte[c];
+        if (space[b]) {
+          for (let i = trie.tokStart[c]; i < trie.tokStart[c + 1]; i++) wsIds.push(trie.tokens[i]);
+          visitWs(c);
+        } else if (n !== 0) wsOut[b].push(c);
+      }
+    };
+    visitWs(0);
+    this.wsTokenIds = Uint32Array.from(wsIds);
+    this.wsChildren = wsOut.map((l) => Int32Array.from(l));
     if (!opts.allowMissingBytes) this.checkBytes();
     const rtn = this.automaton.rtn;
     const follow = new Uint8Array(256);
@@ -82,6 +129,21 @@ export class MaskEngine {
       });
     }
     this.preprocessMs = performance.now() - t0;
+  }
+
+  /** The child of trie node x along byte b, or -1. */
+  childOf(x: number, b: number): number {
+    const w = this.wide[x];
+    if (w >= 0) return this.wideChild[w * 256 + b];
+    const trie = this.trie;
+    const byte = trie.byte;
+    const end = trie.end;
+    for (let c = x + 1, stop = end[x]; c < stop; c = end[c]) {
+      const cb = byte[c];
+      if (cb === b) return c;
+      if (cb > b) return -1;
+    }
+    return -1;
   }
 
   /** Every byte of a shortest lexeme / literal and every space byte needs a single-byte token. */
@@ -287,11 +349,10 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
     let frames = th.frames;
     let env = th.env;
     for (;;) {
-      const ok = bound.optOk[env === null ? 0 : 1];
-      for (let o = a.optStart[node]; o < a.optStart[node + 1]; o++) {
-        if (!ok[o]) continue;
+      const cls = bound.classOptions(node, env === null ? 0 : 1);
+      for (let i = 0; i < cls.length; i++) {
+        const o = cls[i];
         const t = rtn.terminals[a.optTerm[o]];
-        if (t.kind !== 'class') continue;
         const tables = this.engine.classes[t.tokenClass]!;
         const pushed = bound.pushFrames(o, frames, env);
         const target = a.optTarget[o];
@@ -300,11 +361,9 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
         const ex = tables.exits[tables.w0];
         if (ex.length > 0) {
           const end = new Thread(target, -1, 0, '', pushed, env);
-          const trie = this.engine.trie;
-          for (let i = 0; i < ex.length; i++) {
-            const x = ex[i];
-            if (this.rootPrevWord && WORD[this.firstByte(x)] && !rtn.space[this.firstByte(x)]) continue;
-            void trie;
+          for (let j = 0; j < ex.length; j++) {
+            const x = ex[j];
+            if (this.rootPrevWord && WORD[this.engine.firstByte[x]] && !rtn.space[this.engine.firstByte[x]]) continue;
             this.walkBetween(x, end, false);
           }
         }
@@ -314,13 +373,69 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
       env = frames.env;
       frames = frames.next;
     }
-    this.walkBetween(0, th, true);
+    this.walkBetweenRoot(th);
   }
 
-  private firstByte(x: number): number {
-    const trie = this.engine.trie;
-    const v = this.engine.vocab;
-    return v.bytes[v.offsets[trie.tokens[trie.tokStart[x]]]];
+  /**
+   * The finite terminals (literals, names, variables) and space-only tokens of a BETWEEN thread at
+   * the root: space-only tokens from a list, then for each byte that can begin a terminal, the root
+   * child (word rule applies) and every "spaces + byte" node.
+   */
+  private walkBetweenRoot(th: Thread): void {
+    const bound = this.bound;
+    const a = bound.automaton;
+    const engine = this.engine;
+    const dist = bound.betweenDist(th.node, th.env, th.frames);
+    if (dist <= this.lim) {
+      const ids = engine.wsTokenIds;
+      const mask = this.mask;
+      for (let i = 0; i < ids.length; i++) mask[ids[i] >>> 5] |= 1 << (ids[i] & 31);
+    }
+    let node = th.node;
+    let frames = th.frames;
+    let env = th.env;
+    for (;;) {
+      const d = bound.dispatch(node, env === null ? 0 : 1, true);
+      const bytes = d.bytes;
+      for (let i = 0; i < bytes.length; i++) {
+        const b = bytes[i];
+        if (!(this.rootPrevWord && WORD[b])) {
+          const c = engine.childOf(0, b);
+          if (c >= 0) this.startTerminals(c, b, d, i, frames, env);
+        }
+        const more = engine.wsChildren[b];
+        for (let j = 0; j < more.length; j++) this.startTerminals(more[j], b, d, i, frames, env);
+      }
+      if (!a.canPop[node] || frames === null) break;
+      node = frames.ret;
+      env = frames.env;
+      frames = frames.next;
+    }
+  }
+
+  /** Starts every option of dispatch entry i at trie node c (byte b) and walks below c. */
+  private startTerminals(c: number, b: number, d: Dispatch, i: number, frames: Frame | null, env: Env | null): void {
+    const bound = this.bound;
+    const a = bound.automaton;
+    const rtn = a.rtn;
+    const end = this.engine.trie.end;
+    for (let k = d.off[i]; k < d.off[i + 1]; k++) {
+      const o = d.opts[k];
+      const term = a.optTerm[o];
+      const s = bound.startLex(term, b, env);
+      if (s === 0) continue;
+      const t = rtn.terminals[term];
+      const text = t.kind === 'newvar' || t.kind === 'boundvar' ? String.fromCharCode(b) : '';
+      const nt = new Thread(a.optTarget[o], term, s, text, bound.pushFrames(o, frames, env), env);
+      if (t.kind === 'lit' || t.kind === 'class') {
+        const rest = bound.betweenDist(nt.node, env, nt.frames);
+        this.markNode(c, t.dfa.minAccept[s] + rest);
+        if (end[c] > c + 1) this.walkLex(c, nt, s, rest);
+      } else {
+        this.markNode(c, bound.threadDist(nt));
+        if (end[c] > c + 1) this.walkGeneric(c, nt);
+      }
+    }
   }
 
   /** Walks the children of trie node x with BETWEEN thread th (skipping class terminals if asked). */
@@ -328,46 +443,34 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
     const bound = this.bound;
     const a = bound.automaton;
     const rtn = a.rtn;
-    const trie = this.engine.trie;
-    const { byte, end } = trie;
-    const pw = x === 0 ? this.rootPrevWord : WORD[byte[x]] === 1;
+    const engine = this.engine;
+    const end = engine.trie.end;
+    const pw = x === 0 ? this.rootPrevWord : WORD[engine.trie.byte[x]] === 1;
     const dist = bound.betweenDist(th.node, th.env, th.frames);
-    for (let c = x + 1, stop = end[x]; c < stop; c = end[c]) {
-      const b = byte[c];
-      if (rtn.space[b]) {
-        this.markNode(c, dist);
-        if (end[c] > c + 1) this.walkBetween(c, th, skipClasses);
-        continue;
+    const sp = engine.spaceBytes;
+    for (let i = 0; i < sp.length; i++) {
+      const c = engine.childOf(x, sp[i]);
+      if (c < 0) continue;
+      this.markNode(c, dist);
+      if (end[c] > c + 1) this.walkBetween(c, th, skipClasses);
+    }
+    let node = th.node;
+    let frames = th.frames;
+    let env = th.env;
+    for (;;) {
+      const d = bound.dispatch(node, env === null ? 0 : 1, skipClasses);
+      const bytes = d.bytes;
+      for (let i = 0; i < bytes.length; i++) {
+        const b = bytes[i];
+        if (pw && WORD[b]) continue;
+        const c = engine.childOf(x, b);
+        if (c < 0) continue;
+        this.startTerminals(c, b, d, i, frames, env);
       }
-      if (pw && WORD[b]) continue;
-      let node = th.node;
-      let frames = th.frames;
-      let env = th.env;
-      for (;;) {
-        const ok = bound.optOk[env === null ? 0 : 1];
-        for (let o = a.optStart[node]; o < a.optStart[node + 1]; o++) {
-          if (!ok[o]) continue;
-          const term = a.optTerm[o];
-          const t = rtn.terminals[term];
-          if (skipClasses && t.kind === 'class') continue;
-          const s = bound.startLex(term, b, env);
-          if (s === 0) continue;
-          const text = t.kind === 'newvar' || t.kind === 'boundvar' ? String.fromCharCode(b) : '';
-          const nt = new Thread(a.optTarget[o], term, s, text, bound.pushFrames(o, frames, env), env);
-          if (t.kind === 'lit' || t.kind === 'class') {
-            const rest = bound.betweenDist(nt.node, env, nt.frames);
-            this.markNode(c, t.dfa.minAccept[s] + rest);
-            if (end[c] > c + 1) this.walkLex(c, nt, s, rest);
-          } else {
-            this.markNode(c, bound.threadDist(nt));
-            if (end[c] > c + 1) this.walkGeneric(c, nt);
-          }
-        }
-        if (!a.canPop[node] || frames === null) break;
-        node = frames.ret;
-        env = frames.env;
-        frames = frames.next;
-      }
+      if (!a.canPop[node] || frames === null) break;
+      node = frames.ret;
+      env = frames.env;
+      frames = frames.next;
     }
   }
 
