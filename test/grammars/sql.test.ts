@@ -28,7 +28,9 @@
  *   string must pass SQLite; node-sql-parser's verdict on them is not checked.
  */
 import { Parser as SqlParser } from 'node-sql-parser';
-import { beforeAll, describe, expect, it } from 'vitest';
+import { rmSync } from 'node:fs';
+import { dirname } from 'node:path';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { Grammar, NameBindings } from '../../src/description/ir.ts';
 import { loadGrammar } from '../../src/description/index.ts';
 import { createParser, namesFromDatabase, printTree, sampleTree } from '../../src/tree/index.ts';
@@ -52,9 +54,16 @@ const sqlParser = new SqlParser();
 let grammar: Grammar;
 let allNames: NameBindings;
 
+let databaseFile: string;
+
 beforeAll(() => {
   grammar = loadGrammar('grammars/sql/sql.twg');
-  allNames = namesFromDatabase(coopDatabaseFile());
+  databaseFile = coopDatabaseFile();
+  allNames = namesFromDatabase(databaseFile);
+});
+
+afterAll(() => {
+  rmSync(dirname(databaseFile), { recursive: true, force: true });
 });
 
 /** SQLite's verdict: null when `prepare` accepts the text, else SQLite's message. */
