@@ -1,11 +1,12 @@
 // Outside reference: @huggingface/transformers (transformers.js) v4 loading the same folder with
 // AutoModelForSeq2SeqLM + AutoTokenizer, remote loading off, and running its own generate().
 import { resolve } from 'node:path';
-import { AutoModelForSeq2SeqLM, AutoTokenizer, env, type PreTrainedModel, type PreTrainedTokenizer, type Tensor } from '@huggingface/transformers';
+import { AutoModelForCausalLM, AutoModelForSeq2SeqLM, AutoTokenizer, env, Tensor, type PreTrainedModel, type PreTrainedTokenizer } from '@huggingface/transformers';
 import { beforeAll, describe, expect, it, vi } from 'vitest';
 import { loadModel, type Seq2SeqModel } from '../../src/model/index.ts';
 import { decode } from '../../src/decode/search.ts';
 import { ConstraintLogitsProcessor } from '../../src/decode/hook.ts';
+import { applyMask, argmax } from '../../src/decode/logits.ts';
 import { FiniteSetConstraint } from './toy-constraint.ts';
 
 // model runs share two cores with other work in CI: generous limits, no timing assertions
@@ -89,6 +90,46 @@ describe('against transformers.js generate()', () => {
       const ids = await reference(q, fewest + 1, hook);
       expect(ids).toEqual((await decode(ours, q, { constraint: c, maxTokens: fewest + 1 })).tokens);
       expect(ids.length).toBe(fewest);
+    }
+  });
+});
+
+describe('the hook on a decoder-only model (transformers.js AutoModelForCausalLM)', () => {
+  it('constrained greedy with the KV cache equals masked arg-max over uncached forward passes', async () => {
+    // Reference: the same transformers.js model called without cache on the whole sequence at every
+    // step, with the constraint's mask applied by hand to the last row of logits.
+    const dir = resolve('test/fixtures/tiny-decoder-only');
+    const tok = await AutoTokenizer.from_pretrained(dir, { local_files_only: true });
+    const lm = await AutoModelForCausalLM.from_pretrained(dir, { local_files_only: true, dtype: 'fp32', session_options: { intraOpNumThreads: 1 } });
+    const c = new FiniteSetConstraint(ours.vocabulary, TARGETS);
+    const budget = 40;
+    const hook = new ConstraintLogitsProcessor(c, { maxNewTokens: budget });
+    const V = c.vocabSize;
+    const mask = new Uint32Array((V + 31) >>> 5);
+    for (const prompt of ['question: which orchards does chen li own? answer:', 'question: is elstar stored in shed a? answer:']) {
+      const inputs = tok(prompt);
+      const promptIds = (inputs.input_ids.tolist() as bigint[][])[0].map(Number);
+      const out = (await lm.generate({ ...inputs, max_new_tokens: budget, do_sample: false, logits_processor: [hook] as never })) as Tensor;
+      const got = (out.tolist() as bigint[][])[0].map(Number).slice(promptIds.length);
+      const ids = [...promptIds];
+      let state = c.start();
+      const want: number[] = [];
+      for (let step = 0; step < budget; step++) {
+        const t = new Tensor('int64', BigInt64Array.from(ids.map(BigInt)), [1, ids.length]);
+        const { logits } = await lm({ input_ids: t, attention_mask: new Tensor('int64', BigInt64Array.from(ids.map(() => 1n)), [1, ids.length]) });
+        const row = Float32Array.from((logits.data as Float32Array).subarray((ids.length - 1) * V, ids.length * V));
+        c.fillMask(state, budget - step, mask);
+        applyMask(row, 0, V, mask);
+        const id = argmax(row, 0, V);
+        want.push(id);
+        if (c.eosIds.includes(id)) break;
+        state = c.advance(state, id);
+        ids.push(id);
+      }
+      expect(got).toEqual(want);
+      expect(want.at(-1)).toBe(1); // ended with EOS within the budget
+      const text = want.slice(0, -1).map((id) => ours.vocabulary.text(id)).join('');
+      expect(TARGETS).toContain(text);
     }
   });
 });
