@@ -84,7 +84,7 @@ function checkNode(
   const node = value as Record<string, unknown>;
   const kind = node.kind;
   if (typeof kind !== 'string') {
-    return { path: pathKey(path, 'kind'), message: `expected the name of a ${sort} constructor, got ${show(kind)}` };
+    return { path: pathKey(path, 'kind'), message: `expected the name of a constructor of ${sort}, got ${show(kind)}` };
   }
   const ctor = info.ctor.get(kind);
   if (ctor === undefined || ctor.sort !== sort) {
