@@ -90,3 +90,15 @@ describe('parse errors (whole messages)', () => {
     expect(() => createParser(grammar('arith')).parse('+')).toThrow('<input>:1:1: expected "(", "-", Num or Func');
   });
 });
+
+describe('token regexes outside the supported subset', () => {
+  it('give a located error in the description', async () => {
+    const { mkdtempSync, writeFileSync } = await import('node:fs');
+    const { join } = await import('node:path');
+    const { tmpdir } = await import('node:os');
+    const file = join(mkdtempSync(join(tmpdir(), 'tw-tree-')), 'la.twg');
+    writeFileSync(file, 'grammar la\nstart E\nspace " "\ntoken A = /a(?=b)b/ as text\nsort E {\n  e(a: A) = a;\n}\n');
+    const g = loadGrammar(file);
+    expect(() => createParser(g)).toThrow(`${file}:4:13: token A: a lookahead group is not supported in token patterns\n4 | token A = /a(?=b)b/ as text\n  |             ^~~~~`);
+  });
+});
