@@ -22,13 +22,18 @@
  * - Added tokens: special ones are their content (UTF-8) and are flagged `special`; non-special ones
  *   are their content passed through the decoder except ByteLevel (as transformers.js decodes them),
  *   so a Metaspace `▁` in an added token is a space. Normalisation is not applied when decoding.
- * - WordPiece: `##x` is `x`, other pieces get a leading space; decoder `cleanup` is not applied.
+ * - WordPiece: `##x` is `x` (also as the very first token, where Hugging Face keeps the `##`), other
+ *   pieces get a leading space; decoder `cleanup` is not applied.
+ * - Text-level clean-up (`clean_up_tokenization_spaces` in tokenizer_config.json, e.g. llama3's
+ *   " ." → ".") is not applied: the bytes are what the tokens spell. Decode model output with
+ *   `clean_up_tokenization_spaces: false` to get exactly the text the masks constrained.
  * - BPEDecoder suffix (`</w>`) becomes a space (also on the last token, where Hugging Face drops it).
  * - The unknown token and every EOS/BOS id are flagged special too: never program text.
  *
- * Cost: O(total piece characters) to decode + one sort of the ids by byte string for the trie
- * (llama3's 128k vocabulary: see DEVELOPERS.md). Memory ≈ 5 bytes per token byte + 13 bytes per
- * trie node + 12 bytes per id.
+ * Cost: O(file size) to parse and decode, dominated by JSON.parse; the trie is an MSD radix
+ * partition, O(total token bytes). llama3 (128,256 ids, 9 MB file): load ≈ 0.41 s + trie ≈ 0.09 s
+ * on a quiet machine; the binary form is 6.0 MB and reads back in ≈ 10–15 ms.
+ * Memory: 1 byte per token byte, 13 bytes per trie node, ≈ 16 bytes per id.
  * Limits: ids < 4,194,304; decoders CTC and regex Replace patterns are refused; WordPiece cleanup
  * and sequence-end effects (Strip of the text's end, BPEDecoder on the last token) are not modelled.
  */

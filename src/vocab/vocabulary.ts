@@ -54,6 +54,9 @@ export class Vocabulary {
   readonly fileHash: string;
   /** sha256 (hex) over fileHash, the EOS and BOS ids and the index format: the cache key. */
   readonly hash: string;
+  /** Bitset of the normal ids (present, not special, at least one byte): the ids a mask may allow
+   * as program text. Exactly the ids in the trie. */
+  readonly normal: Uint32Array;
   private trieCache: TokenTrie | undefined;
 
   constructor(p: VocabularyParts) {
@@ -70,6 +73,10 @@ export class Vocabulary {
     this.fileHash = p.fileHash;
     this.hash = p.hash;
     this.trieCache = p.trie;
+    this.normal = new Uint32Array(wordsFor(this.vocabSize));
+    for (let id = 0; id < this.vocabSize; id++) {
+      if (this.offsets[id + 1] > this.offsets[id] && !has(this.special, id) && !has(this.absent, id)) this.normal[id >>> 5] |= 1 << (id & 31);
+    }
   }
 
   /** Byte length of token `id`. */
@@ -103,18 +110,18 @@ export class Vocabulary {
 
   /** True for ids that can stand for program text: present, not special, at least one byte. */
   isNormal(id: number): boolean {
-    return id >= 0 && id < this.vocabSize && !has(this.special, id) && !has(this.absent, id) && this.length(id) > 0;
+    return id >= 0 && id < this.vocabSize && has(this.normal, id);
   }
 
   /** The token trie over all normal ids; built on first use (then kept). */
   get trie(): TokenTrie {
     if (this.trieCache === undefined) {
-      this.trieCache = buildTrie(this.vocabSize, this.bytes, this.offsets, (id) => !has(this.special, id) && !has(this.absent, id));
+      this.trieCache = buildTrie(this.vocabSize, this.bytes, this.offsets, (id) => has(this.normal, id));
     }
     return this.trieCache;
   }
 
-  /** Ids of one or more bytes in the trie order would give; for tests: the id whose bytes equal `s`. */
+  /** The normal ids whose bytes are exactly `bytes` (a string is taken as UTF-8). Allocates. */
   idsOf(bytes: Uint8Array | string): number[] {
     const b = typeof bytes === 'string' ? new TextEncoder().encode(bytes) : bytes;
     const node = this.trie.find(b);
