@@ -268,10 +268,6 @@ function checkIdenticalLayouts(g: Grammar, facts: Facts, out: Diagnostic[], at: 
   }
 }
 
-function describeType(f: Field): string {
-  return f.type.name;
-}
-
 function checkLists(g: Grammar, facts: Facts, out: Diagnostic[], at: At): void {
   const visit = (c: Constructor, items: readonly LayoutItem[]) => {
     for (const item of items) {
@@ -283,13 +279,12 @@ function checkLists(g: Grammar, facts: Facts, out: Diagnostic[], at: At): void {
         out.push(E.nullableListElement(at(item.span), f.name, f.type.name));
         continue;
       }
-      if (item.sep !== null) checkSeparator(c, item, f, item.sep);
+      if (item.sep !== null) checkSeparator(item, f, item.sep);
       else checkAdjacent(item, f);
     }
   };
 
-  const checkSeparator = (c: Constructor, item: LayoutItem, f: Field, sep: string) => {
-    void c;
+  const checkSeparator = (item: LayoutItem, f: Field, sep: string) => {
     for (const which of ['first', 'last'] as const) {
       const e: Edge = { texts: new Set(), tokens: new Set() };
       facts.edgeOfType(f, which, e);
@@ -301,7 +296,7 @@ function checkLists(g: Grammar, facts: Facts, out: Diagnostic[], at: At): void {
         }
       }
       if (hit) {
-        out.push(E.separatorAtElementEdge(at(item.span), sep, f.name, which === 'first' ? 'begin' : 'end', describeType(f)));
+        out.push(E.separatorAtElementEdge(at(item.span), sep, f.name, which === 'first' ? 'begin' : 'end', f.type.name));
         return;
       }
     }
@@ -309,7 +304,7 @@ function checkLists(g: Grammar, facts: Facts, out: Diagnostic[], at: At): void {
 
   const checkAdjacent = (item: LayoutItem, f: Field) => {
     if (f.type.kind !== 'sort') {
-      out.push(E.adjacentListElements(at(item.span), f.name, `two ${describeType(f)} lexemes in a row can read as one`));
+      out.push(E.adjacentListElements(at(item.span), f.name, `two ${f.type.name} lexemes in a row can read as one`));
       return;
     }
     const elem = f.type.name;

@@ -12,6 +12,20 @@ const GRAMMARS = ['arith', 'json', 'lf', 'sql'];
 const PER_GRAMMAR = 150; // 600 cases in all
 const HANG_GUARD_MS = 1000;
 
+/**
+ * Time of one compile; a slow first run is measured once more and the faster run counts, so a
+ * shared, loaded machine pausing the process does not look like a hang (a real hang is slow twice).
+ */
+function fastestOfTwo(run: () => unknown): number {
+  let t0 = performance.now();
+  run();
+  const first = performance.now() - t0;
+  if (first <= HANG_GUARD_MS) return first;
+  t0 = performance.now();
+  run();
+  return Math.min(first, performance.now() - t0);
+}
+
 describe('description fuzz', () => {
   for (const [gi, name] of GRAMMARS.entries()) {
     it(`${PER_GRAMMAR} mutants of ${name}.twg compile or fail with located errors`, () => {
@@ -22,16 +36,15 @@ describe('description fuzz', () => {
         const seed = 7_000 + gi * 1_000 + i;
         const m = randomMutant(text, rng(seed));
         if (m.text !== text) changed++;
-        const t0 = performance.now();
-        const problem = checkInput(m.text, `${name}-mutant.twg`);
-        const ms = performance.now() - t0;
+        let problem: string | null = null;
+        const ms = fastestOfTwo(() => (problem = checkInput(m.text, `${name}-mutant.twg`)));
         if (problem) problems.push(`seed ${seed} (${m.kinds.join(', ')}): ${problem}`);
         if (ms > HANG_GUARD_MS) problems.push(`seed ${seed} (${m.kinds.join(', ')}): took ${ms.toFixed(0)} ms`);
       }
       expect(problems).toEqual([]);
       // the mutator must actually mutate (a duplicated blank line or a swap of equal tokens may not)
       expect(changed).toBeGreaterThan(PER_GRAMMAR * 0.9);
-    });
+    }, 120_000);
   }
 
   const dir = 'test/cases/description-fuzz';
@@ -42,9 +55,10 @@ describe('description fuzz', () => {
   for (const f of kept) {
     it(`kept input ${f}`, () => {
       const text = readFileSync(`${dir}/${f}`, 'utf8');
-      const t0 = performance.now();
-      expect(checkInput(text, f)).toBeNull();
-      expect(performance.now() - t0).toBeLessThan(HANG_GUARD_MS);
+      let problem: string | null = 'not run';
+      const ms = fastestOfTwo(() => (problem = checkInput(text, f)));
+      expect(problem).toBeNull();
+      expect(ms).toBeLessThan(HANG_GUARD_MS);
     });
   }
 });
