@@ -91,7 +91,7 @@ export function toJsonSchema(grammar: Grammar, names?: NameBindings): Schema {
   return {
     $schema: DRAFT,
     title: `${grammar.name} trees`,
-    description: `JSON trees of the ${grammar.name} grammar (${grammar.file}); start sort ${grammar.start}`,
+    description: `JSON trees of the ${grammar.name} grammar; start sort ${grammar.start}`,
     $ref: `#/$defs/${grammar.start}`,
     $defs: defs,
   };

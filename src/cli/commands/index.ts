@@ -7,6 +7,10 @@ import { register as check } from './check.ts';
 import { register as evaluate } from './evaluate.ts';
 import { register as demo } from './demo.ts';
 import { register as generate } from './generate.ts';
+import { register as parse } from './parse.ts';
+import { register as print } from './print.ts';
+import { register as sample } from './sample.ts';
+import { register as schema } from './schema.ts';
 
 /** Adds one subcommand to the program. `setExit` records the process exit code. */
 export type RegisterCommand = (program: Command, setExit: (code: number) => void) => void;
@@ -16,4 +20,8 @@ export const COMMANDS: RegisterCommand[] = [
   evaluate,
   demo,
   generate,
+  parse,
+  print,
+  sample,
+  schema,
 ];
