@@ -27,6 +27,8 @@ export interface FactBase {
   readonly constants: readonly string[];
   /** class name → membership (1 = member) indexed by entity ID */
   readonly classes: ReadonlyMap<string, Uint8Array>;
+  /** class name → member IDs in increasing order (to range a variable over a class) */
+  readonly classMembers: ReadonlyMap<string, Int32Array>;
   /** relation name → set of subject·n + object */
   readonly relations: ReadonlyMap<string, ReadonlySet<number>>;
   /** measure name → value per entity ID, NaN where undefined */
@@ -64,10 +66,16 @@ export function makeFactBase(input: FactsInput): FactBase {
     }
     measures.set(name, arr);
   }
+  const classMembers = new Map<string, Int32Array>();
+  for (const [name, bits] of classes) {
+    const ids: number[] = [];
+    for (let i = 0; i < n; i++) if (bits[i] === 1) ids.push(i);
+    classMembers.set(name, Int32Array.from(ids));
+  }
   const anonymous = new Set(input.anonymous ?? []);
   for (const a of anonymous) id(a, 'the anonymous list');
   const constants = entities.filter((e) => !anonymous.has(e));
-  return { entities, entityId, constants, classes, relations, measures };
+  return { entities, entityId, constants, classes, classMembers, relations, measures };
 }
 
 /** The names a fact base binds in the `lf` grammar's name sets. */

@@ -14,8 +14,10 @@
  *   `sum $x. (F) of m` over no entity is 0.
  *
  * Bounded work: every node visited counts one step; past `stepLimit` (default 1,000,000) the
- * evaluation stops with an error. Nested quantifiers cost |domain|^depth steps, so with a domain of
- * a few hundred entities three nested quantifiers can hit the limit; that is the intended guard.
+ * evaluation stops with an error. Nested binders cost up to |domain|^depth steps; a binder whose
+ * body starts with a class test of its variable (`exists $y. (orchard($y) & …)`) ranges over that
+ * class only, which gives the same answer (see guardClass) — so the dataset's questions stay far
+ * below the limit while unguarded nesting three deep over ~200 entities hits it, as intended.
  * Cost per step is a Map lookup at most; no allocation per step except variable binding.
  */
 import type { FactBase } from './facts.ts';
@@ -85,15 +87,24 @@ class Evaluator {
     return r;
   }
 
+  /**
+   * Runs `body` with the node's variable bound to each entity in turn, stopping at the first
+   * non-undefined result. The range is the whole domain, except where the answer cannot depend on
+   * entities outside a class (`guard`): see `guardClass`.
+   */
   private bind<T>(node: Node, body: (id: number) => T | undefined): T | undefined {
     const name = node.var;
     if (typeof name !== 'string') {
       this.path.push('.var');
       this.fail('expected a variable name');
     }
+    const guard = guardClass(node.kind === 'forall' ? impliesLeft(node.body) : node.body, name);
+    const range = guard === null ? null : this.facts.classMembers.get(guard) ?? null;
     const saved = this.env.get(name);
     try {
-      for (let e = 0; e < this.n; e++) {
+      const count = range === null ? this.n : range.length;
+      for (let i = 0; i < count; i++) {
+        const e = range === null ? i : range[i];
         this.env.set(name, e);
         const r = body(e);
         if (r !== undefined) return r;
@@ -284,4 +295,24 @@ class Evaluator {
         return this.fail(`expected a number, not "${node.kind}"`);
     }
   }
+}
+
+/**
+ * The class C when `formula` is a conjunction whose leftmost conjunct is `C(v)`: then the formula
+ * is false for every entity outside C, so a binder of `v` over it (lambda, exists, count, sum,
+ * argmax/argmin) may range over C alone with the same result. For `forall v. (F -> G)` the same
+ * holds of F (outside C the implication is true). An unknown class gives null (the full domain is
+ * used and the evaluation reports the class where it meets it).
+ */
+function guardClass(formula: unknown, v: string): string | null {
+  let f = formula as Node | null;
+  while (f !== null && typeof f === 'object' && f.kind === 'and') f = f.left as Node | null;
+  if (f === null || typeof f !== 'object' || f.kind !== 'is') return null;
+  const arg = f.arg as Node | null;
+  return arg !== null && typeof arg === 'object' && arg.kind === 'var' && arg.name === v && typeof f.class === 'string' ? f.class : null;
+}
+
+function impliesLeft(formula: unknown): unknown {
+  const f = formula as Node | null;
+  return f !== null && typeof f === 'object' && f.kind === 'implies' ? f.left : null;
 }

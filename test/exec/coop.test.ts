@@ -40,3 +40,18 @@ describe('buildCoop', () => {
     db.close();
   });
 });
+
+describe('lfAgreesWithSql', () => {
+  it('follows the answer conventions and says why when they differ', async () => {
+    const { lfAgreesWithSql } = await import('../../src/exec/coop.ts');
+    const one = (v: unknown) => ({ columns: ['x'], rows: [[v]] });
+    expect(lfAgreesWithSql({ type: 'set', members: ['fox_run', 'ash_hollow'] }, { columns: ['name'], rows: [['Ash Hollow'], ['Fox Run']] })).toBeNull();
+    expect(lfAgreesWithSql({ type: 'set', members: ['fox_run'] }, { columns: ['name'], rows: [['Ash Hollow'], ['Fox Run']] })).toBe('LF {fox_run} vs SQL {ash_hollow, fox_run}');
+    expect(lfAgreesWithSql({ type: 'best', members: ['fox_run'] }, one('Fox Run'))).toBeNull();
+    expect(lfAgreesWithSql({ type: 'best', members: ['fox_run', 'ash_hollow'] }, one('Fox Run'))).toBe('LF best {fox_run, ash_hollow} vs SQL fox_run');
+    expect(lfAgreesWithSql({ type: 'number', value: 0.1 + 0.2 }, one(0.3))).toBeNull();
+    expect(lfAgreesWithSql({ type: 'number', value: 3 }, one(null))).toMatch(/^a number answer needs one numeric cell/);
+    expect(lfAgreesWithSql({ type: 'truth', value: true }, one(2))).toBeNull();
+    expect(lfAgreesWithSql({ type: 'truth', value: true }, one(0))).toBe('LF yes vs SQL count 0');
+  });
+});
