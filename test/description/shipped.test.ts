@@ -1,6 +1,6 @@
 import { readFileSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
-import { compileDescription, formatDiagnostics, loadGrammar } from '../../src/description/index.ts';
+import { compileDescription, DescriptionError, formatDiagnostics, loadGrammar } from '../../src/description/index.ts';
 
 const GRAMMARS = ['arith', 'json', 'lf', 'sql'];
 
@@ -59,5 +59,26 @@ describe('shipped grammars', () => {
     expect(lambda.fields[0]!.scoping).toBe('binds');
     const v = g.constructors.find((c) => c.name === 'var')!;
     expect(v.fields[0]!.scoping).toBe('bound');
+  });
+
+  it('loadGrammar throws DescriptionError with the formatted diagnostics', () => {
+    const path = 'test/cases/description-fuzz/crlf-unknown-field.twg';
+    let caught: unknown = null;
+    try {
+      loadGrammar(path);
+    } catch (e) {
+      caught = e;
+    }
+    expect(caught).toBeInstanceOf(DescriptionError);
+    expect((caught as DescriptionError).message).toBe(
+      [
+        `${path}:4:16: error: layout of \`a\` names \`x\`, which is not one of its fields`,
+        '4 | sort A { a() = x; }',
+        '  |                ^',
+        'hint: `a` has no fields; write literal text in quotes',
+      ].join('\n'),
+    );
+    expect((caught as DescriptionError).diagnostics.map((d) => d.code)).toEqual(['unknown-layout-field']);
+    expect(() => loadGrammar('grammars/none/missing.twg')).toThrow(/^grammars\/none\/missing\.twg: error: cannot read the description: ENOENT/);
   });
 });
