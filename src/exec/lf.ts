@@ -31,6 +31,8 @@ export type LfAnswer =
 
 export interface LfOptions {
   readonly stepLimit?: number;
+  /** range a binder over the class its body starts with (default true; same answers, fewer steps) */
+  readonly rangeByClass?: boolean;
 }
 
 export const DEFAULT_STEP_LIMIT = 1_000_000;
@@ -45,7 +47,7 @@ type Node = { readonly kind: string; readonly [field: string]: unknown };
 
 /** Evaluates one logical form; never throws for a bad program. */
 export function evaluateLf(facts: FactBase, tree: Tree, options: LfOptions = {}): ExecResult {
-  const ev = new Evaluator(facts, options.stepLimit ?? DEFAULT_STEP_LIMIT);
+  const ev = new Evaluator(facts, options.stepLimit ?? DEFAULT_STEP_LIMIT, options.rangeByClass ?? true);
   try {
     return { ok: true, value: ev.query(tree) };
   } catch (err) {
@@ -65,7 +67,7 @@ class Evaluator {
   private readonly path: string[] = ['$'];
   private readonly n: number;
 
-  constructor(private readonly facts: FactBase, private readonly limit: number) {
+  constructor(private readonly facts: FactBase, private readonly limit: number, private readonly guards: boolean) {
     this.n = facts.entities.length;
   }
 
@@ -98,7 +100,7 @@ class Evaluator {
       this.path.push('.var');
       this.fail('expected a variable name');
     }
-    const guard = guardClass(node.kind === 'forall' ? impliesLeft(node.body) : node.body, name);
+    const guard = !this.guards ? null : guardClass(node.kind === 'forall' ? impliesLeft(node.body) : node.body, name);
     const range = guard === null ? null : this.facts.classMembers.get(guard) ?? null;
     const saved = this.env.get(name);
     try {
