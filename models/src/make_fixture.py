@@ -162,7 +162,9 @@ def main():
     with tempfile.TemporaryDirectory() as tmp:
         text = os.path.join(tmp, 'corpus.txt')
         with open(text, 'w', encoding='utf-8') as f:
-            f.write('\n'.join(corpus(rng)) + '\n')
+            # one line with every printable ASCII character, so each is a single-character piece
+            # (the mask engine needs a single-byte token for every byte a grammar can use)
+            f.write('\n'.join(corpus(rng)) + '\n' + ''.join(chr(c) for c in range(33, 127)) + '\n')
         prefix = os.path.join(tmp, 'sp')
         spm.SentencePieceTrainer.train(
             input=text, model_prefix=prefix, model_type='unigram', vocab_size=320, hard_vocab_limit=False,

@@ -25,8 +25,8 @@
  * ends the output early with finished = 'length'.
  */
 import type { Grammar, NameBindings } from '../description/ir.ts';
-import { compileMasks, type MaskEngine } from '../masks/index.ts';
-import type { Seq2SeqModel } from '../model/index.ts';
+import { compileMasks, MaskError, type MaskEngine } from '../masks/index.ts';
+import { ModelError, type Seq2SeqModel } from '../model/index.ts';
 import { createParser, validateTree, type Tree } from '../tree/index.ts';
 import type { Vocabulary } from '../vocab/index.ts';
 import { decode } from './search.ts';
@@ -63,7 +63,16 @@ export function maskEngine(model: Seq2SeqModel, grammar: Grammar): MaskEngine {
   let byVocab = engines.get(grammar);
   if (byVocab === undefined) engines.set(grammar, (byVocab = new WeakMap()));
   let engine = byVocab.get(model.vocabulary);
-  if (engine === undefined) byVocab.set(model.vocabulary, (engine = compileMasks(grammar, model.vocabulary)));
+  if (engine === undefined) {
+    try {
+      engine = compileMasks(grammar, model.vocabulary);
+    } catch (e) {
+      // e.g. a byte the grammar needs has no single-byte token: name the tokenizer file
+      if (e instanceof MaskError) throw new ModelError(`${model.dir}/tokenizer.json`, e.message);
+      throw e;
+    }
+    byVocab.set(model.vocabulary, engine);
+  }
   return engine;
 }
 

@@ -232,7 +232,7 @@ describe('options', () => {
     await expect(decode(model, 'x', { strategy: 'beam', beamWidth: 0 })).rejects.toThrow('decode option beamWidth: found 0; expected an integer in 1 … 64');
     const wrong = { ...new FiniteSetConstraint(model.vocabulary, TARGETS), vocabSize: 300 } as unknown as FiniteSetConstraint;
     await expect(decode(model, 'x', { constraint: wrong })).rejects.toThrow(
-      `${model.dir}: the token constraint covers 300 token ids but the model has 267; expected a constraint built from this model's tokenizer.json`,
+      `${model.dir}: the token constraint covers 300 token ids but the model has 287; expected a constraint built from this model's tokenizer.json`,
     );
   });
 });

@@ -1,7 +1,8 @@
 // Constrained decoding with the real mask engine (src/masks) on the tiny fixture model: every
 // output must parse with the grammar's parser (src/tree) and be well-typed with the bound names.
 import { beforeAll, describe, expect, it, vi } from 'vitest';
-import { loadGrammar } from '../../src/description/index.ts';
+import { readFileSync } from 'node:fs';
+import { compileDescription, loadGrammar } from '../../src/description/index.ts';
 import type { Grammar, NameBindings } from '../../src/description/ir.ts';
 import { generate } from '../../src/decode/index.ts';
 import { loadModel, type Seq2SeqModel } from '../../src/model/index.ts';
@@ -47,6 +48,16 @@ describe('generate() with a grammar', () => {
     expect(r.parses).toBe(false);
     expect(r.tree).toBeNull();
     expect(r.parse_error).toMatch(/^<output>:1:\d+: /);
+  });
+
+  it('a grammar the tokenizer cannot spell is an error before decoding, naming the tokenizer file', async () => {
+    // a copy of the lf grammar whose keyword "holds" becomes "hölds": no token spells the byte 0xC3
+    const text = readFileSync('grammars/lf/lf.twg', 'utf8').replace('"holds"', '"h\u00f6lds"');
+    const { grammar } = compileDescription(text, 'lf-umlaut.twg');
+    expect(grammar).not.toBeNull();
+    await expect(generate(model, QUESTIONS[0], { grammar: grammar!, names, maxTokens: 12 })).rejects.toThrow(
+      `${model.dir}/tokenizer.json: tokenizer vocabulary has no single-byte token for byte 0xc3`,
+    );
   });
 
   it('an unbound name set is an error before decoding', async () => {

@@ -43,7 +43,7 @@ describe('loading', () => {
   it('reads the configuration, the tokenizer and the merged decoder', () => {
     expect(model.cached).toBe(true);
     expect(model.decoderFile).toBe('onnx/decoder_model_merged.onnx');
-    expect(model.vocabSize).toBe(267);
+    expect(model.vocabSize).toBe(287);
     expect(model.config).toMatchObject({ encoderLayers: 2, decoderLayers: 2, heads: 4, dKv: 8, dModel: 32, padId: 0, eosIds: [1], decoderStartId: 0 });
     // the tokenizer appends </s> (id 1) as its post-processor template says
     expect(model.encodeQuestion(QUESTION).at(-1)).toBe(1);
@@ -98,7 +98,7 @@ describe('loading', () => {
       writeFileSync(f, JSON.stringify(tok));
     });
     expect(await loadError(dir)).toBe(
-      `${join(dir, 'tokenizer.json')}: at $.model.vocab: the tokenizer has 268 tokens (added tokens included) but the logits of ${join(dir, 'onnx', 'decoder_model_merged.onnx')} have 267 entries; expected equal sizes — the tokenizer does not belong to this model`,
+      `${join(dir, 'tokenizer.json')}: at $.model.vocab: the tokenizer has 288 tokens (added tokens included) but the logits of ${join(dir, 'onnx', 'decoder_model_merged.onnx')} have 287 entries; expected equal sizes — the tokenizer does not belong to this model`,
     );
   });
 
