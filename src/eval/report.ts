@@ -122,13 +122,40 @@ export function formatAnswer(v: unknown): string {
   return s.length > 200 ? s.slice(0, 197) + '...' : s;
 }
 
-/** The output text with the first bad token wrapped in <mark> (or an end marker). */
-export function markText(text: string, offset: number | null): string {
+/**
+ * [start, end) of the token holding `offset`, when the token texts spell the text (the decoder may
+ * drop one leading space of the first token); null otherwise.
+ */
+export function tokenSpan(text: string, tokens: readonly string[] | null, offset: number): [number, number] | null {
+  if (tokens === null || tokens.length === 0) return null;
+  const joined = tokens.join('');
+  const shift = joined.length - text.length;
+  if (shift < 0 || joined.slice(shift) !== text) return null;
+  let pos = -shift;
+  for (const t of tokens) {
+    const end = pos + t.length;
+    if (offset < end && end > 0) return [Math.max(0, pos), end];
+    pos = end;
+  }
+  return null;
+}
+
+/**
+ * The output text with the first bad token wrapped in <mark>: the model's token holding `offset`
+ * when token texts are known, else the word (or single character) starting there; an output that
+ * stopped early gets an end marker.
+ */
+export function markText(text: string, offset: number | null, tokens: readonly string[] | null = null): string {
   if (offset === null || offset < 0) return esc(text);
-  if (offset >= text.length) return `${esc(text)}<mark class="end" title="the output stopped here">⟨end⟩</mark>`;
-  let end = offset + 1;
-  while (end < text.length && !/\s/.test(text[end]) && /[\w$]/.test(text[offset]) && /[\w$]/.test(text[end])) end++;
-  return `${esc(text.slice(0, offset))}<mark title="first character the grammar does not allow here">${esc(text.slice(offset, end))}</mark>${esc(text.slice(end))}`;
+  if (offset >= text.trimEnd().length) return `${esc(text)}<mark class="end" title="the output stopped here">⟨end⟩</mark>`;
+  let span = tokenSpan(text, tokens, offset);
+  if (span === null || span[1] <= offset) {
+    let end = offset + 1;
+    while (end < text.length && /[\w$]/.test(text[offset]) && /[\w$]/.test(text[end])) end++;
+    span = [offset, end];
+  }
+  const [a, b] = span;
+  return `${esc(text.slice(0, a))}<mark title="the token holding the first character the grammar does not allow here">${esc(text.slice(a, b))}</mark>${esc(text.slice(b))}`;
 }
 
 function verdict(r: EvalRow): string {
@@ -172,7 +199,7 @@ function pickExamples(rows: readonly EvalRow[], max: number): [EvalRow, EvalRow]
 function card([u, c]: [EvalRow, EvalRow]): string {
   const line = (label: string, cls: string, r: EvalRow) => `<div class="out ${cls}">
   <div class="label">${label} ${verdict(r)}</div>
-  <pre>${markText(r.text, r.parses ? null : r.failure?.offset ?? null)}</pre>
+  <pre>${markText(r.text, r.parses ? null : r.failure?.offset ?? null, r.token_texts ?? null)}</pre>
   ${r.failure ? `<div class="why">${esc(r.failure.category)}${r.failure.detail !== r.failure.category ? ` — ${esc(r.failure.detail)}` : ''}</div>` : ''}
   <div class="answer">answer: ${esc(formatAnswer(r.answer))}</div>
 </div>`;
@@ -283,7 +310,7 @@ unconstrained <b>${maskShare('unconstrained')}</b>, constrained <b>${maskShare('
 </div>
 
 <h2>Examples</h2>
-<p class="note">The first character the grammar does not allow is <mark>marked</mark>; <mark class="end">⟨end⟩</mark> marks an output that stopped before the program was complete.</p>
+<p class="note">The model's token holding the first character the grammar does not allow is <mark>marked</mark>; <mark class="end">⟨end⟩</mark> marks an output that stopped before the program was complete.</p>
 <div class="cards">
 ${examples.map(card).join('\n')}
 </div>

@@ -39,6 +39,8 @@ export interface DecodeOutput {
   readonly mask_ms: number;
   /** true when decoding stopped at the length limit rather than at end-of-sequence */
   readonly truncated: boolean;
+  /** each generated token's text, when the decoder knows them (the report marks the bad token) */
+  readonly token_texts?: readonly string[];
 }
 
 export type DecodeFn = (item: EvalItem, mode: Mode) => Promise<DecodeOutput>;
@@ -83,6 +85,8 @@ export interface EvalRow {
   /** mask_ms / latency_ms */
   readonly mask_share: number;
   readonly truncated: boolean;
+  /** the generated tokens' texts, or null when the decoder did not give them */
+  readonly token_texts: readonly string[] | null;
   readonly parses: boolean;
   readonly well_typed: boolean;
   readonly executes: boolean;
@@ -205,6 +209,7 @@ async function scoreOne(opts: RunOptions, item: EvalItem, mode: Mode, gold: Gold
     mask_ms: round3(out.mask_ms),
     mask_share: latency > 0 ? round3(out.mask_ms / latency) : 0,
     truncated: out.truncated,
+    token_texts: out.token_texts ?? null,
     parses: a.parses,
     well_typed: a.parses && a.well_typed,
     executes,

@@ -118,7 +118,7 @@ export const register: RegisterCommand = (program: Command, setExit) => {
             beamWidth: beam,
             maxTokens,
           });
-          return { text: r.text, tokens: r.tokens.length, model_ms: r.model_ms, mask_ms: r.mask_ms, truncated: r.finished === 'length' };
+          return { text: r.text, tokens: r.tokens.length, model_ms: r.model_ms, mask_ms: r.mask_ms, truncated: r.finished === 'length', token_texts: r.tokenTexts };
         };
         const scorer = createScorer({ grammar, names, execute, context: { grammar, db: f.db } });
 
