@@ -50,8 +50,31 @@ function foundAt(text: string, offset: number): { found: string; end: number } {
   return { found: '`' + ch + '`', end: offset + 1 };
 }
 
-/** Compiles description text. Never throws on any input text; every problem becomes a located diagnostic. */
-export function compileDescription(text: string, file: string): { grammar: Grammar | null; diagnostics: Diagnostic[] } {
+type Compiled = { grammar: Grammar | null; diagnostics: Diagnostic[] };
+
+/**
+ * Recent results by (file, text). The IR is immutable by contract, so one process compiling the same
+ * description twice (every test file loading a shipped grammar, say) shares one Grammar object.
+ */
+const recent = new Map<string, { readonly grammar: Grammar | null; readonly diagnostics: readonly Diagnostic[] }>();
+const RECENT_LIMIT = 16;
+
+/**
+ * Compiles description text. Never throws on any input text; every problem becomes a located
+ * diagnostic. Results are cached for the last few (file, text) pairs: the returned Grammar may be
+ * the same object as an earlier call's (it is immutable); the diagnostics array is a fresh copy.
+ */
+export function compileDescription(text: string, file: string): Compiled {
+  const key = `${file}\u0000${text}`;
+  const hit = recent.get(key);
+  if (hit) return { grammar: hit.grammar, diagnostics: [...hit.diagnostics] };
+  const result = compileUncached(text, file);
+  if (recent.size >= RECENT_LIMIT) recent.delete(recent.keys().next().value!);
+  recent.set(key, { grammar: result.grammar, diagnostics: [...result.diagnostics] });
+  return result;
+}
+
+function compileUncached(text: string, file: string): Compiled {
   const parsed = parseNotation(text);
   if (!parsed.ok) {
     const { found, end } = foundAt(text, parsed.offset);

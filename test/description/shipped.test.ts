@@ -82,3 +82,17 @@ describe('shipped grammars', () => {
     expect(() => loadGrammar('grammars/none/missing.twg')).toThrow(/^grammars\/none\/missing\.twg: error: cannot read the description: ENOENT/);
   });
 });
+
+describe('compile cache', () => {
+  it('returns the same immutable Grammar for the same file and text, a fresh diagnostics array', () => {
+    const text = 'grammar g\nstart A\nspace " "\nsort A { a() = "x"; }\nsort B { b() = "y"; }\n';
+    const one = compileDescription(text, 'cache.twg');
+    const two = compileDescription(text, 'cache.twg');
+    expect(two.grammar).toBe(one.grammar);
+    expect(two.diagnostics).not.toBe(one.diagnostics);
+    expect(two.diagnostics).toEqual(one.diagnostics);
+    const other = compileDescription(text, 'other.twg');
+    expect(other.grammar).not.toBe(one.grammar);
+    expect(other.grammar?.file).toBe('other.twg');
+  });
+});
