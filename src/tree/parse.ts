@@ -153,14 +153,14 @@ function charCode(c: number): string {
 
 function rangesText(set: CharSet): string {
   const parts = pairsOf(set).map(([lo, hi]) => (lo === hi ? charCode(lo) : `${charCode(lo)}..${charCode(hi)}`));
-  return parts.length === 0 ? '~any any' : parts.length === 1 ? parts[0]! : `(${parts.join(' | ')})`;
+  return parts.length === 0 ? '(~any any)' : parts.length === 1 ? parts[0]! : `(${parts.join(' | ')})`;
 }
 
 function setText(set: CharSet, max: number): string {
   const complement = setComplement(set, max);
-  if (setSize(set) === 0) return '~any any';
+  if (setSize(set) === 0) return '(~any any)';
   if (pairsOf(complement).length < pairsOf(set).length) {
-    return complement.length === 0 ? 'any' : `~${rangesText(complement)} any`;
+    return complement.length === 0 ? 'any' : `(~${rangesText(complement)} any)`;
   }
   return rangesText(set);
 }

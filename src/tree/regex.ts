@@ -135,7 +135,7 @@ export function parseRegex(pattern: string, flags: string): Rx {
   const max = unicode ? 0x10ffff : 0xffff;
   let root: RxNode;
   try {
-    root = regjsparser.parse(pattern, unicode ? 'u' : '', { namedGroups: true }) as unknown as RxNode;
+    root = regjsparser.parse(pattern, unicode ? 'u' : '', { namedGroups: true, lookbehind: true, unicodePropertyEscape: true }) as unknown as RxNode;
   } catch (err) {
     const message = err instanceof Error ? err.message.split('\n')[0] : String(err);
     const at = /at position (\d+)/.exec(message);
@@ -221,6 +221,8 @@ export function parseRegex(pattern: string, flags: string): Rx {
         return unsupported(n, 'an anchor');
       case 'reference':
         return unsupported(n, 'a back-reference');
+      case 'unicodePropertyEscape':
+        return unsupported(n, 'a unicode property escape');
       default:
         return unsupported(n, `a ${n.type}`);
     }
