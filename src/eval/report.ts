@@ -327,6 +327,16 @@ ${examples.map(card).join('\n')}
   Chart.defaults.color = '#1d2327';
   Chart.defaults.animation = false;
   window.twCharts = [];
+  // a long category as up to LINES lines of about WIDTH characters (Chart.js draws arrays as lines)
+  function wrap(text, width, lines) {
+    var out = [], cur = '';
+    text.split(' ').forEach(function (w) {
+      if (cur && (cur + ' ' + w).length > width) { out.push(cur); cur = w; } else { cur = cur ? cur + ' ' + w : w; }
+    });
+    if (cur) out.push(cur);
+    if (out.length > lines) { out = out.slice(0, lines); out[lines - 1] += ' …'; }
+    return out;
+  }
   function pctData(split, mode) {
     return D.metricNames.map(function (m) {
       var r = D.metrics[split][mode][m];
@@ -357,7 +367,7 @@ ${examples.map(card).join('\n')}
   }));
   window.twCharts.push(new Chart(document.getElementById('chart-taxonomy'), {
     type: 'bar',
-    data: { labels: D.taxonomy.map(function (t) { return t.category.length > 48 ? t.category.slice(0, 47) + '…' : t.category; }),
+    data: { labels: D.taxonomy.map(function (t) { return wrap(t.category, 30, 3); }),
       datasets: [{ label: 'unconstrained failures', data: D.taxonomy.map(function (t) { return t.count; }), backgroundColor: U }] },
     options: { indexAxis: 'y', maintainAspectRatio: false, plugins: { legend: { display: false } }, scales: { x: { beginAtZero: true, title: { display: true, text: 'outputs' } } } }
   }));
