@@ -53,6 +53,8 @@ export interface DecodeResult {
   finished: 'eos' | 'length';
   /** beam: the winning hypothesis's length-normalised score; otherwise the sum of logprobs (EOS included) */
   score: number;
+  /** decoder calls made (one per step; a beam step decodes every live hypothesis in one call) */
+  steps: number;
   /** milliseconds in onnxruntime (encoder, decoder, cache handling) */
   model_ms: number;
   /** milliseconds computing masks, applying them to logits and advancing constraint states */

@@ -2,13 +2,15 @@
  * Generation benchmark (not a test): tokens/s and per-question latency of unconstrained vs
  * constrained greedy and beam-4 decoding, and the share of time spent on masks.
  *
- *   npx tsx test/bench/generation.ts --model models/coop --grammar sql --db demo.db \
- *     --questions models/coop/data/test.jsonl --filter sql: --limit 50
+ *   npx tsx test/bench/generation.ts --model models/coop --grammar sql --db coop.db \
+ *     --questions models/coop/data/test.jsonl --prefix "to sql: " --limit 50
  *   npx tsx test/bench/generation.ts            # the tiny fixture model and the lf grammar
  *
  * Questions file: JSON lines with a "question" (or "input" / "source") field. One warm-up question
- * per mode is not counted. Figures are medians over questions plus overall tokens/s (tokens
- * generated, EOS included, divided by total decoding time). One run; the machine may be shared.
+ * per mode is not counted. Figures: output tokens/s (tokens of the returned output, EOS included,
+ * over total decoding time), median and p90 latency per question, ms per decoder step (a beam step
+ * decodes all live hypotheses in one call), and the share of time in masks (fillMask, applying the
+ * mask, advancing states). One run; the machine may be shared.
  */
 import { readFileSync } from 'node:fs';
 import { parseArgs } from 'node:util';
@@ -35,6 +37,7 @@ const { values: a } = parseArgs({
     db: { type: 'string' },
     questions: { type: 'string' },
     filter: { type: 'string' },
+    prefix: { type: 'string', default: '' },
     limit: { type: 'string', default: '50' },
     threads: { type: 'string' },
     'max-tokens': { type: 'string', default: '128' },
@@ -60,7 +63,7 @@ if (a.questions) {
     .filter((l) => l.trim() !== '')
     .map((l) => {
       const o = JSON.parse(l) as Record<string, unknown>;
-      return String(o.question ?? o.input ?? o.source);
+      return a.prefix! + String(o.question ?? o.input ?? o.source);
     });
 }
 if (a.filter) questions = questions.filter((q) => q.startsWith(a.filter!));
@@ -81,21 +84,25 @@ const modes: { name: string; opts: GenerateOptions }[] = [
 
 console.log(`model ${a.model} (${model.cached ? 'KV cache' : 'no cache'}, vocabulary ${model.vocabSize}); grammar ${grammar.name}; ${questions.length} questions; max ${maxTokens} tokens`);
 console.log(`mask tables compiled in ${compileMs.toFixed(0)} ms (once per grammar × vocabulary)\n`);
-const rows: { name: string; tps: number; med: number; p90: number; perStep: number; maskShare: number; wellTyped: number }[] = [];
+const rows: { name: string; tps: number; med: number; p90: number; perStep: number; maskShare: number; modelShare: number; wellTyped: number; steps: number }[] = [];
 for (const { name, opts } of modes) {
   await generate(model, questions[0], { ...opts, grammar, names, maxTokens }); // warm-up
   const lat: number[] = [];
   let tokens = 0;
   let total = 0;
   let mask = 0;
+  let modelMs = 0;
   let ok = 0;
+  let steps = 0;
   for (const q of questions) {
     const r = await generate(model, q, { ...opts, grammar, names, maxTokens });
     const n = r.tokens.length + (r.finished === 'eos' ? 1 : 0);
     tokens += n;
     total += r.total_ms;
     mask += r.mask_ms;
+    modelMs += r.model_ms;
     lat.push(r.total_ms);
+    steps += r.steps;
     if (r.well_typed) ok++;
   }
   const sorted = [...lat].sort((x, y) => x - y);
@@ -104,17 +111,20 @@ for (const { name, opts } of modes) {
     tps: (tokens / total) * 1000,
     med: median(lat),
     p90: sorted[Math.min(sorted.length - 1, Math.floor(sorted.length * 0.9))],
-    perStep: total / tokens,
+    perStep: total / steps,
+    steps: steps / questions.length,
     maskShare: mask / total,
+    modelShare: modelMs / total,
     wellTyped: ok / questions.length,
   });
 }
 const pad = (s: string, n: number) => s.padEnd(n);
-console.log(`${pad('mode', 24)}${pad('tokens/s', 11)}${pad('median ms', 11)}${pad('p90 ms', 9)}${pad('ms/token', 10)}${pad('mask share', 12)}well-typed`);
+console.log(`${pad('mode', 24)}${pad('tokens/s', 11)}${pad('median ms', 11)}${pad('p90 ms', 9)}${pad('steps/q', 9)}${pad('ms/step', 9)}${pad('model share', 13)}${pad('mask share', 12)}well-typed`);
 for (const r of rows) {
   console.log(
-    `${pad(r.name, 24)}${pad(r.tps.toFixed(1), 11)}${pad(r.med.toFixed(1), 11)}${pad(r.p90.toFixed(1), 9)}${pad(r.perStep.toFixed(2), 10)}${pad((100 * r.maskShare).toFixed(1) + ' %', 12)}${(100 * r.wellTyped).toFixed(0)} %`,
+    `${pad(r.name, 24)}${pad(r.tps.toFixed(1), 11)}${pad(r.med.toFixed(1), 11)}${pad(r.p90.toFixed(1), 9)}${pad(r.steps.toFixed(1), 9)}${pad(r.perStep.toFixed(2), 9)}${pad((100 * r.modelShare).toFixed(1) + ' %', 13)}${pad((100 * r.maskShare).toFixed(1) + ' %', 12)}${(100 * r.wellTyped).toFixed(0)} %`,
   );
 }
-console.log(`\nconstrained / unconstrained throughput: greedy ${(rows[1].tps / rows[0].tps).toFixed(3)}×, beam-4 ${(rows[3].tps / rows[2].tps).toFixed(3)}×`);
+console.log(`\nconstrained / unconstrained: output tokens/s greedy ${(rows[1].tps / rows[0].tps).toFixed(3)}×, beam-4 ${(rows[3].tps / rows[2].tps).toFixed(3)}×; ` +
+  `time per step greedy ${(rows[0].perStep / rows[1].perStep).toFixed(3)}×, beam-4 ${(rows[2].perStep / rows[3].perStep).toFixed(3)}× (higher is faster)`);
 await model.dispose();
