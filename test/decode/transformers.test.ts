@@ -82,6 +82,17 @@ describe('against transformers.js generate()', () => {
     expect(hook.maskMs).toBeGreaterThan(0);
   });
 
+  it('with the hook, transformers.js sampling only produces allowed programs', async () => {
+    const c = new FiniteSetConstraint(ours.vocabulary, TARGETS);
+    const hook = new ConstraintLogitsProcessor(c, { maxNewTokens: 40 });
+    for (const q of QUESTIONS.slice(0, 4)) {
+      const out = (await theirs.generate({ ...tokenizer(q), max_new_tokens: 40, do_sample: true, top_k: 0, temperature: 1.5, logits_processor: [hook] as never })) as Tensor;
+      const ids = (out.tolist() as bigint[][])[0].map(Number).slice(1);
+      expect(ids.at(-1)).toBe(1);
+      expect(TARGETS).toContain(ids.slice(0, -1).map((id) => ours.vocabulary.text(id)).join(''));
+    }
+  });
+
   it('the hook keeps the token budget of max_new_tokens', async () => {
     const c = new FiniteSetConstraint(ours.vocabulary, TARGETS);
     const fewest = Math.min(...TARGETS.map((_, i) => c.fewestTokens(i)));
