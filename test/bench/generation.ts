@@ -4,7 +4,10 @@
  *
  *   npx tsx test/bench/generation.ts --model models/coop --grammar sql --db coop.db \
  *     --questions models/coop/data/test.jsonl --prefix "to sql: " --limit 50
+ *   npx tsx test/bench/generation.ts --model models/coop --grammar lf --db coop.db ... --prefix "to lf: "
  *   npx tsx test/bench/generation.ts            # the tiny fixture model and the lf grammar
+ * (--db: SQL grammars bind Table/Column from the schema; the lf grammar binds the coop fact base's
+ * names, src/exec/coop.ts. The coop database: buildCoop('grammars/sql/coop.sql', path).)
  *
  * Questions file: JSON lines with a "question" (or "input" / "source") field. One warm-up question
  * per mode is not counted. Figures: output tokens/s (tokens of the returned output, EOS included,
@@ -18,6 +21,8 @@ import { loadGrammar } from '../../src/description/index.ts';
 import { generate, maskEngine, type GenerateOptions } from '../../src/decode/index.ts';
 import { loadModel } from '../../src/model/index.ts';
 import { loadNames, namesFromDatabase } from '../../src/tree/index.ts';
+import { factsFromDatabase } from '../../src/exec/coop.ts';
+import { factNames } from '../../src/exec/facts.ts';
 import type { NameBindings } from '../../src/description/ir.ts';
 
 const FIXTURE_QUESTIONS = [
@@ -53,7 +58,7 @@ const grammarPath = /^[a-z]+$/.test(a.grammar!) ? `grammars/${a.grammar}/${a.gra
 const grammar = loadGrammar(grammarPath);
 let names: NameBindings = {};
 if (a.names) names = loadNames(a.names);
-else if (a.db) names = namesFromDatabase(a.db);
+else if (a.db) names = grammar.name === 'lf' ? factNames(factsFromDatabase(a.db)) : namesFromDatabase(a.db);
 else if (grammarPath.endsWith('lf/lf.twg')) names = loadNames('grammars/lf/samples/names.json');
 
 let questions = FIXTURE_QUESTIONS;
