@@ -11,8 +11,9 @@
  * generation the current length of each row is taken as its prompt (for seq2seq models: the
  * decoder start token; for decoder-only models: the prompt); every later token is fed to that
  * row's constraint state. A call whose rows are not exactly one token longer than the previous
- * call's starts a new generation, so one processor can serve successive `generate()` calls (not
- * concurrent ones). A row that has emitted an end-of-sequence id is held at that id (transformers.js
+ * call's, or that are not the same row arrays (transformers.js appends each new token to the same
+ * arrays during one generation), starts a new generation, so one processor can serve successive
+ * `generate()` calls (not concurrent ones). A row that has emitted an end-of-sequence id is held at that id (transformers.js
  * keeps stepping finished rows until every row is done).
  *
  * Budget: the constraint only allows tokens after which a complete program still fits in
@@ -37,6 +38,8 @@ export class ConstraintLogitsProcessor extends LogitsProcessor {
   private states: unknown[] = [];
   private promptLength: number[] = [];
   private lastLength: number[] = [];
+  /** the row arrays of the previous call (transformers.js appends to the same arrays each step) */
+  private rows: bigint[][] = [];
   private done: number[] = [];
   /** milliseconds spent in fillMask / advance / applying masks, over the processor's life */
   maskMs = 0;
@@ -58,12 +61,15 @@ export class ConstraintLogitsProcessor extends LogitsProcessor {
     this.states = inputIds.map(() => c.start());
     this.promptLength = inputIds.map((r) => r.length);
     this.lastLength = inputIds.map((r) => r.length);
+    this.rows = inputIds.slice();
     this.done = inputIds.map(() => -1);
   }
 
   private continues(inputIds: bigint[][]): boolean {
     if (inputIds.length !== this.lastLength.length) return false;
-    for (let r = 0; r < inputIds.length; r++) if (inputIds[r].length !== this.lastLength[r] + 1) return false;
+    for (let r = 0; r < inputIds.length; r++) {
+      if (inputIds[r] !== this.rows[r] || inputIds[r].length !== this.lastLength[r] + 1) return false;
+    }
     return true;
   }
 

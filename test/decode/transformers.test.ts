@@ -105,6 +105,38 @@ describe('against transformers.js generate()', () => {
   });
 });
 
+describe('the hook called directly', () => {
+  it('tracks rows across calls and starts over on new row arrays, even one token longer', () => {
+    const c = new FiniteSetConstraint(ours.vocabulary, [' value: 7']);
+    const hook = new ConstraintLogitsProcessor(c, { maxNewTokens: 10 });
+    const V = c.vocabSize;
+    const allowed = (t: Tensor, row: number) => {
+      const d = t.data as Float32Array;
+      const ids: number[] = [];
+      for (let i = 0; i < V; i++) if (d[row * V + i] !== -Infinity) ids.push(i);
+      return ids;
+    };
+    const start = new Uint32Array((V + 31) >>> 5);
+    c.fillMask(c.start(), 10, start);
+    const startIds = [...Array(V).keys()].filter((i) => (start[i >>> 5] & (1 << (i & 31))) !== 0);
+    const rows = [[5n, 6n, 7n], [5n, 6n, 7n]];
+    const first = hook(rows, new Tensor('float32', new Float32Array(2 * V), [2, V])) as Tensor;
+    expect(allowed(first, 0)).toEqual(startIds);
+    // transformers.js appends the chosen token to the same arrays
+    const pick = startIds[0];
+    rows[0].push(BigInt(pick));
+    rows[1].push(BigInt(pick));
+    const second = hook(rows, new Tensor('float32', new Float32Array(2 * V), [2, V])) as Tensor;
+    const after = new Uint32Array((V + 31) >>> 5);
+    c.fillMask(c.advance(c.start(), pick), 9, after);
+    expect(allowed(second, 1)).toEqual([...Array(V).keys()].filter((i) => (after[i >>> 5] & (1 << (i & 31))) !== 0));
+    // a new generation whose prompt happens to be one token longer: new arrays, so a fresh start
+    const fresh = hook([[1n, 2n, 3n, 4n, 5n], [1n, 2n, 3n, 4n, 5n]], new Tensor('float32', new Float32Array(2 * V), [2, V])) as Tensor;
+    expect(allowed(fresh, 0)).toEqual(startIds);
+    expect(allowed(fresh, 1)).toEqual(startIds);
+  });
+});
+
 describe('the hook on a decoder-only model (transformers.js AutoModelForCausalLM)', () => {
   it('constrained greedy with the KV cache equals masked arg-max over uncached forward passes', async () => {
     // Reference: the same transformers.js model called without cache on the whole sequence at every
