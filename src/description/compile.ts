@@ -74,20 +74,24 @@ function regexErrorPosition(message: string): number | null {
   return m ? Number(m[1]) : null;
 }
 
-/** Small edit distance, for "did you mean" hints. */
+/**
+ * Edit distance with adjacent transpositions (optimal string alignment), for "did you mean" hints:
+ * `rigth` is one edit from `right`.
+ */
 function distance(a: string, b: string): number {
-  const prev = new Array<number>(b.length + 1);
-  for (let j = 0; j <= b.length; j++) prev[j] = j;
+  const w = b.length + 1;
+  const d = new Array<number>((a.length + 1) * w);
+  for (let i = 0; i <= a.length; i++) d[i * w] = i;
+  for (let j = 0; j <= b.length; j++) d[j] = j;
   for (let i = 1; i <= a.length; i++) {
-    let diag = prev[0]!;
-    prev[0] = i;
     for (let j = 1; j <= b.length; j++) {
-      const tmp = prev[j]!;
-      prev[j] = Math.min(prev[j]! + 1, prev[j - 1]! + 1, diag + (a[i - 1] === b[j - 1] ? 0 : 1));
-      diag = tmp;
+      const cost = a[i - 1] === b[j - 1] ? 0 : 1;
+      let v = Math.min(d[(i - 1) * w + j]! + 1, d[i * w + j - 1]! + 1, d[(i - 1) * w + j - 1]! + cost);
+      if (i > 1 && j > 1 && a[i - 1] === b[j - 2] && a[i - 2] === b[j - 1]) v = Math.min(v, d[(i - 2) * w + j - 2]! + 1);
+      d[i * w + j] = v;
     }
   }
-  return prev[b.length]!;
+  return d[a.length * w + b.length]!;
 }
 
 function suggest(name: string, candidates: Iterable<string>): string | null {
@@ -392,7 +396,7 @@ export function buildGrammar(ast: DescriptionAst, text: string, file: string, ha
         } else if (it.kind === 'slot') {
           const name = it.field.text;
           if (!declared.has(name)) {
-            diags.push(E.unknownLayoutField(at(it.field.span), name, cd.name.text, fieldNames));
+            diags.push(E.unknownLayoutField(at(it.field.span), name, cd.name.text, fieldNames, suggest(name, fieldNames.filter((n) => !used.has(n)))));
             continue;
           }
           if (used.has(name)) {

@@ -190,12 +190,14 @@ export const spaceNotWhitespace = (at: At, ch: string) =>
 
 // ---- layouts ----------------------------------------------------------------------------------
 
-export const unknownLayoutField = (at: At, name: string, ctor: string, fields: readonly string[]) =>
+export const unknownLayoutField = (at: At, name: string, ctor: string, fields: readonly string[], suggestion: string | null) =>
   error(
     'unknown-layout-field',
     at,
     `layout of ${q(ctor)} names ${q(name)}, which is not one of its fields`,
-    fields.length === 0 ? `${q(ctor)} has no fields; write literal text in quotes` : `its fields are ${fields.map(q).join(', ')}`,
+    fields.length === 0
+      ? `${q(ctor)} has no fields; write literal text in quotes`
+      : didYouMean(suggestion, `its fields are ${fields.map(q).join(', ')}; write literal text in quotes`),
   );
 
 export const fieldUsedTwice = (at: At, name: string, ctor: string) =>

@@ -290,7 +290,7 @@ describe('diagnostics', () => {
         "g.twg:4:25: error: layout of `a` names `y`, which is not one of its fields",
         "4 | sort A { a(x: A?) = \"a\" y; }",
         "  |                         ^",
-        "hint: its fields are `x`",
+        "hint: did you mean `x`?",
       ),
     );
     expect(compileDescription(text, 'g.twg').grammar).toBeNull();
@@ -739,5 +739,25 @@ describe('diagnostics', () => {
     );
     const codes = compileDescription(text, 'g.twg').diagnostics.map((d) => d.code);
     expect(codes).toEqual(['undefined-type', 'field-missing-from-layout', 'unknown-layout-field', 'duplicate-sort']);
+  });
+
+  it('unknown layout name far from every field lists the fields', () => {
+    const text = lines('grammar g', 'start A', 'space " "', 'sort A { a(orchard: A?) = "a" orchard q; }', '');
+    expect(report(text)).toBe(
+      lines(
+        'g.twg:4:39: error: layout of `a` names `q`, which is not one of its fields',
+        '4 | sort A { a(orchard: A?) = "a" orchard q; }',
+        '  |                                       ^',
+        'hint: its fields are `orchard`; write literal text in quotes',
+      ),
+    );
+  });
+
+  it('a transposed field name is one edit away', () => {
+    const text = lines('grammar g', 'start A', 'space " "', 'sort A { a(left: A?, right: A?) = left "+" rigth; }', '');
+    expect(compileDescription(text, 'g.twg').diagnostics.map((d) => [d.code, d.hint])).toEqual([
+      ['field-missing-from-layout', 'add a slot `right` to the layout'],
+      ['unknown-layout-field', 'did you mean `right`?'],
+    ]);
   });
 });
