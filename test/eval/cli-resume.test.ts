@@ -19,7 +19,8 @@ const data = join(dir, 'data.jsonl');
 
 function rowsOf(out: string): string[] {
   const p = join(out, 'results.jsonl');
-  return existsSync(p) ? readFileSync(p, 'utf8').split('\n').filter((l) => l.endsWith('}')) : [];
+  // complete lines only: whatever follows the last newline is a row still being written
+  return existsSync(p) ? readFileSync(p, 'utf8').split('\n').slice(0, -1) : [];
 }
 
 function runCli(out: string, killAfterRows: number | null): Promise<{ code: number | null; signal: string | null; stderr: string }> {
