@@ -600,19 +600,40 @@ interface Wrapper {
 function buildSemantics(info: GrammarInfo, og: ohm.Grammar): ohm.Semantics {
   const g = info.grammar;
   const sem = og.createSemantics();
+  // classify every generated rule once; the action below dispatches on a map lookup
+  type Kind =
+    | { k: 'op'; c: Constructor }
+    | { k: 'ctor'; c: Constructor }
+    | { k: 'paren' }
+    | { k: 'field'; c: Constructor; f: Field }
+    | { k: 'leaf' }
+    | { k: 'pass' };
+  const kinds = new Map<string, Kind>();
+  for (const name of Object.keys(og.rules)) {
+    let m: RegExpExecArray | null;
+    if ((m = /^S\d+_(?:L\d+|A)_c(\d+)$/.exec(name)) !== null) {
+      const c = g.constructors[Number(m[1])]!;
+      kinds.set(name, c.operator === null ? { k: 'pass' } : { k: 'op', c });
+    } else if (/^S\d+_A_paren$/.test(name)) kinds.set(name, { k: 'paren' });
+    else if ((m = /^C(\d+)$/.exec(name)) !== null) kinds.set(name, { k: 'ctor', c: g.constructors[Number(m[1])]! });
+    else if ((m = /^F(\d+)_(\d+)$/.exec(name)) !== null) {
+      const c = g.constructors[Number(m[1])]!;
+      kinds.set(name, { k: 'field', c, f: c.fields[Number(m[2])]! });
+    } else if (/^(kw|tok|nm|G)\d+$/.test(name)) kinds.set(name, { k: 'leaf' });
+    else kinds.set(name, { k: 'pass' });
+  }
   const build = (c: Constructor, operands: { left?: Wrapper; right?: Wrapper }, rest: Wrapper[], ctx: Ctx): Tree => {
-    const ci = c.index;
-    const collected = new Map<number, Wrapper[]>();
+    const collected: Wrapper[][] = c.fields.map(() => []);
     const collect = (w: Wrapper) => {
-      const name = w.ctorName;
-      if (name.startsWith('F') && name.startsWith(`F${ci}_`)) {
-        const fi = Number(name.slice(`F${ci}_`.length));
-        const list = collected.get(fi) ?? [];
-        list.push(w);
-        collected.set(fi, list);
-        return;
+      if (w.isTerminal()) return;
+      const kind = kinds.get(w.ctorName);
+      if (kind !== undefined) {
+        if (kind.k === 'field' && kind.c === c) {
+          collected[kind.f.index]!.push(w);
+          return;
+        }
+        if (kind.k === 'leaf') return;
       }
-      if (w.isTerminal() || /^(kw|tok|nm)\d+$/.test(name)) return;
       for (const child of w.children) collect(child);
     };
     for (const w of rest) collect(w);
@@ -625,7 +646,7 @@ function buildSemantics(info: GrammarInfo, og: ohm.Grammar): ohm.Semantics {
         out[f.name] = w.tree(ctx);
         continue;
       }
-      const ws = collected.get(f.index) ?? [];
+      const ws = collected[f.index]!;
       const values = ws.map((w) => w.tree(ctx));
       const spanOf = (w: Wrapper): Span => {
         const inner = w.children[0]!;
@@ -642,34 +663,35 @@ function buildSemantics(info: GrammarInfo, og: ohm.Grammar): ohm.Semantics {
   const actions = {
     _nonterminal(this: Wrapper, ...children: Wrapper[]): TreeValue {
       const ctx = (this as unknown as { args: { ctx: Ctx } }).args.ctx;
-      const name = this.ctorName;
-      let m: RegExpExecArray | null;
-      if (name === 'Start') return children[0]!.tree(ctx);
-      if ((m = /^S\d+_(?:L\d+|A)_c(\d+)$/.exec(name)) !== null) {
-        const c = g.constructors[Number(m[1])]!;
-        if (c.operator === null) return children[0]!.tree(ctx);
-        const ops = info.operands.get(c.name)!;
-        const left = ops.left !== null ? children[0] : undefined;
-        const right = ops.right !== null ? children[children.length - 1] : undefined;
-        const rest = children.slice(left ? 1 : 0, right ? children.length - 1 : children.length);
-        return build(c, { left, right }, rest, ctx);
-      }
-      if (/^S\d+_A_paren$/.test(name)) return children[1]!.tree(ctx);
-      if ((m = /^C(\d+)$/.exec(name)) !== null) return build(g.constructors[Number(m[1])]!, {}, children, ctx);
-      if ((m = /^F(\d+)_(\d+)$/.exec(name)) !== null) {
-        const f = g.constructors[Number(m[1])]!.fields[Number(m[2])]!;
-        const child = children[0]!;
-        if (f.type.kind === 'sort') return child.tree(ctx);
-        if (f.type.kind === 'names') return child.sourceString;
-        const tok = info.token.get(f.type.name)!.token;
-        const v = lexemeToValue(tok.value, child.sourceString);
-        if (v === null) {
-          throw new ParseError(ctx.file, ctx.text, { start: child.source.startIdx, end: child.source.endIdx }, `${tok.name} ${child.sourceString} is not ${kindWords(tok.value)} value (out of range)`);
+      const kind = kinds.get(this.ctorName) ?? { k: 'pass' };
+      switch (kind.k) {
+        case 'op': {
+          const ops = info.operands.get(kind.c.name)!;
+          const left = ops.left !== null ? children[0] : undefined;
+          const right = ops.right !== null ? children[children.length - 1] : undefined;
+          const rest = children.slice(left ? 1 : 0, right ? children.length - 1 : children.length);
+          return build(kind.c, { left, right }, rest, ctx);
         }
-        return v;
+        case 'paren':
+          return children[1]!.tree(ctx);
+        case 'ctor':
+          return build(kind.c, {}, children, ctx);
+        case 'field': {
+          const f = kind.f;
+          const child = children[0]!;
+          if (f.type.kind === 'sort') return child.tree(ctx);
+          if (f.type.kind === 'names') return child.sourceString;
+          const tok = info.token.get(f.type.name)!.token;
+          const v = lexemeToValue(tok.value, child.sourceString);
+          if (v === null) {
+            throw new ParseError(ctx.file, ctx.text, { start: child.source.startIdx, end: child.source.endIdx }, `${tok.name} ${child.sourceString} is not ${kindWords(tok.value)} value (out of range)`);
+          }
+          return v;
+        }
+        default:
+          // Start, S<i>, S<i>_L<k>, S<i>_A and their `next` cases: the first child carries the tree
+          return children[0]!.tree(ctx);
       }
-      // S<i>, S<i>_L<k>, S<i>_A and their `next` cases: a single child passes through
-      return children[0]!.tree(ctx);
     },
   };
   sem.addOperation<TreeValue>('tree(ctx)', actions as unknown as ohm.ActionDict<TreeValue>);

@@ -312,14 +312,25 @@ const SAFE: CharSet = makeSet([
   [0xe000, 0x10ffff],
 ]);
 
+/** Per-set draws computed once (sets are immutable and shared by the Rx IR). */
+const pools = new WeakMap<CharSet, { exotic: number[]; printable: CharSet; safe: CharSet }>();
+
 function pickChar(set: CharSet, rand: () => number): number {
+  let pool = pools.get(set);
+  if (pool === undefined) {
+    pool = {
+      exotic: EXOTIC.filter((c) => setHas(set, c)),
+      printable: setIntersect(set, PRINTABLE, 0x10ffff),
+      safe: setIntersect(set, SAFE, 0x10ffff),
+    };
+    pools.set(set, pool);
+  }
   const r = rand();
   if (r < 0.06) {
-    const exotic = EXOTIC.filter((c) => setHas(set, c));
+    const exotic = pool.exotic;
     if (exotic.length > 0) return exotic[Math.floor(rand() * exotic.length)];
   }
-  const printable = setIntersect(set, PRINTABLE, 0x10ffff);
-  const safe = setIntersect(set, SAFE, 0x10ffff);
+  const { printable, safe } = pool;
   const from = r < 0.97 && printable.length > 0 ? printable : safe.length > 0 ? safe : set;
   let k = Math.floor(rand() * setSize(from));
   for (let i = 0; i < from.length; i += 2) {
