@@ -5,9 +5,9 @@
  * binding looser than `^` (`-2 ^ 2` is `-(2 ^ 2)`, as in mathjs and most calculators).
  */
 import { describe, expect, it } from 'vitest';
-import { loadGrammar } from '../../src/description/index.ts';
+import { compileDescription, loadGrammar } from '../../src/description/index.ts';
 import type { Grammar } from '../../src/description/ir.ts';
-import { printTree, TreeError, type Tree, type TreeValue } from '../../src/tree/index.ts';
+import { createParser, printTree, TreeError, type Tree, type TreeValue } from '../../src/tree/index.ts';
 
 const grammars: Record<string, Grammar> = {};
 const grammar = (name: string) => (grammars[name] ??= loadGrammar(`grammars/${name}/${name}.twg`));
@@ -123,4 +123,18 @@ describe('print rejects invalid trees with a JSON path', () => {
   });
   it('value the token cannot spell', () =>
     expect(() => printTree(grammar('arith'), num(-1))).toThrow('$.value: Num cannot spell -1: -1 does not match /[0-9]+(?:\\.[0-9]+)?/'));
+});
+
+describe('glue never merges two tokens', () => {
+  // a description whose layouts glue two names, and "<" to "=" although "<=" is a keyword
+  const text = 'grammar glue\nstart S\nspace " "\ntoken Name = /[a-z]+/ as text reserved\nsort S {\n  pair(a: Name, b: Name) = a ~b;\n  arrow(a: Name) = "<" ~"=" a;\n  le(a: Name) = "<=" ~a;\n}\n';
+  const g = compileDescription(text, 'glue.twg').grammar!;
+  it.each([
+    [{ kind: 'pair', a: 'x', b: 'y' }, 'x y'],
+    [{ kind: 'arrow', a: 'x' }, '< = x'],
+    [{ kind: 'le', a: 'x' }, '<=x'],
+  ])('%j prints as %s and parses back', (tree, code) => {
+    expect(printTree(g, tree)).toBe(code);
+    expect(createParser(g).parse(code)).toEqual(tree);
+  });
 });
