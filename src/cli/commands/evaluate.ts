@@ -1,7 +1,7 @@
 /**
  * `treewright evaluate --model DIR --grammar G --data FILE.jsonl --out DIR [--beam K] [--limit N]
  * [--split NAME] [--db FILE] [--names FILE] [--executor MODULE] [--max-tokens N] [--prefix TEXT]`:
- * decodes every item of the data file twice (unconstrained, constrained), scores each output
+ * decodes every item of the data file(s) (--data may be repeated; --limit applies per file) twice (unconstrained, constrained), scores each output
  * (parses, well-typed, executes, exact match, execution accuracy, tokens, latency, mask-time
  * share) and writes to --out: results.jsonl (appended row by row; a killed run started again
  * continues where it stopped), metrics.json, taxonomy.json and report.html.
@@ -22,7 +22,7 @@ import type { RegisterCommand } from './index.ts';
 interface Flags {
   model: string;
   grammar: string;
-  data: string;
+  data: string[];
   out: string;
   beam?: string;
   limit?: string;
@@ -53,7 +53,7 @@ export const register: RegisterCommand = (program: Command, setExit) => {
     .description('measure a model on a data file, unconstrained and constrained: validity, accuracy, latency, and an HTML report')
     .requiredOption('--model <dir>', 'model folder (config.json, tokenizer.json, onnx/...)')
     .requiredOption('--grammar <g>', 'grammar description (.twg path, or a shipped grammar: sql, lf)')
-    .requiredOption('--data <file>', 'JSONL rows {id, split, question, <grammar name>: gold program}')
+    .requiredOption('--data <file>', 'JSONL rows {id, split, question, <grammar name>: gold program}; may be given more than once', (v: string, prev: string[]) => [...prev, v], [] as string[])
     .requiredOption('--out <dir>', 'output folder: results.jsonl, metrics.json, taxonomy.json, report.html')
     .option('--beam <k>', 'beam search with k hypotheses (default greedy)')
     .option('--limit <n>', 'evaluate only the first n items (after --split)')
@@ -105,8 +105,16 @@ export const register: RegisterCommand = (program: Command, setExit) => {
         if (f.names !== undefined) [names, namesSource] = [loadNames(f.names), f.names];
         if (namesSource !== '') checkNames(grammar, names, namesSource);
 
-        const items = loadItems(f.data, { goldField: grammar.name, split: f.split, limit });
-        if (items.length === 0) throw new Error(`${f.data}: no items${f.split !== undefined ? ` in split ${JSON.stringify(f.split)}` : ''}; expected at least one row`);
+        const items = f.data.flatMap((file) => {
+          const got = loadItems(file, { goldField: grammar.name, split: f.split, limit });
+          if (got.length === 0) throw new Error(`${file}: no items${f.split !== undefined ? ` in split ${JSON.stringify(f.split)}` : ''}; expected at least one row`);
+          return got;
+        });
+        const ids = new Set<string>();
+        for (const it of items) {
+          if (ids.has(it.id)) throw new Error(`--data: the id ${JSON.stringify(it.id)} occurs in more than one file; expected unique ids`);
+          ids.add(it.id);
+        }
         const model = await loadModel(f.model);
         const prefix = f.prefix ?? `${grammar.name}: `;
         const decode: DecodeFn = async (item, mode: Mode) => {
@@ -131,7 +139,7 @@ export const register: RegisterCommand = (program: Command, setExit) => {
           meta: {
             model: f.model,
             grammar: gPath,
-            data: f.data + (f.split !== undefined ? ` (split ${f.split})` : '') + (limit !== undefined ? ` (first ${limit})` : ''),
+            data: f.data.join(', ') + (f.split !== undefined ? ` (split ${f.split})` : '') + (limit !== undefined ? ` (first ${limit} per file)` : ''),
             decoding: beam !== undefined ? `beam ${beam}` : 'greedy',
           },
           onStart: progress.start,
