@@ -8,7 +8,7 @@
  * - BETWEEN (term = -1): the text so far ends after a complete terminal (or at the start); `node`
  *   is the RTN node reached; any run of space characters may follow.
  * - LEX (term ≥ 0): inside a lexeme of terminal `term`; `lex` is the lexeme automaton's state
- *   (DFA state for lit/class/newvar, trie node for names; boundvar keeps `text`); `node` is the RTN
+ *   (DFA state for lit/class/names/newvar — names use the bound members' DFA; boundvar keeps `text`); `node` is the RTN
  *   node reached once the lexeme ends.
  * `frames` is the call stack as shared immutable linked frames (return node + the caller's scope),
  * `env` the variables in scope (an immutable linked list). Advancing builds new threads and shares
@@ -24,7 +24,7 @@
  */
 import type { Grammar, NameBindings } from '../description/ir.ts';
 import { AutomatonError, buildRtn, closures, EDGE_CALL, EDGE_EPS, EDGE_TERM, type Option, type Rtn } from './cfg.ts';
-import { runDfa } from './regex.ts';
+import { runDfa, type ByteDfa } from './regex.ts';
 
 export const INF = 0x3fffffff;
 
@@ -71,6 +71,8 @@ export interface Dispatch {
   readonly bytes: Uint8Array;
   readonly off: Int32Array;
   readonly opts: Int32Array;
+  /** byte → i with bytes[i] = byte, or -1 */
+  readonly index: Int16Array;
 }
 
 export interface PdaState {
@@ -116,44 +118,43 @@ export class Automaton {
   }
 }
 
-/** A finite set of byte strings as a trie (name-set members). Node 0 is the root. */
-export class NameTrie {
-  readonly child: Array<Map<number, number>> = [new Map()];
-  readonly final: number[] = [0];
-  /** fewest bytes from the node to the end of a member */
-  minRest: Int32Array = new Int32Array(0);
-  shortest = '';
-  constructor(members: readonly Uint8Array[]) {
-    for (const m of members) {
-      let n = 0;
-      for (const b of m) {
-        let c = this.child[n].get(b);
-        if (c === undefined) {
-          c = this.child.length;
-          this.child.push(new Map());
-          this.final.push(0);
-          this.child[n].set(b, c);
-        }
-        n = c;
+/** Most trie nodes a bound name set may have (its DFA table is dense: 1 KiB per node). */
+export const MAX_NAME_NODES = 65536;
+
+/**
+ * A finite set of byte strings (name-set members) as a byte DFA: the members' trie with state 1 the
+ * root and 0 dead (same numbering invariant as regex.ts), so masks treat names like literals.
+ */
+export function namesDfa(members: readonly Uint8Array[], setName: string): ByteDfa {
+  const child: Array<Map<number, number>> = [new Map(), new Map()]; // index = state; 0 dead, 1 root
+  const accept: number[] = [0, 0];
+  for (const m of members) {
+    let n = 1;
+    for (const b of m) {
+      let c = child[n].get(b);
+      if (c === undefined) {
+        c = child.length;
+        if (c > MAX_NAME_NODES) throw new BindError(`names.${setName}: the members need more than ${MAX_NAME_NODES} trie nodes; expected a smaller name set`);
+        child.push(new Map());
+        accept.push(0);
+        child[n].set(b, c);
       }
-      this.final[n] = 1;
+      n = c;
     }
-    const k = this.child.length;
-    this.minRest = new Int32Array(k).fill(INF);
-    for (let i = k - 1; i >= 0; i--) {
-      // children have larger ids than parents (built in insertion order)
-      let best = this.final[i] ? 0 : INF;
-      for (const c of this.child[i].values()) best = Math.min(best, this.minRest[c] + 1);
-      this.minRest[i] = best;
-    }
-    let best: Uint8Array | null = null;
-    for (const m of members) if (best === null || m.length < best.length) best = m;
-    this.shortest = best === null ? '' : Buffer.from(best).toString('latin1');
+    accept[n] = 1;
   }
-  step(node: number, b: number): number {
-    const c = this.child[node].get(b);
-    return c === undefined ? -1 : c;
+  const count = child.length;
+  const trans = new Int32Array(count * 256);
+  for (let n = 1; n < count; n++) for (const [b, c] of child[n]) trans[n * 256 + b] = c;
+  const minAccept = new Int32Array(count).fill(INF);
+  for (let n = count - 1; n >= 1; n--) {
+    let best = accept[n] ? 0 : INF;
+    for (const c of child[n].values()) best = Math.min(best, minAccept[c] + 1);
+    minAccept[n] = best;
   }
+  let shortest: Uint8Array | null = null;
+  for (const m of members) if (shortest === null || m.length < shortest.length) shortest = m;
+  return { stateCount: count, start: members.length > 0 ? 1 : 0, trans, accept: Uint8Array.from(accept), minAccept, shortest };
 }
 
 export class BindError extends Error {}
@@ -165,7 +166,8 @@ const utf8 = new TextEncoder();
  * creates and advances runtime states. Immutable after construction.
  */
 export class Bound {
-  readonly tries: (NameTrie | null)[];
+  /** per terminal: its lexeme DFA under this binding (name sets: the members' DFA) */
+  readonly termDfa: readonly ByteDfa[];
   /** option viability per mode: [0] no variable in scope, [1] some variable in scope */
   readonly optOk: [Uint8Array, Uint8Array];
   /** shortest completion of a node to its nonterminal's end: mode 0 (bytes) */
@@ -186,7 +188,7 @@ export class Bound {
         throw new BindError(`names: ${JSON.stringify(key)} is not a name set of grammar ${g.name}; expected one of ${g.nameSets.map((s) => s.name).join(', ') || '(none)'}`);
       }
     }
-    this.tries = g.nameSets.map((s) => {
+    const sets = g.nameSets.map((s) => {
       const members = names[s.name];
       if (members === undefined) return null;
       if (!Array.isArray(members)) throw new BindError(`names.${s.name}: expected an array of strings`);
@@ -200,14 +202,15 @@ export class Bound {
         }
         return b;
       });
-      return new NameTrie(bytes);
+      return namesDfa(bytes, s.name);
     });
     // unbound sets that the grammar uses are an error
     for (const t of rtn.terminals) {
-      if (t.kind === 'names' && this.tries[t.nameSet] === null) {
+      if (t.kind === 'names' && sets[t.nameSet] === null) {
         throw new BindError(`names: the name set ${t.name} is not bound; expected a list of ${g.nameSets[t.nameSet].token} lexemes for it (--names FILE with {"${t.name}": [...]} or --db FILE)`);
       }
     }
+    this.termDfa = rtn.terminals.map((t) => (t.kind === 'names' ? sets[t.nameSet]! : t.dfa));
     let nv = INF;
     for (const t of rtn.terminals) if (t.kind === 'newvar' && t.dfa.shortest) nv = Math.min(nv, t.dfa.shortest.length);
     this.newVarLen = nv === INF ? 1 : nv;
@@ -215,11 +218,9 @@ export class Bound {
     const termCost = new Int32Array(rtn.terminals.length);
     for (const t of rtn.terminals) {
       let s: string | null = null;
-      if (t.kind === 'names') {
-        const trie = this.tries[t.nameSet]!;
-        s = trie.final.some((f) => f) ? trie.shortest : null;
-      } else if (t.kind === 'boundvar') s = '';
-      else s = t.dfa.shortest ? Buffer.from(t.dfa.shortest).toString('latin1') : null;
+      const dfa = this.termDfa[t.index];
+      if (t.kind === 'boundvar') s = '';
+      else s = dfa.shortest ? Buffer.from(dfa.shortest).toString('latin1') : null;
       termCost[t.index] = s === null ? INF : t.kind === 'boundvar' ? 1 : s.length + (s.length > 0 && WORD[s.charCodeAt(0)] ? 1 : 0);
     }
     this.termCost = termCost;
@@ -333,7 +334,8 @@ export class Bound {
       const t = rtn.terminals[a.optTerm[o]];
       if (skipClasses && t.kind === 'class') continue;
       for (let b = 0; b < 256; b++) {
-        const can = t.kind === 'names' ? this.tries[t.nameSet]!.step(0, b) >= 0 : t.dfa.trans[t.dfa.start * 256 + b] !== 0;
+        const dfa = this.termDfa[t.index];
+        const can = dfa.start !== 0 && dfa.trans[dfa.start * 256 + b] !== 0;
         if (can) byByte[b].push(o);
       }
     }
@@ -346,7 +348,9 @@ export class Bound {
       opts.push(...byByte[b]);
       off.push(opts.length);
     }
-    const d: Dispatch = { bytes: Uint8Array.from(bytes), off: Int32Array.from(off), opts: Int32Array.from(opts) };
+    const index = new Int16Array(256).fill(-1);
+    bytes.forEach((b, i) => (index[b] = i));
+    const d: Dispatch = { bytes: Uint8Array.from(bytes), off: Int32Array.from(off), opts: Int32Array.from(opts), index };
     this.dispatchCache[key] = d;
     return d;
   }
@@ -384,10 +388,9 @@ export class Bound {
     const t = this.automaton.rtn.terminals[th.term];
     let lexRest: number;
     let env = th.env;
-    if (t.kind === 'names') lexRest = this.tries[t.nameSet]!.minRest[th.lex - 1];
-    else if (t.kind === 'boundvar') lexRest = boundRest(th.env, th.text);
+    if (t.kind === 'boundvar') lexRest = boundRest(th.env, th.text);
     else {
-      lexRest = t.dfa.minAccept[th.lex];
+      lexRest = this.termDfa[th.term].minAccept[th.lex];
       if (t.kind === 'newvar') env = Env.add(env, th.text + 'x'.repeat(lexRest));
     }
     return lexRest + this.betweenDist(th.node, env, th.frames);
@@ -408,14 +411,12 @@ export class Bound {
   startLex(term: number, b: number, env: Env | null): number {
     const t = this.automaton.rtn.terminals[term];
     switch (t.kind) {
-      case 'names': {
-        const c = this.tries[t.nameSet]!.step(0, b);
-        return c < 0 ? 0 : c + 1; // trie nodes are stored +1 so that 0 stays "dead"
-      }
       case 'boundvar':
         return boundHasPrefix(env, String.fromCharCode(b)) ? 1 : 0;
-      default:
-        return t.dfa.trans[t.dfa.start * 256 + b];
+      default: {
+        const dfa = this.termDfa[term];
+        return dfa.trans[dfa.start * 256 + b];
+      }
     }
   }
 
@@ -459,17 +460,11 @@ export class Bound {
     const t = this.automaton.rtn.terminals[th.term];
     let next = 0;
     switch (t.kind) {
-      case 'names': {
-        const trie = this.tries[t.nameSet]!;
-        const c = trie.step(th.lex - 1, b);
-        next = c < 0 ? 0 : c + 1;
-        break;
-      }
       case 'boundvar':
         next = boundHasPrefix(th.env, th.text + String.fromCharCode(b)) ? 1 : 0;
         break;
       default:
-        next = t.dfa.trans[th.lex * 256 + b];
+        next = this.termDfa[th.term].trans[th.lex * 256 + b];
     }
     if (next === 0) return null;
     const text = t.kind === 'newvar' || t.kind === 'boundvar' ? th.text + String.fromCharCode(b) : '';
@@ -486,9 +481,8 @@ export class Bound {
   /** True when the lexeme of LEX thread `th` may end here. */
   lexAccepting(th: Thread): boolean {
     const t = this.automaton.rtn.terminals[th.term];
-    if (t.kind === 'names') return this.tries[t.nameSet]!.final[th.lex - 1] === 1;
     if (t.kind === 'boundvar') return boundHas(th.env, th.text);
-    return t.dfa.accept[th.lex] === 1;
+    return this.termDfa[th.term].accept[th.lex] === 1;
   }
 
   /** True when a BETWEEN thread can finish the program (every frame may return, empty moves only). */

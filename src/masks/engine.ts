@@ -290,7 +290,7 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
     // literals, names, variables: the end of the lexeme here is a BETWEEN mask at the root;
     // continuing the lexeme is a (short) walk.
     if (bound.lexAccepting(th)) this.maskBetweenRoot(bound.endLexeme(th));
-    if (t.kind === 'lit') {
+    if (t.kind === 'lit' || t.kind === 'names') {
       this.walkLex(0, th, th.lex, bound.betweenDist(th.node, th.env, th.frames));
       return;
     }
@@ -427,9 +427,9 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
       const t = rtn.terminals[term];
       const text = t.kind === 'newvar' || t.kind === 'boundvar' ? String.fromCharCode(b) : '';
       const nt = new Thread(a.optTarget[o], term, s, text, bound.pushFrames(o, frames, env), env);
-      if (t.kind === 'lit' || t.kind === 'class') {
+      if (t.kind === 'lit' || t.kind === 'class' || t.kind === 'names') {
         const rest = bound.betweenDist(nt.node, env, nt.frames);
-        this.markNode(c, t.dfa.minAccept[s] + rest);
+        this.markNode(c, bound.termDfa[term].minAccept[s] + rest);
         if (end[c] > c + 1) this.walkLex(c, nt, s, rest);
       } else {
         this.markNode(c, bound.threadDist(nt));
@@ -442,46 +442,83 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
   private walkBetween(x: number, th: Thread, skipClasses: boolean): void {
     const bound = this.bound;
     const a = bound.automaton;
-    const rtn = a.rtn;
     const engine = this.engine;
-    const end = engine.trie.end;
-    const pw = x === 0 ? this.rootPrevWord : WORD[engine.trie.byte[x]] === 1;
+    const { byte, end } = engine.trie;
+    const space = a.rtn.space;
+    const pw = x === 0 ? this.rootPrevWord : WORD[byte[x]] === 1;
     const dist = bound.betweenDist(th.node, th.env, th.frames);
-    const sp = engine.spaceBytes;
-    for (let i = 0; i < sp.length; i++) {
-      const c = engine.childOf(x, sp[i]);
-      if (c < 0) continue;
-      this.markNode(c, dist);
-      if (end[c] > c + 1) this.walkBetween(c, th, skipClasses);
-    }
-    let node = th.node;
-    let frames = th.frames;
-    let env = th.env;
-    for (;;) {
-      const d = bound.dispatch(node, env === null ? 0 : 1, skipClasses);
-      const bytes = d.bytes;
-      for (let i = 0; i < bytes.length; i++) {
-        const b = bytes[i];
-        if (pw && WORD[b]) continue;
-        const c = engine.childOf(x, b);
+    if (engine.wide[x] >= 0) {
+      // wide node: look up the few bytes that can begin a terminal
+      const sp = engine.spaceBytes;
+      for (let i = 0; i < sp.length; i++) {
+        const c = engine.childOf(x, sp[i]);
         if (c < 0) continue;
-        this.startTerminals(c, b, d, i, frames, env);
+        this.markNode(c, dist);
+        if (end[c] > c + 1) this.walkBetween(c, th, skipClasses);
       }
-      if (!a.canPop[node] || frames === null) break;
-      node = frames.ret;
-      env = frames.env;
-      frames = frames.next;
+      let node = th.node;
+      let frames = th.frames;
+      let env = th.env;
+      for (;;) {
+        const d = bound.dispatch(node, env === null ? 0 : 1, skipClasses);
+        const bytes = d.bytes;
+        for (let i = 0; i < bytes.length; i++) {
+          const b = bytes[i];
+          if (pw && WORD[b]) continue;
+          const c = engine.childOf(x, b);
+          if (c >= 0) this.startTerminals(c, b, d, i, frames, env);
+        }
+        if (!a.canPop[node] || frames === null) break;
+        node = frames.ret;
+        env = frames.env;
+        frames = frames.next;
+      }
+      return;
+    }
+    // narrow node: one pass over the children
+    for (let c = x + 1, stop = end[x]; c < stop; c = end[c]) {
+      const b = byte[c];
+      if (space[b]) {
+        this.markNode(c, dist);
+        if (end[c] > c + 1) this.walkBetween(c, th, skipClasses);
+        continue;
+      }
+      if (pw && WORD[b]) continue;
+      let node = th.node;
+      let frames = th.frames;
+      let env = th.env;
+      for (;;) {
+        const d = bound.dispatch(node, env === null ? 0 : 1, skipClasses);
+        const i = d.index[b];
+        if (i >= 0) this.startTerminals(c, b, d, i, frames, env);
+        if (!a.canPop[node] || frames === null) break;
+        node = frames.ret;
+        env = frames.env;
+        frames = frames.next;
+      }
     }
   }
 
   /** Walks below x with a lit/class LEX thread in DFA state s; `rest` = completion after the lexeme. */
   private walkLex(x: number, th: Thread, s: number, rest: number): void {
     const t = this.bound.automaton.rtn.terminals[th.term];
-    const dfa = t.dfa;
+    const dfa = this.bound.termDfa[th.term];
     const trie = this.engine.trie;
     const { byte, end } = trie;
     if (x !== 0 && dfa.accept[s] && end[x] > x + 1) this.walkBetween(x, this.bound.endLexeme(th), false);
     const base = s * 256;
+    if (t.kind !== 'class' && this.engine.wide[x] >= 0) {
+      // literals and names continue with few bytes: look them up
+      for (let b = 0; b < 256; b++) {
+        const s2 = dfa.trans[base + b];
+        if (s2 === 0) continue;
+        const c = this.engine.childOf(x, b);
+        if (c < 0) continue;
+        this.markNode(c, dfa.minAccept[s2] + rest);
+        if (end[c] > c + 1) this.walkLex(c, th, s2, rest);
+      }
+      return;
+    }
     for (let c = x + 1, stop = end[x]; c < stop; c = end[c]) {
       const s2 = dfa.trans[base + byte[c]];
       if (s2 === 0) continue;
