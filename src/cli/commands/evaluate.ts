@@ -9,10 +9,12 @@
  * Executors: the `sql` grammar runs on --db (SQLite, read-only); the `lf` grammar runs on the fact
  * base read from --db through the demo lexicon; any grammar may use --executor MODULE (a module
  * exporting execute(tree, context), see src/exec/types.ts). The model's input is
- * `<prefix><question>`, prefix `<grammar name>: ` by default.
+ * `<prefix><question>`; the prefix is --prefix, else `treewright.prefixes[<grammar name>]` in the
+ * model's config.json, else `to <grammar name>: ` (the shipped model's convention).
  * Exit code 0 when the run finished, 1 on an error (printed on stderr, naming the file).
  */
-import { existsSync } from 'node:fs';
+import { existsSync, readFileSync } from 'node:fs';
+import { join } from 'node:path';
 import type { Command } from 'commander';
 import type { NameBindings } from '../../description/ir.ts';
 import type { ExecuteFn } from '../../exec/types.ts';
@@ -32,6 +34,22 @@ interface Flags {
   executor?: string;
   maxTokens?: string;
   prefix?: string;
+}
+
+/**
+ * The text put before each question: `treewright.prefixes[<grammar name>]` in the model's
+ * config.json when it has one, else `to <grammar name>: ` (the shipped model's convention, see
+ * models/src/train.py).
+ */
+function modelPrefix(modelDir: string, grammarName: string): string {
+  try {
+    const config = JSON.parse(readFileSync(join(modelDir, 'config.json'), 'utf8')) as { treewright?: { prefixes?: Record<string, unknown> } };
+    const p = config.treewright?.prefixes?.[grammarName];
+    if (typeof p === 'string') return p;
+  } catch {
+    // a missing or unreadable config is reported by loadModel, with its path
+  }
+  return `to ${grammarName}: `;
 }
 
 /** `--grammar sql` names a shipped grammar (grammars/sql/sql.twg); anything else is a path. */
@@ -62,7 +80,7 @@ export const register: RegisterCommand = (program: Command, setExit) => {
     .option('--names <file>', 'JSON bindings of the open name sets (instead of those from --db)')
     .option('--executor <module>', 'your own executor: an ES module exporting execute(tree, context)')
     .option('--max-tokens <n>', 'most tokens generated per output, end of sequence included (default 128)')
-    .option('--prefix <text>', 'text put before each question (default "<grammar name>: ")')
+    .option('--prefix <text>', 'text put before each question (default: the model config\'s treewright.prefixes, else "to <grammar name>: ")')
     .action(async (f: Flags) => {
       let closeRunner: (() => void) | null = null;
       try {
@@ -116,7 +134,7 @@ export const register: RegisterCommand = (program: Command, setExit) => {
           ids.add(it.id);
         }
         const model = await loadModel(f.model);
-        const prefix = f.prefix ?? `${grammar.name}: `;
+        const prefix = f.prefix ?? modelPrefix(f.model, grammar.name);
         const decode: DecodeFn = async (item, mode: Mode) => {
           const r = await generate(model, prefix + item.question, {
             grammar,
@@ -141,6 +159,7 @@ export const register: RegisterCommand = (program: Command, setExit) => {
             grammar: gPath,
             data: f.data.join(', ') + (f.split !== undefined ? ` (split ${f.split})` : '') + (limit !== undefined ? ` (first ${limit} per file)` : ''),
             decoding: beam !== undefined ? `beam ${beam}` : 'greedy',
+            prefix: JSON.stringify(prefix),
           },
           onStart: progress.start,
           onRow: progress.row,
