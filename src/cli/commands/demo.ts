@@ -225,7 +225,7 @@ export async function runDemo(out: (line: string) => void): Promise<number> {
 export const register: RegisterCommand = (program: Command, setExit) => {
   program
     .command('demo')
-    .description('a tour of treewright on the shipped grammars (run from the repository root)')
+    .description('a tour of treewright on the shipped grammars')
     .action(async () => {
       setExit(await runDemo((line) => process.stdout.write(line + '\n')));
     });
