@@ -11,6 +11,7 @@ import { register as parse } from './parse.ts';
 import { register as print } from './print.ts';
 import { register as sample } from './sample.ts';
 import { register as schema } from './schema.ts';
+import { register as serve } from './serve.ts';
 
 /** Adds one subcommand to the program. `setExit` records the process exit code. */
 export type RegisterCommand = (program: Command, setExit: (code: number) => void) => void;
@@ -24,4 +25,5 @@ export const COMMANDS: RegisterCommand[] = [
   print,
   sample,
   schema,
+  serve,
 ];

@@ -1,0 +1,62 @@
+/**
+ * server/ — the HTTP face of treewright: a JSON API under /api/ and a decoding playground page at /.
+ *
+ * Produces `startServer(options)` → a listening fastify instance (and `buildServer(registry,
+ * limits)` for tests, which never listen). Routes (OpenAPI 3.1 document at GET /api/openapi.json):
+ *   POST /api/check     description text → located diagnostics; a clean one gets a grammar id
+ *   POST /api/generate  question → program (constrained or not; greedy, beam, sampling), optional
+ *                       per-step view (chosen token, allowed-token count, text so far, tree view)
+ *                       and executed answer
+ *   POST /api/parse     program text → JSON tree          POST /api/print  tree → canonical text
+ *   POST /api/mask      text prefix → viable, complete, allowed-token count and a sample of them
+ *   POST /api/execute   program (text or tree) → answer (SQL read-only / LF fact base)
+ *   GET  /api/grammars, /api/models, /api/openapi.json;  GET / (page), /app.js, /style.css
+ *
+ * Example:
+ *   const app = await startServer({ port: 8080, models: ['models/coop'] });
+ *   // curl -s localhost:8080/api/generate -H 'content-type: application/json' \
+ *   //   -d '{"question":"which orchards grow elstar?","grammar":"lf","steps":true,"execute":true}'
+ *   await app.close();
+ *
+ * Limits: request body (default 1 MiB → 413), a wall-clock limit per generate request (default
+ * 30 s, checked before every decoder step → 504), at most `maxActive` model/executor requests at
+ * once with `maxQueued` waiting (defaults 2 and 64) — beyond that 503 at once, never an unbounded
+ * queue. Every error is JSON `{error: {code, message, location?}}`, the location a `file:line:col`
+ * or a JSON path into the request body. Checked descriptions are cached by content hash (64 most
+ * recent). Binds 127.0.0.1 unless told otherwise.
+ *
+ * Worst-case cost: a generate request costs what decode/ costs (model steps × mask fills), plus
+ * with `steps` one more mask fill per token; the other routes are linear in their input (parse is
+ * ohm's O(n · rules)). Decoding runs on the main thread between onnxruntime calls, so at most about
+ * one request per core makes progress; the gate keeps the rest waiting in a bounded queue.
+ */
+import type { FastifyInstance } from 'fastify';
+import { buildServer, type ServerLimits } from './app.ts';
+import { Registry, type RegistryOptions } from './registry.ts';
+
+export { buildServer, type ServerLimits } from './app.ts';
+export { Registry, REPO, SHIPPED, type RegistryOptions, type GrammarEntry, type ModelEntry, type CheckResult } from './registry.ts';
+export { ApiError } from './errors.ts';
+export { Gate } from './gate.ts';
+export { replaySteps, treeView, type Step, type TreeViewNode } from './steps.ts';
+
+export interface StartOptions extends RegistryOptions, ServerLimits {
+  readonly host?: string;
+  readonly port?: number;
+}
+
+/** Loads grammars and models, builds the server and listens (default 127.0.0.1:8080). */
+export async function startServer(opts: StartOptions = {}): Promise<FastifyInstance> {
+  const registry = await Registry.open(opts);
+  let app: FastifyInstance | null = null;
+  try {
+    app = await buildServer(registry, opts);
+    await app.listen({ host: opts.host ?? '127.0.0.1', port: opts.port ?? 8080 });
+    return app;
+  } catch (e) {
+    // closing the app closes the registry (its onClose hook); without an app, close it here
+    if (app !== null) await app.close();
+    else await registry.close();
+    throw e;
+  }
+}

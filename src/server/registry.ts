@@ -1,0 +1,242 @@
+/**
+ * What a server holds: grammars (shipped or given with --grammar, plus descriptions checked through
+ * /api/check, cached by content hash), models (loaded once at start), name bindings per grammar and
+ * the shipped executors (SQL on a read-only SQLite file in a child process, LF over the fact base
+ * read from the same file).
+ */
+import { createHash } from 'node:crypto';
+import { existsSync, mkdtempSync, readFileSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { basename, dirname, join, resolve } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import { compileDescription, type Diagnostic } from '../description/index.ts';
+import type { Grammar, NameBindings } from '../description/ir.ts';
+import { buildSqliteFileFrom, factNames, factsFromDatabase, lfExecutor, SqlRunner, sqlExecutor, type ExecuteFn } from '../exec/index.ts';
+import type { FactBase } from '../exec/facts.ts';
+import { loadModel, type Seq2SeqModel } from '../model/index.ts';
+import { checkNames, loadNames, namesFromDatabase } from '../tree/index.ts';
+import { lineColumn } from '../util/source.ts';
+
+export const REPO = resolve(dirname(fileURLToPath(import.meta.url)), '..', '..');
+export const SHIPPED = ['sql', 'lf', 'arith', 'json'] as const;
+
+export interface GrammarEntry {
+  /** shipped/--grammar: the grammar's name (suffixed on clashes); checked text: `h-` + 16 hex of its hash */
+  readonly id: string;
+  readonly grammar: Grammar;
+  readonly text: string;
+  /** description file (for shipped grammars) or the name given to /api/check */
+  readonly file: string;
+  readonly origin: 'startup' | 'checked';
+  /** bindings of every name set the grammar declares, or null with the reason */
+  readonly names: NameBindings | null;
+  readonly namesProblem: string | null;
+  readonly execute: ExecuteFn | null;
+}
+
+export interface ModelEntry {
+  readonly id: string;
+  readonly dir: string;
+  readonly model: Seq2SeqModel;
+}
+
+export interface CheckResult {
+  readonly ok: boolean;
+  readonly id: string | null;
+  readonly hash: string;
+  readonly diagnostics: readonly DiagnosticJson[];
+}
+
+export interface DiagnosticJson {
+  readonly severity: 'error' | 'warning';
+  readonly code: string;
+  readonly message: string;
+  readonly hint: string | null;
+  readonly file: string;
+  readonly line: number;
+  readonly column: number;
+  readonly end_line: number;
+  readonly end_column: number;
+}
+
+export interface RegistryOptions {
+  /** --grammar values: shipped names (sql, lf, arith, json) or .twg paths; default all shipped */
+  readonly grammars?: readonly string[];
+  /** --model folders; default models/coop when it holds an ONNX export */
+  readonly models?: readonly string[];
+  /** SQLite file for SQL, LF facts and names; default: the demo cooperative built in a temp dir */
+  readonly db?: string;
+  /** JSON names file merged over the defaults (each grammar takes the sets it declares) */
+  readonly names?: string;
+  /** SQL executor time limit in ms */
+  readonly sqlTimeoutMs?: number;
+  /** onnxruntime threads per session */
+  readonly threads?: number;
+  /** most checked descriptions kept (least recently used go first) */
+  readonly checkedLimit?: number;
+}
+
+export function shippedPath(g: string): string {
+  if ((SHIPPED as readonly string[]).includes(g) && !existsSync(g)) return join(REPO, 'grammars', g, `${g}.twg`);
+  return resolve(g);
+}
+
+function defaultModels(): string[] {
+  const coop = join(REPO, 'models', 'coop');
+  return existsSync(join(coop, 'config.json')) && existsSync(join(coop, 'onnx')) ? [coop] : [];
+}
+
+export function diagnosticJson(d: Diagnostic, text: string): DiagnosticJson {
+  const a = lineColumn(text, d.span.start);
+  const b = lineColumn(text, Math.max(d.span.start, d.span.end));
+  return { severity: d.severity, code: d.code, message: d.message, hint: d.hint ?? null, file: d.file, line: a.line, column: a.column, end_line: b.line, end_column: b.column };
+}
+
+export class Registry {
+  readonly grammars = new Map<string, GrammarEntry>();
+  readonly models = new Map<string, ModelEntry>();
+  private readonly checked = new Map<string, { result: CheckResult; entry: GrammarEntry | null }>();
+  private readonly checkedLimit: number;
+  private readonly extraNames: NameBindings;
+  private runner: SqlRunner | null = null;
+  private tempDir: string | null = null;
+  readonly dbPath: string;
+  readonly facts: FactBase;
+
+  private constructor(opts: RegistryOptions, dbPath: string, tempDir: string | null) {
+    this.dbPath = dbPath;
+    this.tempDir = tempDir;
+    this.facts = factsFromDatabase(dbPath);
+    this.checkedLimit = opts.checkedLimit ?? 64;
+    this.extraNames = opts.names !== undefined ? loadNames(opts.names) : {};
+    this.runner = new SqlRunner(dbPath, { timeoutMs: opts.sqlTimeoutMs ?? 2000 });
+  }
+
+  /** Loads grammars and models; throws with a located message on any bad file. */
+  static async open(opts: RegistryOptions = {}): Promise<Registry> {
+    let db = opts.db;
+    let temp: string | null = null;
+    if (db === undefined) {
+      temp = mkdtempSync(join(tmpdir(), 'treewright-serve-'));
+      db = join(temp, 'coop.sqlite');
+      buildSqliteFileFrom(join(REPO, 'grammars', 'sql', 'coop.sql'), db);
+    } else if (!existsSync(db)) {
+      throw new Error(`--db ${db}: no such file (expected a SQLite database)`);
+    }
+    const reg = new Registry(opts, resolve(db), temp);
+    try {
+      for (const g of opts.grammars ?? SHIPPED) {
+        const file = shippedPath(g);
+        let text: string;
+        try {
+          text = readFileSync(file, 'utf8');
+        } catch (e) {
+          throw new Error(`--grammar ${g}: ${file}: cannot read the description: ${(e as Error).message}`);
+        }
+        const { grammar, diagnostics } = compileDescription(text, file);
+        if (grammar === null) {
+          const first = diagnostics.find((d) => d.severity === 'error')!;
+          const { line, column } = lineColumn(text, first.span.start);
+          throw new Error(`${file}:${line}:${column}: error: ${first.message}`);
+        }
+        let id = grammar.name;
+        for (let i = 2; reg.grammars.has(id); i++) id = `${grammar.name}-${i}`;
+        reg.grammars.set(id, reg.entry(id, grammar, text, file, 'startup'));
+      }
+      for (const dir of opts.models ?? defaultModels()) {
+        const model = await loadModel(dir, { threads: opts.threads });
+        let id = basename(resolve(dir));
+        for (let i = 2; reg.models.has(id); i++) id = `${basename(resolve(dir))}-${i}`;
+        reg.models.set(id, { id, dir: model.dir, model });
+      }
+    } catch (e) {
+      await reg.close();
+      throw e;
+    }
+    return reg;
+  }
+
+  /** Names for a grammar: defaults by grammar (SQL schema, LF facts, samples/names.json), then --names. */
+  private namesFor(grammar: Grammar, file: string): { names: NameBindings | null; problem: string | null } {
+    const declared = new Set(grammar.nameSets.map((n) => n.name));
+    if (declared.size === 0) return { names: {}, problem: null };
+    const pool: Record<string, readonly string[]> = {};
+    const add = (b: NameBindings) => {
+      for (const [k, v] of Object.entries(b)) if (declared.has(k)) pool[k] = v;
+    };
+    if (grammar.name === 'sql') add(namesFromDatabase(this.dbPath));
+    else if (grammar.name === 'lf') add(factNames(this.facts));
+    const sample = join(dirname(file), 'samples', 'names.json');
+    if (grammar.name !== 'sql' && grammar.name !== 'lf' && existsSync(sample)) add(loadNames(sample));
+    add(this.extraNames);
+    const missing = [...declared].filter((s) => !(s in pool));
+    if (missing.length > 0) return { names: null, problem: `no bindings for the name set${missing.length > 1 ? 's' : ''} ${missing.join(', ')} of ${grammar.name}; expected them in --names FILE (or the request's "names")` };
+    try {
+      checkNames(grammar, pool, 'names');
+    } catch (e) {
+      return { names: null, problem: (e as Error).message };
+    }
+    return { names: pool, problem: null };
+  }
+
+  private executorFor(grammar: Grammar): ExecuteFn | null {
+    if (grammar.name === 'sql' && grammar.nameSets.some((n) => n.name === 'Table')) return sqlExecutor(this.runner!, grammar);
+    if (grammar.name === 'lf') return lfExecutor(this.facts);
+    return null;
+  }
+
+  private entry(id: string, grammar: Grammar, text: string, file: string, origin: GrammarEntry['origin']): GrammarEntry {
+    const { names, problem } = this.namesFor(grammar, file);
+    return { id, grammar, text, file, origin, names, namesProblem: problem, execute: this.executorFor(grammar) };
+  }
+
+  /** Compiles a description (cached by content hash); a clean one becomes a grammar id. */
+  check(text: string, file: string): CheckResult {
+    const { grammar, diagnostics } = compileDescription(text, file);
+    const hash = grammar?.hash ?? createHashHex(text);
+    const key = `${hash}\u0000${file}`;
+    const hit = this.checked.get(key);
+    if (hit) {
+      this.checked.delete(key);
+      this.checked.set(key, hit);
+      return hit.result;
+    }
+    const id = grammar !== null ? `h-${hash.slice(0, 16)}` : null;
+    const result: CheckResult = { ok: grammar !== null, id, hash, diagnostics: diagnostics.map((d) => diagnosticJson(d, text)) };
+    const entry = grammar !== null ? this.entry(id!, grammar, text, file, 'checked') : null;
+    if (this.checked.size >= this.checkedLimit) this.checked.delete(this.checked.keys().next().value!);
+    this.checked.set(key, { result, entry });
+    return result;
+  }
+
+  /** Number of descriptions in the check cache. */
+  get checkedCount(): number {
+    return this.checked.size;
+  }
+
+  grammar(id: string): GrammarEntry | undefined {
+    const g = this.grammars.get(id);
+    if (g) return g;
+    for (const c of this.checked.values()) if (c.entry?.id === id) return c.entry;
+    return undefined;
+  }
+
+  grammarIds(): string[] {
+    const ids = [...this.grammars.keys()];
+    for (const c of this.checked.values()) if (c.entry && !ids.includes(c.entry.id)) ids.push(c.entry.id);
+    return ids;
+  }
+
+  async close(): Promise<void> {
+    this.runner?.close();
+    this.runner = null;
+    for (const m of this.models.values()) await m.model.dispose();
+    this.models.clear();
+    if (this.tempDir !== null) rmSync(this.tempDir, { recursive: true, force: true });
+    this.tempDir = null;
+  }
+}
+
+function createHashHex(text: string): string {
+  return createHash('sha256').update(text, 'utf8').digest('hex');
+}
