@@ -22,11 +22,20 @@
  */
 import type { NameBindings, Grammar } from '../description/ir.ts';
 import type { TokenConstraint } from '../util/constraint.ts';
-import { Automaton, Bound, Env, Thread, WORD, INF, type PdaState, type Frame, type Dispatch } from '../automaton/pda.ts';
+import { Automaton, Bound, Env, Frame, Thread, WORD, INF, type PdaState, type Dispatch } from '../automaton/pda.ts';
 import type { Vocabulary, TokenTrie } from '../vocab/index.ts';
 import { buildClassTables, MAX_LE, wMinAccept, wStep, type ClassTables } from './precompute.ts';
 
 export class MaskError extends Error {}
+
+/** The frame standing for "the rest of the stack" while a local mask is computed. */
+const SENTINEL = new Frame(-1, null, null, 0);
+
+interface LocalMask {
+  readonly bits: Uint32Array;
+  readonly maxDist: number;
+  readonly pops: Uint32Array;
+}
 
 /** Trie nodes with at least this many children get a direct 256-entry child table. */
 const WIDE = 24;
@@ -59,6 +68,8 @@ export class MaskEngine {
   /** per trie node: the first byte of its string */
   readonly firstByte: Uint8Array;
   readonly spaceBytes: Uint8Array;
+  /** per trie node: 1 when its string is one or more space bytes */
+  readonly wsNode: Uint8Array;
   /** tokens made only of space bytes */
   readonly wsTokenIds: Uint32Array;
   /** per non-space byte b: trie nodes for "one or more spaces, then b" */
@@ -104,10 +115,12 @@ export class MaskEngine {
     const wsIds: number[] = [];
     const wsOut: number[][] = Array.from({ length: 256 }, () => []);
     const space = this.automaton.rtn.space;
+    this.wsNode = new Uint8Array(trie.nodeCount);
     const visitWs = (n: number): void => {
       for (let c = n + 1; c < trie.end[n]; c = trie.end[c]) {
         const b = trie.byte[c];
         if (space[b]) {
+          this.wsNode[c] = 1;
           for (let i = trie.tokStart[c]; i < trie.tokStart[c + 1]; i++) wsIds.push(trie.tokens[i]);
           visitWs(c);
         } else if (n !== 0) wsOut[b].push(c);
@@ -176,10 +189,66 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
   private rootPrevWord = false;
   private readonly pathBytes = new Uint8Array(4096);
   private readonly scratch: Thread[] = [];
+  /** largest completion distance of a token marked since the last reset (for local masks) */
+  private maxSeen = 0;
+  /** while a local mask is computed: the trie nodes where the sentinel frame was popped */
+  private popSink: Set<number> | null = null;
+  /** per RTN node: the local mask of a BETWEEN thread (see `localMask`) */
+  private readonly locals: (LocalMask | undefined)[] = [];
+  private readonly useLocal: boolean;
 
   constructor(readonly engine: MaskEngine, readonly bound: Bound) {
     this.vocabSize = engine.vocab.vocabSize;
     this.eosIds = engine.vocab.eosIds;
+    this.useLocal = !bound.automaton.rtn.terminals.some((t) => t.kind === 'newvar' || t.kind === 'boundvar');
+  }
+
+  private recordPop(x: number): void {
+    if (this.popSink === null) throw new Error('internal: sentinel frame outside a local-mask computation');
+    if (x === 0 || !this.engine.wsNode[x]) this.popSink.add(x);
+  }
+
+  /**
+   * The local mask of RTN node n: the tokens a BETWEEN thread at n reads without returning below
+   * n's nonterminal (independent of the stack below: computed once per node with a sentinel frame
+   * and kept), the largest completion distance among them (relative to that frame), and the trie
+   * nodes where the sentinel is popped — there the rest of the token depends on the real stack.
+   */
+  private localMask(n: number): LocalMask {
+    const hit = this.locals[n];
+    if (hit !== undefined) return hit;
+    const saved = { mask: this.mask, lim: this.lim, pw: this.rootPrevWord, max: this.maxSeen };
+    const bits = new Uint32Array(this.engine.nWords);
+    this.mask = bits;
+    this.lim = INF;
+    this.rootPrevWord = false;
+    this.maxSeen = 0;
+    this.popSink = new Set();
+    try {
+      this.maskBetweenRoot(new Thread(n, -1, 0, '', SENTINEL, null));
+      const entry: LocalMask = { bits, maxDist: this.maxSeen, pops: Uint32Array.from([...this.popSink].sort((p, q) => p - q)) };
+      this.locals[n] = entry;
+      return entry;
+    } finally {
+      this.popSink = null;
+      this.mask = saved.mask;
+      this.lim = saved.lim;
+      this.rootPrevWord = saved.pw;
+      this.maxSeen = saved.max;
+    }
+  }
+
+  /** Computes every local mask now (otherwise each is computed on first use). Returns the count. */
+  prepare(): number {
+    if (!this.useLocal) return 0;
+    const a = this.bound.automaton;
+    const nodes = new Set<number>([a.startNode]);
+    for (let o = 0; o < a.optTarget.length; o++) {
+      nodes.add(a.optTarget[o]);
+      for (const r of a.optPush[o]) nodes.add(r);
+    }
+    for (const n of nodes) this.localMask(n);
+    return nodes.size;
   }
 
   start(): MaskState {
@@ -261,6 +330,7 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
 
   private markNode(c: number, dist: number): void {
     if (dist > this.lim) return;
+    if (dist > this.maxSeen) this.maxSeen = dist;
     const trie = this.engine.trie;
     const mask = this.mask;
     for (let i = trie.tokStart[c], e = trie.tokStart[c + 1]; i < e; i++) {
@@ -303,6 +373,16 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
     }
   }
 
+  private orBits(src: Uint32Array, noWordStart: boolean): void {
+    const mask = this.mask;
+    if (noWordStart) {
+      const ws = this.engine.wordStart;
+      for (let w = 0; w < src.length; w++) mask[w] |= src[w] & ~ws[w];
+    } else {
+      for (let w = 0; w < src.length; w++) mask[w] |= src[w];
+    }
+  }
+
   /** OR inside[d] (or the budget level) into the mask; `noWordStart` removes word-start tokens. */
   private orInside(tables: ClassTables, d: number, room: number, noWordStart: boolean): void {
     if (room < 0) return;
@@ -314,6 +394,8 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
       this.orInsideSlow(tables, d, room, noWordStart);
       return;
     }
+    const top = room >= km ? km : room;
+    if (top + this.lim - room > this.maxSeen) this.maxSeen = top + this.lim - room;
     const mask = this.mask;
     if (noWordStart) {
       const ws = this.engine.wordStart;
@@ -345,6 +427,27 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
     const bound = this.bound;
     const a = bound.automaton;
     const rtn = a.rtn;
+    if (this.useLocal && this.popSink === null) {
+      const local = this.localMask(th.node);
+      const frames = th.frames;
+      if (local.maxDist + (frames === null ? 0 : frames.rest) <= this.lim) {
+        this.orBits(local.bits, this.rootPrevWord);
+        if (frames === null) return; // after the program's end only spaces follow: local already has them
+        const pops = local.pops;
+        if (pops.length === 0) return;
+        const outer = new Thread(frames.ret, -1, 0, '', frames.next, frames.env);
+        for (let i = 0; i < pops.length; i++) {
+          const x = pops[i];
+          if (x === 0) this.maskBetweenRoot(outer);
+          else {
+            const fb = this.engine.firstByte[x];
+            if (this.rootPrevWord && WORD[fb] && !rtn.space[fb]) continue;
+            this.walkBetween(x, outer, false);
+          }
+        }
+        return;
+      }
+    }
     let node = th.node;
     let frames = th.frames;
     let env = th.env;
@@ -369,6 +472,10 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
         }
       }
       if (!a.canPop[node] || frames === null) break;
+      if (frames === SENTINEL) {
+        this.recordPop(0);
+        break;
+      }
       node = frames.ret;
       env = frames.env;
       frames = frames.next;
@@ -407,6 +514,10 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
         for (let j = 0; j < more.length; j++) this.startTerminals(more[j], b, d, i, frames, env);
       }
       if (!a.canPop[node] || frames === null) break;
+      if (frames === SENTINEL) {
+        this.recordPop(0);
+        break;
+      }
       node = frames.ret;
       env = frames.env;
       frames = frames.next;
@@ -469,6 +580,10 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
           if (c >= 0) this.startTerminals(c, b, d, i, frames, env);
         }
         if (!a.canPop[node] || frames === null) break;
+        if (frames === SENTINEL) {
+          this.recordPop(x);
+          break;
+        }
         node = frames.ret;
         env = frames.env;
         frames = frames.next;
@@ -492,6 +607,10 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
         const i = d.index[b];
         if (i >= 0) this.startTerminals(c, b, d, i, frames, env);
         if (!a.canPop[node] || frames === null) break;
+        if (frames === SENTINEL) {
+          this.recordPop(x);
+          break;
+        }
         node = frames.ret;
         env = frames.env;
         frames = frames.next;
@@ -548,4 +667,4 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
   }
 }
 
-export { Env, type Frame };
+export { Env, Frame };
