@@ -114,7 +114,8 @@ export async function buildServer(registry: Registry, limits: ServerLimits = {})
   });
   const page = Object.fromEntries(Object.entries(PAGE_FILES).map(([url, f]) => [url, { body: readFileSync(join(PAGE_DIR, f)), type: TYPES[f.split('.').pop()!] }]));
 
-  app.removeContentTypeParser('application/json');
+  // JSON only: other content types (text/plain included) are 415
+  app.removeAllContentTypeParsers();
   app.addContentTypeParser('application/json', { parseAs: 'string', bodyLimit }, (_req, body, done) => {
     try {
       done(null, parseJsonBody(body as string));
@@ -139,6 +140,7 @@ export async function buildServer(registry: Registry, limits: ServerLimits = {})
       req.log.error(err);
       e = new ApiError(500, 'internal', `internal error: ${fe.message}`);
     }
+    if (e.status === 503) reply.header('retry-after', '1');
     reply.status(e.status).type('application/json').send(e.toJSON());
   });
   app.setNotFoundHandler((req, reply) => {

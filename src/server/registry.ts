@@ -164,6 +164,8 @@ export class Registry {
     const add = (b: NameBindings) => {
       for (const [k, v] of Object.entries(b)) if (declared.has(k)) pool[k] = v;
     };
+    // a checked description named like a loaded grammar (an edited copy) starts from its names
+    for (const g of this.grammars.values()) if (g.grammar.name === grammar.name && g.names !== null) add(g.names);
     if (grammar.name === 'sql') add(namesFromDatabase(this.dbPath));
     else if (grammar.name === 'lf') add(factNames(this.facts));
     const sample = join(dirname(file), 'samples', 'names.json');
