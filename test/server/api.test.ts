@@ -4,7 +4,7 @@ import { afterAll, beforeAll, describe, expect, it, vi } from 'vitest';
 import { createHash } from 'node:crypto';
 import { readFileSync } from 'node:fs';
 import { Script } from 'node:vm';
-import Ajv2020 from 'ajv/dist/2020.js';
+import { Ajv2020 } from 'ajv/dist/2020.js';
 import Database from 'better-sqlite3';
 import type { FastifyInstance, LightMyRequestResponse } from 'fastify';
 import { buildServer, Registry } from '../../src/server/index.ts';
