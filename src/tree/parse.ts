@@ -368,7 +368,7 @@ function generateOhm(info: GrammarInfo): Generated {
   // FOLLOW sets, then the look-ahead guards on atom alternatives. A guard is a described rule
   // (`G<i> (g<i>)`), so a failing guard shows up as one item that messages expand to its FOLLOW
   // set only when nothing more precise failed at the same position.
-  const { follow, firstOf } = analyse(rules);
+  const { follow, firstOf, nullableOf } = analyse(rules);
   const guards: string[] = [];
   const guardItems = new Map<string, readonly string[]>();
   // first characters of terminals: two alternatives can only be confused when these meet
@@ -396,6 +396,57 @@ function generateOhm(info: GrammarInfo): Generated {
     rules.set(`S${si}_A`, { k: 'alt', xs: alts.xs.map((x, i) => (needs[i] ? seq(x, guard) : x)), cases: alts.cases });
   }
 
+  // Optional parts and list elements inside a constructor's layout: when what they begin with can
+  // also begin what follows them, each taken element must be followed by a token that can come
+  // next (one-token look-ahead, `H<n>`), so the PEG does not take an element it must leave.
+  const seqGuards = new Map<string, string>();
+  const lookahead = (after: Set<string>): PE => {
+    const f = [...after].sort((a, b) => termRank(a) - termRank(b));
+    const key = f.join(' ');
+    let name = seqGuards.get(key);
+    if (name === undefined) {
+      name = `H${seqGuards.size}`;
+      seqGuards.set(key, name);
+      const body: PE = { k: 'alt', xs: f.map((t) => (t === '$' ? ({ k: 'end' } as PE) : app(t))), cases: null };
+      guards.push(`${name} (${name.toLowerCase()})\n    = ${emit(body)}`);
+      guardItems.set(name.toLowerCase(), f.map((t) => (t === '$' ? 'end of input' : t)));
+    }
+    return { k: 'and', x: app(name) };
+  };
+  const overlaps = (a: Set<string>, b: Set<string>) => setIntersect(charsOf(a), charsOf(b), 0x10ffff).length > 0;
+  const guardItemsIn = (pe: PE, after: Set<string>): PE => {
+    switch (pe.k) {
+      case 'seq': {
+        const xs = [...pe.xs];
+        let acc = after;
+        for (let i = xs.length - 1; i >= 0; i--) {
+          const x = xs[i]!;
+          xs[i] = guardItemsIn(x, acc);
+          const f = firstOf(x);
+          acc = nullableOf(x) ? new Set([...f, ...acc]) : f;
+        }
+        return { k: 'seq', xs };
+      }
+      case 'opt': {
+        const inner = guardItemsIn(pe.x, after);
+        return overlaps(firstOf(pe.x), after) ? { k: 'opt', x: seq(inner, lookahead(after)) } : { k: 'opt', x: inner };
+      }
+      case 'star':
+      case 'plus': {
+        const next = new Set([...firstOf(pe.x), ...after]);
+        const inner = guardItemsIn(pe.x, next);
+        return overlaps(firstOf(pe.x), after) ? { k: pe.k, x: seq(inner, lookahead(next)) } : { k: pe.k, x: inner };
+      }
+      default:
+        return pe;
+    }
+  };
+  for (const c of g.constructors) {
+    const name = `C${c.index}`;
+    const pe = rules.get(name);
+    if (pe !== undefined) rules.set(name, guardItemsIn(pe, follow.get(name) ?? new Set()));
+  }
+
   const lines = [`G${g.name.replace(/[^A-Za-z0-9_]/g, '_')} {`];
   for (const [name, pe] of rules) lines.push(`  ${name}\n    = ${emit(pe)}`);
   for (const l of guards) lines.push(`  ${l}`);
@@ -408,7 +459,7 @@ function generateOhm(info: GrammarInfo): Generated {
  * FIRST and FOLLOW over the syntactic rules, read as a context-free grammar (terminals: lexical
  * rule names and '$' for the end; look-aheads are ignored).
  */
-function analyse(rules: ReadonlyMap<string, PE>): { follow: Map<string, Set<string>>; firstOf(pe: PE): Set<string> } {
+function analyse(rules: ReadonlyMap<string, PE>): { follow: Map<string, Set<string>>; firstOf(pe: PE): Set<string>; nullableOf(pe: PE): boolean } {
   const isTerminal = (r: string) => !rules.has(r);
   const nullable = new Map<string, boolean>();
   const first = new Map<string, Set<string>>();
@@ -513,6 +564,7 @@ function analyse(rules: ReadonlyMap<string, PE>): { follow: Map<string, Set<stri
   }
   return {
     follow,
+    nullableOf: nul,
     firstOf: (pe) => {
       const out = new Set<string>();
       fst(pe, out);

@@ -3,7 +3,7 @@
  * terms, excerpt), the word-boundary and longest-keyword rules (README, `space`), and whitespace.
  */
 import { describe, expect, it } from 'vitest';
-import { loadGrammar } from '../../src/description/index.ts';
+import { compileDescription, loadGrammar } from '../../src/description/index.ts';
 import type { Grammar } from '../../src/description/ir.ts';
 import { createParser, ParseError, printTree, type Tree } from '../../src/tree/index.ts';
 
@@ -100,5 +100,20 @@ describe('token regexes outside the supported subset', () => {
     writeFileSync(file, 'grammar la\nstart E\nspace " "\ntoken A = /a(?=b)b/ as text\nsort E {\n  e(a: A) = a;\n}\n');
     const g = loadGrammar(file);
     expect(() => createParser(g)).toThrow(`${file}:4:13: token A: a lookahead group is not supported in token patterns\n4 | token A = /a(?=b)b/ as text\n  |             ^~~~~`);
+  });
+});
+
+describe('look-ahead after optional parts', () => {
+  // `mark` may begin like the first item; the parser must leave it out when "(" follows
+  const text = 'grammar opt\nstart S\nspace " "\ntoken Name = /[a-z]+/ as text reserved\nsort S {\n  s(mark: M?, items: I+) = "go" mark items sep ~",";\n}\nsort M {\n  m() = "count";\n}\nsort I {\n  call(f: F) = f ~"(" ~")";\n  word(w: Name) = w;\n}\nsort F {\n  count() = "count";\n  sum() = "sum";\n}\n';
+  const g = compileDescription(text, 'opt.twg').grammar!;
+  const p = createParser(g);
+  it.each([
+    ['go count()', { kind: 's', mark: null, items: [{ kind: 'call', f: { kind: 'count' } }] }],
+    ['go count count()', { kind: 's', mark: { kind: 'm' }, items: [{ kind: 'call', f: { kind: 'count' } }] }],
+    ['go count x, sum()', { kind: 's', mark: { kind: 'm' }, items: [{ kind: 'word', w: 'x' }, { kind: 'call', f: { kind: 'sum' } }] }],
+  ])('%s', (code, tree) => {
+    expect(p.parse(code)).toEqual(tree);
+    expect(printTree(g, tree)).toBe(code);
   });
 });
