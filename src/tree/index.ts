@@ -23,10 +23,11 @@
  * time and memory for n characters and R generated rules; building a parser compiles one ohm
  * grammar per Grammar object (cached).
  *
- * Limits: the parser is a PEG with one-token FOLLOW look-ahead on a sort's alternatives, greedy
- * lists and optionals, and a PEG reading of token regexes (see regex.ts, parse.ts) — a grammar
- * that needs more look-ahead than that is parsed incompletely (the property tests catch it for
- * the shipped grammars). The word-boundary rule is exact for token classes whose lexemes all end
+ * Limits: the parser is a PEG with one-token look-ahead where a sort's alternatives, or an
+ * optional part / list element and what follows it, can begin alike; otherwise lists and optionals
+ * are greedy; token regexes are read as PEG (see regex.ts, parse.ts) — a grammar that needs more
+ * look-ahead than that is parsed incompletely (the property tests catch it for the shipped
+ * grammars). The word-boundary rule is exact for token classes whose lexemes all end
  * with a word character or none does; for mixed classes it is not enforced after the token. The
  * JSON Schema cannot express variable scoping or numeric token regexes (schema.ts).
  */

@@ -19,7 +19,10 @@
  *
  * The PEG reads alternatives in order and never reconsiders a choice that succeeded; the FOLLOW
  * look-ahead makes it reconsider when the next token cannot follow (lf: `h($x)` is a class test
- * unless a comparison operator follows). Lists and optional parts are greedy.
+ * unless a comparison operator follows). It is added only where two alternatives can begin with
+ * the same character. Likewise an optional part or list element that can begin like what follows
+ * it (`H<n>` rules) is taken only when the next token can come after it. Beyond that one token,
+ * lists and optional parts are greedy.
  *
  * After the syntax, a located check pass reports token values out of range, unknown names (when
  * names are bound) and unbound variables.
