@@ -52,6 +52,8 @@ export class Frame {
     readonly next: Frame | null,
     /** shortest completion (bytes, upper bound) of this frame and all below it */
     readonly rest: number,
+    /** the first terminal of that completion starts with a word byte (its separating space is counted) */
+    readonly restFirstWord = false,
   ) {}
 }
 
@@ -175,6 +177,9 @@ export class Bound {
   /** mode 1: bytes excluding bound-variable lexemes (a) + number of bound-variable lexemes (k) */
   readonly dist1a: Int32Array;
   readonly dist1k: Int32Array;
+  /** per node and mode: the chosen shortest completion begins with a word-start terminal */
+  readonly firstWord0: Uint8Array;
+  readonly firstWord1: Uint8Array;
   /** shortest lexeme length of the classes used by `new` fields (for mode 0 → 1 after a binding) */
   readonly newVarLen: number;
   readonly termCost: Int32Array;
@@ -230,6 +235,14 @@ export class Bound {
     const d1k = new Int32Array(n).fill(0);
     const w = 1 + this.newVarLen;
     const v1 = (i: number) => (d1a[i] >= INF ? INF : d1a[i] + d1k[i] * w);
+    // first terminal of the chosen shortest path starts with a word byte (mode 0 / mode 1)
+    const fw0 = new Uint8Array(n);
+    const fw1 = new Uint8Array(n);
+    const termWord = new Uint8Array(rtn.terminals.length);
+    for (const t of rtn.terminals) {
+      const sh = this.termDfa[t.index].shortest;
+      termWord[t.index] = sh !== null && sh.length > 0 && WORD[sh[0]] ? 1 : 0;
+    }
     for (const nt of rtn.nts) {
       dist0[nt.final] = 0;
       d1a[nt.final] = 0;
@@ -243,12 +256,17 @@ export class Bound {
           let c0 = INF;
           let c1a = INF;
           let c1k = 0;
+          let f0 = 0;
+          let f1 = 0;
           if (kind === EDGE_EPS) {
             c0 = dist0[to];
             c1a = d1a[to];
             c1k = d1k[to];
+            f0 = fw0[to];
+            f1 = fw1[to];
           } else if (kind === EDGE_TERM) {
             const t = rtn.terminals[rtn.edgeArg[e]];
+            f0 = f1 = termWord[t.index];
             const tc = termCost[t.index];
             if (t.kind === 'boundvar') {
               if (d1a[to] < INF) {
@@ -266,25 +284,33 @@ export class Bound {
             }
           } else {
             const st = rtn.nts[rtn.edgeArg[e]].start;
+            f0 = dist0[st] > 0 ? fw0[st] : fw0[to];
+            f1 = d1a[st] + d1k[st] > 0 ? fw1[st] : fw1[to];
             if (dist0[st] < INF && dist0[to] < INF) c0 = dist0[st] + dist0[to];
             if (d1a[st] < INF && d1a[to] < INF) {
               c1a = d1a[st] + d1a[to];
               c1k = d1k[st] + d1k[to];
             }
           }
-          if (c0 < dist0[m]) {
+          // ties prefer a path that starts with a word-start terminal: its space is the one a
+          // preceding space makes unnecessary (betweenDist with prevWord false)
+          if (c0 < dist0[m] || (c0 < INF && c0 === dist0[m] && f0 > fw0[m])) {
             dist0[m] = c0;
+            fw0[m] = f0;
             changed = true;
           }
-          if (c1a < INF && c1a + c1k * w < v1(m)) {
+          if (c1a < INF && (c1a + c1k * w < v1(m) || (c1a + c1k * w === v1(m) && f1 > fw1[m]))) {
             d1a[m] = c1a;
             d1k[m] = c1k;
+            fw1[m] = f1;
             changed = true;
           }
         }
       }
     }
     this.dist0 = dist0;
+    this.firstWord0 = fw0;
+    this.firstWord1 = fw1;
     this.dist1a = d1a;
     this.dist1k = d1k;
     const nOpt = automaton.optTerm.length;
@@ -377,14 +403,25 @@ export class Bound {
     return a >= INF ? INF : a + this.dist1k[node] * (1 + env.minLen);
   }
 
-  /** Shortest completion (bytes) of a BETWEEN thread at `node` with `frames`, `env`. */
-  betweenDist(node: number, env: Env | null, frames: Frame | null): number {
-    return this.nodeDist(node, env) + (frames === null ? 0 : frames.rest);
+  /**
+   * Shortest completion (bytes) of a BETWEEN thread at `node` with `frames`, `env`. The tables count
+   * one separating space before every terminal that starts with a word byte; when the previous
+   * byte is not a word byte (`prevWord` false) the first such space is not needed and is not
+   * counted — so emitting a space always brings the bound down by one (no dead end under a budget).
+   */
+  betweenDist(node: number, env: Env | null, frames: Frame | null, prevWord = true): number {
+    const here = this.nodeDist(node, env);
+    let d = here + (frames === null ? 0 : frames.rest);
+    if (!prevWord) {
+      const fw = here > 0 ? (env === null ? this.firstWord0[node] : this.firstWord1[node]) === 1 : frames !== null && frames.restFirstWord;
+      if (fw) d -= 1;
+    }
+    return d;
   }
 
-  /** Shortest completion (bytes) of any thread. */
-  threadDist(th: Thread): number {
-    if (th.term < 0) return this.betweenDist(th.node, th.env, th.frames);
+  /** Shortest completion (bytes) of any thread; `prevWord`: the last byte read was a word byte. */
+  threadDist(th: Thread, prevWord = true): number {
+    if (th.term < 0) return this.betweenDist(th.node, th.env, th.frames, prevWord);
     const t = this.automaton.rtn.terminals[th.term];
     let lexRest: number;
     let env = th.env;
@@ -402,7 +439,9 @@ export class Bound {
     let f = frames;
     for (let i = 0; i < push.length; i++) {
       const r = push[i];
-      f = new Frame(r, env, f, this.nodeDist(r, env) + (f === null ? 0 : f.rest));
+      const nd = this.nodeDist(r, env);
+      const fw = nd > 0 ? (env === null ? this.firstWord0[r] : this.firstWord1[r]) === 1 : f !== null && f.restFirstWord;
+      f = new Frame(r, env, f, nd + (f === null ? 0 : f.rest), fw);
     }
     return f;
   }
@@ -529,7 +568,7 @@ export class Bound {
   /** Fewest bytes (an achievable upper bound on the true minimum) that complete the program. */
   shortestCompletion(state: PdaState): number {
     let best = INF;
-    for (const th of state.threads) best = Math.min(best, this.threadDist(th));
+    for (const th of state.threads) best = Math.min(best, this.threadDist(th, state.prevWord));
     return best;
   }
 }

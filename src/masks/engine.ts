@@ -368,7 +368,7 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
     for (let c = 1; c < trie.nodeCount; c = trie.end[c]) {
       const t2 = bound.stepLex(th, trie.byte[c]);
       if (t2 === null) continue;
-      this.markNode(c, bound.threadDist(t2));
+      this.markNode(c, bound.threadDist(t2, WORD[trie.byte[c]] === 1));
       if (trie.end[c] > c + 1) this.walkGeneric(c, t2);
     }
   }
@@ -492,8 +492,9 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
     const bound = this.bound;
     const a = bound.automaton;
     const engine = this.engine;
-    const dist = bound.betweenDist(th.node, th.env, th.frames);
+    const dist = bound.betweenDist(th.node, th.env, th.frames, false); // after a space
     if (dist <= this.lim) {
+      if (dist > this.maxSeen) this.maxSeen = dist;
       const ids = engine.wsTokenIds;
       const mask = this.mask;
       for (let i = 0; i < ids.length; i++) mask[ids[i] >>> 5] |= 1 << (ids[i] & 31);
@@ -543,7 +544,7 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
         this.markNode(c, bound.termDfa[term].minAccept[s] + rest);
         if (end[c] > c + 1) this.walkLex(c, nt, s, rest);
       } else {
-        this.markNode(c, bound.threadDist(nt));
+        this.markNode(c, bound.threadDist(nt, WORD[b] === 1));
         if (end[c] > c + 1) this.walkGeneric(c, nt);
       }
     }
@@ -557,7 +558,7 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
     const { byte, end } = engine.trie;
     const space = a.rtn.space;
     const pw = x === 0 ? this.rootPrevWord : WORD[byte[x]] === 1;
-    const dist = bound.betweenDist(th.node, th.env, th.frames);
+    const dist = bound.betweenDist(th.node, th.env, th.frames, false); // after a space
     if (engine.wide[x] >= 0) {
       // wide node: look up the few bytes that can begin a terminal
       const sp = engine.spaceBytes;
@@ -659,7 +660,7 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
       const top = scratch.length;
       for (let i = base; i < top; i++) {
         const t2 = scratch[i];
-        this.markNode(c, bound.threadDist(t2));
+        this.markNode(c, bound.threadDist(t2, WORD[byte[c]] === 1));
         if (end[c] > c + 1) this.walkGeneric(c, t2);
       }
       scratch.length = base;

@@ -44,19 +44,12 @@ export function wStep(t: ClassTables, s: number, b: number): number {
   return s === t.w0 ? t.w0Trans[b] : t.dfa.trans[s * 256 + b];
 }
 
-export function wMinAccept(t: ClassTables, s: number): number {
-  return s === t.w0 ? w0MinAccept(t.dfa, WORD_BYTES) : t.dfa.minAccept[s];
-}
-
-const WORD_BYTES = new Uint8Array(256).map((_, c) => ((c >= 48 && c <= 57) || (c >= 65 && c <= 90) || (c >= 97 && c <= 122) || c === 95 ? 1 : 0));
-
 /**
- * W0's completion cost: the shortest lexeme plus one space when it starts with a word byte (keep
- * in sync with the terminal costs in automaton/pda.ts, so both mask paths agree on the budget).
+ * Bytes to finish the lexeme from state s. W0 is reached only after at least one space, so the
+ * lexeme needs no separating space (keep in sync with Bound.betweenDist in automaton/pda.ts).
  */
-function w0MinAccept(dfa: ByteDfa, word: Uint8Array): number {
-  const s = dfa.shortest;
-  return dfa.minAccept[dfa.start] + (s !== null && s.length > 0 && word[s[0]] ? 1 : 0);
+export function wMinAccept(t: ClassTables, s: number): number {
+  return s === t.w0 ? t.dfa.minAccept[t.dfa.start] : t.dfa.minAccept[s];
 }
 
 /**
@@ -65,7 +58,6 @@ function w0MinAccept(dfa: ByteDfa, word: Uint8Array): number {
  */
 export function buildClassTables(dfa: ByteDfa, trie: TokenTrie, space: Uint8Array, follow: Uint8Array, word: Uint8Array, nWords: number): ClassTables {
   const w0 = dfa.stateCount;
-  const w0Cost = w0MinAccept(dfa, word);
   const w0Trans = new Int32Array(256);
   for (let b = 0; b < 256; b++) w0Trans[b] = space[b] ? w0 : dfa.trans[dfa.start * 256 + b];
   const inside: Uint32Array[] = [new Uint32Array(0)];
@@ -96,7 +88,7 @@ export function buildClassTables(dfa: ByteDfa, trie: TokenTrie, space: Uint8Arra
         continue;
       }
       stateAt[dep] = s;
-      const k = s === w0 ? w0Cost : dfa.minAccept[s];
+      const k = s === w0 ? dfa.minAccept[dfa.start] : dfa.minAccept[s];
       if (k > maxK) maxK = k;
       for (let i = tokStart[c]; i < tokStart[c + 1]; i++) {
         const id = tokens[i];
