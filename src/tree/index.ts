@@ -27,8 +27,9 @@
  * optional part / list element and what follows it, can begin alike; otherwise lists and optionals
  * are greedy; token regexes are read as PEG (see regex.ts, parse.ts) — a grammar that needs more
  * look-ahead than that is parsed incompletely (the property tests catch it for the shipped
- * grammars). The word-boundary rule is exact for token classes whose lexemes all end
- * with a word character or none does; for mixed classes it is not enforced after the token. The
+ * grammars). The word-boundary rule is part of the token rule when every lexeme ends with
+ * a word character; for classes whose lexemes may end either way it is checked on the parsed
+ * lexeme, after the PEG has chosen it (so it cannot steer the choice). The
  * JSON Schema cannot express variable scoping or numeric token regexes (schema.ts).
  */
 export { validateTree, assertTree, TreeError, type Tree, type TreeValue, type TreeIssue, type ValidateOptions } from './validate.ts';

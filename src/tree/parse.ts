@@ -35,9 +35,9 @@ import * as ohm from 'ohm-js';
 import { readFileSync } from 'node:fs';
 import type { Constructor, Field, Grammar, LayoutItem, NameBindings, Span } from '../description/ir.ts';
 import { excerpt, lineColumn } from '../util/source.ts';
-import { grammarInfo, type GrammarInfo } from './info.ts';
+import { grammarInfo, spellingToken, type GrammarInfo } from './info.ts';
 import { kindWords, lexemeToValue } from './lexeme.ts';
-import { RegexFeatureError, firstChars, lastChars, pairsOf, setComplement, setIntersect, setSize, setUnion, WORD, type CharSet, type Rx } from './regex.ts';
+import { RegexFeatureError, firstChars, isWordCode, lastChars, pairsOf, setComplement, setIntersect, setSize, setUnion, WORD, type CharSet, type Rx } from './regex.ts';
 import type { Tree, TreeValue } from './validate.ts';
 
 export interface ParseOptions {
@@ -127,6 +127,8 @@ interface Generated {
   readonly termOrder: ReadonlyMap<string, number>;
   /** guard description → the terminal rule names (or 'end of input') it looks for */
   readonly guardItems: ReadonlyMap<string, readonly string[]>;
+  /** token classes whose lexemes may end with or without a word character */
+  readonly mixedEnds: ReadonlySet<string>;
 }
 
 const cache = new WeakMap<Grammar, Generated>();
@@ -231,6 +233,7 @@ function generateOhm(info: GrammarInfo): Generated {
   const termOrder = new Map<string, number>();
   const kwIndex = new Map(g.keywords.map((k, i) => [k, i]));
   const kw = (text: string) => `kw${kwIndex.get(text)!}`;
+  const mixedEnds = new Set<string>();
 
   lexical.push(`wordc = "0".."9" | "A".."Z" | "_" | "a".."z"`);
   const spaceChars = [...g.space].map((c) => charCode(c.codePointAt(0)!));
@@ -265,8 +268,11 @@ function generateOhm(info: GrammarInfo): Generated {
       const clash = ti.keywordClash.map((k) => (isWord(k.codePointAt(k.length - 1)!) ? `${ohmString(k)} ~wordc` : ohmString(k)));
       body = `~(${clash.map((c) => `(${c})`).join(' | ')}) ${body}`;
     }
-    // word-boundary rule: exact when every lexeme ends with a word character, or none does
-    if (ends.length > 0 && setSize(setIntersect(ends, WORD, 0x10ffff)) === setSize(ends)) body += ' ~wordc';
+    // word-boundary rule: in the rule when every lexeme ends with a word character; for classes
+    // whose lexemes may end either way, checked on the parsed lexeme (see buildSemantics)
+    const wordEnds = setSize(setIntersect(ends, WORD, 0x10ffff));
+    if (ends.length > 0 && wordEnds === setSize(ends)) body += ' ~wordc';
+    else if (wordEnds > 0) mixedEnds.add(t.name);
     lexical.push(`tok${i} (tok${i}) = ${body}`);
     terms.set(`tok${i}`, t.name);
     termOrder.set(`tok${i}`, 1000 + i);
@@ -455,7 +461,7 @@ function generateOhm(info: GrammarInfo): Generated {
   for (const l of guards) lines.push(`  ${l}`);
   for (const l of lexical) lines.push(`  ${l}`);
   lines.push('}');
-  return { source: lines.join('\n'), terms, termOrder, guardItems };
+  return { source: lines.join('\n'), terms, termOrder, guardItems, mixedEnds };
 }
 
 /**
@@ -595,7 +601,7 @@ export function createParser(grammar: Grammar): Parser {
   if (built === undefined) {
     const generated = ohmSource(grammar);
     const ohmGrammar = ohm.grammar(generated.source);
-    const semantics = buildSemantics(info, ohmGrammar);
+    const semantics = buildSemantics(info, ohmGrammar, generated.mixedEnds);
     built = { ohmGrammar, semantics, generated };
     builtCache.set(grammar, built);
   }
@@ -652,7 +658,7 @@ interface Wrapper {
   tree(ctx: Ctx): TreeValue;
 }
 
-function buildSemantics(info: GrammarInfo, og: ohm.Grammar): ohm.Semantics {
+function buildSemantics(info: GrammarInfo, og: ohm.Grammar, mixedEnds: ReadonlySet<string>): ohm.Semantics {
   const g = info.grammar;
   const sem = og.createSemantics();
   // classify every generated rule once; the action below dispatches on a map lookup
@@ -735,8 +741,13 @@ function buildSemantics(info: GrammarInfo, og: ohm.Grammar): ohm.Semantics {
           const f = kind.f;
           const child = children[0]!;
           if (f.type.kind === 'sort') return child.tree(ctx);
+          const tok = spellingToken(info, f.type)!.token;
+          const end = child.source.endIdx;
+          if (mixedEnds.has(tok.name) && isWordCode(ctx.text.charCodeAt(end - 1)) && isWordCode(ctx.text.charCodeAt(end))) {
+            const what = f.type.kind === 'names' ? f.type.name : tok.name;
+            throw new ParseError(ctx.file, ctx.text, { start: end, end: end + 1 }, `expected a space after ${what} ${child.sourceString} (a word character may not follow it)`);
+          }
           if (f.type.kind === 'names') return child.sourceString;
-          const tok = info.token.get(f.type.name)!.token;
           const v = lexemeToValue(tok.value, child.sourceString);
           if (v === null) {
             throw new ParseError(ctx.file, ctx.text, { start: child.source.startIdx, end: child.source.endIdx }, `${tok.name} ${child.sourceString} is not ${kindWords(tok.value)} value (out of range)`);

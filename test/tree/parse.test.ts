@@ -117,3 +117,18 @@ describe('look-ahead after optional parts', () => {
     expect(printTree(g, tree)).toBe(code);
   });
 });
+
+describe('word-boundary rule for a class whose lexemes may end either way', () => {
+  const text = 'grammar mixed\nstart S\nspace " "\ntoken W = /[a-z]!?/ as text\nsort S {\n  two(a: W, b: W) = a ~b;\n}\n';
+  const g = compileDescription(text, 'mixed.twg').grammar!;
+  const p = createParser(g);
+  it('a lexeme ending in a punctuation character may touch the next one', () => {
+    expect(p.parse('a!b')).toEqual({ kind: 'two', a: 'a!', b: 'b' });
+    expect(printTree(g, { kind: 'two', a: 'a!', b: 'b' })).toBe('a!b');
+    expect(printTree(g, { kind: 'two', a: 'a', b: 'b' })).toBe('a b');
+  });
+  it('a lexeme ending in a word character may not', () => {
+    expect(p.parse('a b')).toEqual({ kind: 'two', a: 'a', b: 'b' });
+    expect(() => p.parse('ab')).toThrow('<input>:1:2: expected a space after W a (a word character may not follow it)');
+  });
+});
