@@ -40,6 +40,26 @@ const TYPES: Record<string, string> = { html: 'text/html; charset=utf-8', js: 't
 
 class Stopped extends Error {}
 
+/** Counters a server keeps (`app.treewrightStats`): for operators and tests. */
+export interface ServerStats {
+  /** generate requests answered (any status) */
+  generated: number;
+  /** decodes stopped because the client closed the connection */
+  stoppedGone: number;
+  /** decodes stopped at the time limit */
+  stoppedTime: number;
+  /** requests refused with 503 */
+  refused: number;
+  /** requests holding a slot right now */
+  readonly active: number;
+}
+
+declare module 'fastify' {
+  interface FastifyInstance {
+    treewrightStats: ServerStats;
+  }
+}
+
 /** A view of `model` whose decoding runs throw Stopped once `stop()` says so (checked every step). */
 function stoppable(model: Seq2SeqModel, stop: () => boolean): Seq2SeqModel {
   const view = Object.create(model) as Seq2SeqModel;
@@ -112,6 +132,16 @@ export async function buildServer(registry: Registry, limits: ServerLimits = {})
     logger: false,
     ajv: { customOptions: { coerceTypes: false, removeAdditional: false, useDefaults: true, allErrors: false } },
   });
+  const stats: ServerStats = {
+    generated: 0,
+    stoppedGone: 0,
+    stoppedTime: 0,
+    refused: 0,
+    get active() {
+      return gate.running;
+    },
+  };
+  app.decorate('treewrightStats', stats);
   const page = Object.fromEntries(Object.entries(PAGE_FILES).map(([url, f]) => [url, { body: readFileSync(join(PAGE_DIR, f)), type: TYPES[f.split('.').pop()!] }]));
 
   // JSON only: other content types (text/plain included) are 415
@@ -200,14 +230,18 @@ export async function buildServer(registry: Registry, limits: ServerLimits = {})
   };
   const withSlot = async <T>(work: () => Promise<T>): Promise<T> => {
     const release = await gate.enter();
-    if (release === null) throw overloaded(gate.running, gate.queued);
+    if (release === null) {
+      stats.refused++;
+      throw overloaded(gate.running, gate.queued);
+    }
     try {
       return await work();
     } finally {
       release();
     }
   };
-  const gone = (req: FastifyRequest) => req.raw.destroyed && !req.raw.complete;
+  // the client went away (socket closed): stop decoding for nobody
+  const gone = (req: FastifyRequest) => req.raw.socket?.destroyed === true;
 
   app.get('/api/openapi.json', { schema: { summary: 'This API as an OpenAPI 3.1 document' } }, async () => app.swagger());
 
@@ -346,6 +380,7 @@ export async function buildServer(registry: Registry, limits: ServerLimits = {})
     const prefix = b.prefix ?? `${g.grammar.name}: `;
     const question = b.question.startsWith(prefix) ? b.question : prefix + b.question;
     const strategy = b.beam !== undefined ? 'beam' : b.sample ? 'sample' : 'greedy';
+    stats.generated++;
     return withSlot(async () => {
       const deadline = Date.now() + timeLimitMs;
       let timedOut = false;
@@ -361,7 +396,11 @@ export async function buildServer(registry: Registry, limits: ServerLimits = {})
         });
       } catch (e) {
         if (e instanceof Stopped) {
-          if (timedOut) throw timeLimit(timeLimitMs);
+          if (timedOut) {
+            stats.stoppedTime++;
+            throw timeLimit(timeLimitMs);
+          }
+          stats.stoppedGone++;
           throw new ApiError(499, 'client_closed', 'the client closed the connection; decoding stopped');
         }
         return modelError(e);

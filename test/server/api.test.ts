@@ -352,6 +352,7 @@ describe('limits and malformed requests', () => {
       const body = { question: 'how many lots?', grammar: 'lf', max_tokens: 40 };
       const all = await Promise.all([1, 2, 3].map(() => small.inject({ method: 'POST', url: '/api/generate', payload: body })));
       expect(all.map((r) => r.statusCode).sort()).toEqual([200, 503, 503]);
+      expect(small.treewrightStats.refused).toBe(2);
       const refused = all.find((r) => r.statusCode === 503)!;
       expect(refused.json().error.code).toBe('overloaded');
       // RFC 9110 §10.2.3: Retry-After tells the client when to try again
@@ -368,6 +369,30 @@ describe('limits and malformed requests', () => {
       expect(res.json().error).toEqual({ code: 'time_limit', message: 'the request ran longer than its time limit of 1 ms and was stopped' });
     } finally {
       await slow.close();
+    }
+  });
+});
+
+describe('a client that goes away', () => {
+  it('stops its decoding and frees the slot (real server on 127.0.0.1)', async () => {
+    const one = await buildServer(await Registry.open({ models: [FIXTURE], threads: 1, grammars: ['lf'] }), { maxActive: 1, maxQueued: 0 });
+    try {
+      await one.listen({ host: '127.0.0.1', port: 0 });
+      const url = `http://127.0.0.1:${(one.server.address() as { port: number }).port}/api/generate`;
+      const long = { question: 'how many lots?', grammar: 'lf', constrained: false, max_tokens: 127 };
+      const ctrl = new AbortController();
+      const gone = fetch(url, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify(long), signal: ctrl.signal }).catch((e: Error) => e.name);
+      const stats = one.treewrightStats;
+      while (stats.active === 0) await new Promise((r) => setTimeout(r, 2));
+      ctrl.abort();
+      expect(await gone).toBe('AbortError');
+      while (stats.active !== 0) await new Promise((r) => setTimeout(r, 5));
+      // the decode ended by noticing the closed connection, not by running to its end
+      expect(stats).toMatchObject({ generated: 1, stoppedGone: 1, stoppedTime: 0 });
+      const next = await fetch(url, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify({ ...long, max_tokens: 1 }) });
+      expect(next.status).toBe(200);
+    } finally {
+      await one.close();
     }
   });
 });
