@@ -178,6 +178,8 @@ export async function buildServer(registry: Registry, limits: ServerLimits = {})
   });
 
   await app.register(swagger, {
+    // shared schemas keep their $id as their component name (Error, TreeViewNode)
+    refResolver: { buildLocalReference: (json, _base, _fragment, i) => (typeof json.$id === 'string' ? json.$id : `def-${i}`) },
     openapi: {
       openapi: '3.1.0',
       info: { title: 'treewright server', version: '0.1.0', description: 'Grammar checks, constrained generation, parsing, printing, token masks and execution over HTTP. Every error is JSON {error: {code, message, location?}}.' },

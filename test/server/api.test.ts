@@ -65,6 +65,7 @@ describe('GET /api/openapi.json', () => {
       expect(op.requestBody, p).toBeDefined();
       for (const status of ['200', '400', '413', '503']) expect(Object.keys(op.responses), p).toContain(status);
     }
+    expect(Object.keys((openapi as unknown as { components: { schemas: object } }).components.schemas).sort()).toEqual(['Error', 'TreeViewNode']);
   });
 });
 
@@ -254,7 +255,7 @@ describe('POST /api/execute', () => {
       sqliteMessage = (e as Error).message;
     }
     db.close();
-    const res = await post('/api/execute', { grammar: 'sql', text: 'SELECT nope FROM growers', names: undefined });
+    const res = await post('/api/execute', { grammar: 'sql', text: 'SELECT nope FROM growers' });
     // nope is not a column of the demo database: with names bound it does not even parse
     expect(res.statusCode).toBe(422);
     expect(sqliteMessage).toBe('no such column: nope');
