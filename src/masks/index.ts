@@ -27,3 +27,4 @@ import { MaskEngine, type CompileOptions } from './engine.ts';
 export function compileMasks(grammar: Grammar, vocabulary: Vocabulary, opts: CompileOptions = {}): MaskEngine {
   return new MaskEngine(grammar, vocabulary, opts);
 }
+export { loadOrCompile, serializeEngine, deserializeEngine, cacheKey, defaultCacheDir, CacheError, CACHE_FORMAT, type LoadResult } from './cache.ts';

@@ -3,10 +3,12 @@
  * add a line here to make it part of the CLI.
  */
 import type { Command } from 'commander';
+import { register as bench } from './bench.ts';
 import { register as check } from './check.ts';
 import { register as evaluate } from './evaluate.ts';
 import { register as demo } from './demo.ts';
 import { register as generate } from './generate.ts';
+import { register as mask } from './mask.ts';
 import { register as parse } from './parse.ts';
 import { register as print } from './print.ts';
 import { register as sample } from './sample.ts';
@@ -17,10 +19,12 @@ import { register as serve } from './serve.ts';
 export type RegisterCommand = (program: Command, setExit: (code: number) => void) => void;
 
 export const COMMANDS: RegisterCommand[] = [
+  bench,
   check,
   evaluate,
   demo,
   generate,
+  mask,
   parse,
   print,
   sample,

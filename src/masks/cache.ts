@@ -1,0 +1,174 @@
+/**
+ * The mask cache: compiled grammar × vocabulary index in one file, keyed by both content hashes.
+ *
+ * Key: sha256 of (format, the description text, the tokenizer.json bytes, the tokenizer_config.json
+ * bytes beside it if any). File: `<dir>/<key>.twmask` (default dir `os.tmpdir()/treewright-cache`).
+ *
+ * Layout (little-endian; every section starts on a 4-byte boundary):
+ *   "TWMASK01"                      magic (8 bytes)
+ *   u32 headerLength, header JSON   {format, key, grammarHash, vocabBytes, classes: [null | {states, kmax[], exits[]}]}
+ *   vocabulary index                Vocabulary.serialize() (its own checksum)
+ *   per class with tables: inside bitsets for states 1..W0, then le bitsets (kmax[d] capped at
+ *   MAX_LE per state, in state order), then the exit node lists (u32)
+ *   sha256 of everything above      (32 bytes)
+ * The automaton itself is rebuilt from the description (milliseconds); per-binding local masks
+ * are not cached (computed on first use, ~0.1 s for the shipped grammars).
+ * A damaged or foreign file is reported (CacheError) and rebuilt by `loadOrCompile`.
+ */
+import { createHash } from 'node:crypto';
+import { existsSync, mkdirSync, readFileSync, renameSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { dirname, join } from 'node:path';
+import type { Grammar } from '../description/ir.ts';
+import { deserializeVocabulary, loadVocabulary, VocabularyError, type Vocabulary } from '../vocab/index.ts';
+import { MaskEngine } from './engine.ts';
+import { MAX_LE, type ClassTables } from './precompute.ts';
+import { compileRegex } from '../automaton/regex.ts';
+
+export const CACHE_FORMAT = 'TWMASK01';
+const MAGIC = Buffer.from(CACHE_FORMAT, 'latin1');
+
+export class CacheError extends Error {}
+
+export function defaultCacheDir(): string {
+  return join(tmpdir(), 'treewright-cache');
+}
+
+/** The cache key of a description text and a tokenizer file (plus its tokenizer_config.json). */
+export function cacheKey(grammarText: string, tokenizerPath: string): string {
+  const h = createHash('sha256');
+  h.update(CACHE_FORMAT).update('\0').update(grammarText).update('\0');
+  h.update(readFileSync(tokenizerPath)).update('\0');
+  const config = join(dirname(tokenizerPath), 'tokenizer_config.json');
+  if (existsSync(config)) h.update(readFileSync(config));
+  return h.digest('hex');
+}
+
+function pad4(n: number): number {
+  return (4 - (n & 3)) & 3;
+}
+
+/** Serialises an engine (vocabulary index + class tables) under `key`. */
+export function serializeEngine(engine: MaskEngine, key: string): Buffer {
+  const parts: Buffer[] = [];
+  const classes = engine.classes.map((t) => (t === null ? null : { states: t.w0, kmax: Array.from(t.kmax), exits: t.exits.map((e) => e.length) }));
+  const vocabBlob = Buffer.from(engine.vocab.serialize());
+  const header = Buffer.from(JSON.stringify({ format: CACHE_FORMAT, key, grammarHash: engine.grammar.hash, vocabBytes: vocabBlob.length, classes }), 'utf8');
+  const len = Buffer.alloc(4);
+  len.writeUInt32LE(header.length);
+  parts.push(MAGIC, len, header, Buffer.alloc(pad4(header.length)));
+  parts.push(vocabBlob, Buffer.alloc(pad4(vocabBlob.length)));
+  const u32 = (a: Uint32Array) => parts.push(Buffer.from(a.buffer, a.byteOffset, a.byteLength));
+  for (const t of engine.classes) {
+    if (t === null) continue;
+    for (let d = 1; d <= t.w0; d++) u32(t.inside[d]);
+    for (let d = 1; d <= t.w0; d++) for (const b of t.le[d]) u32(b);
+    for (let d = 1; d <= t.w0; d++) u32(t.exits[d]);
+  }
+  const body = Buffer.concat(parts);
+  return Buffer.concat([body, createHash('sha256').update(body).digest()]);
+}
+
+/** Reads what `serializeEngine` wrote; throws CacheError when the file is damaged or for another key. */
+export function deserializeEngine(data: Buffer, grammar: Grammar, key: string, file: string): MaskEngine {
+  const fail = (why: string): never => {
+    throw new CacheError(`${file}: not a usable mask cache (${why}); expected a file written by treewright for key ${key.slice(0, 12)}…`);
+  };
+  if (data.length < 8 + 4 + 32 || !data.subarray(0, 8).equals(MAGIC)) fail('wrong magic');
+  const body = data.subarray(0, data.length - 32);
+  if (!createHash('sha256').update(body).digest().equals(data.subarray(data.length - 32))) fail('checksum mismatch');
+  const hlen = body.readUInt32LE(8);
+  let pos = 12;
+  let header: { format: string; key: string; grammarHash: string; vocabBytes: number; classes: ({ states: number; kmax: number[]; exits: number[] } | null)[] };
+  try {
+    header = JSON.parse(body.subarray(pos, pos + hlen).toString('utf8'));
+  } catch {
+    return fail('bad header');
+  }
+  if (header.format !== CACHE_FORMAT || header.key !== key || header.grammarHash !== grammar.hash) fail('key mismatch');
+  if (header.classes.length !== grammar.tokens.length) fail('class count mismatch');
+  pos += hlen + pad4(hlen);
+  const vocab: Vocabulary = deserializeVocabulary(new Uint8Array(body.buffer, body.byteOffset + pos, header.vocabBytes), file);
+  pos += header.vocabBytes + pad4(header.vocabBytes);
+  const nWords = (vocab.vocabSize + 31) >>> 5;
+  // one aligned copy of the table section, then zero-copy views into it
+  const rest = body.subarray(pos);
+  const words = new Uint32Array(rest.length >>> 2);
+  new Uint8Array(words.buffer).set(rest.subarray(0, words.length * 4));
+  let w = 0;
+  const take = (n: number): Uint32Array => {
+    if (w + n > words.length) fail('truncated tables');
+    const v = words.subarray(w, w + n);
+    w += n;
+    return v;
+  };
+  const tables: (ClassTables | null)[] = header.classes.map((c, i) => {
+    if (c === null) return null;
+    const t = grammar.tokens[i];
+    const dfa = compileRegex(t.pattern, t.flags, t.reserved ? grammar.keywords.map((k) => new TextEncoder().encode(k)) : []);
+    if (dfa.stateCount !== c.states) fail(`class ${t.name} has ${dfa.stateCount} states, the cache ${c.states}`);
+    const w0 = c.states;
+    const w0Trans = new Int32Array(256);
+    const space = grammar.space;
+    for (let b = 0; b < 256; b++) w0Trans[b] = b < 128 && space.includes(String.fromCharCode(b)) ? w0 : dfa.trans[dfa.start * 256 + b];
+    const inside: Uint32Array[] = [new Uint32Array(0)];
+    for (let d = 1; d <= w0; d++) inside.push(take(nWords));
+    const le: Uint32Array[][] = [[]];
+    for (let d = 1; d <= w0; d++) {
+      const levels: Uint32Array[] = [];
+      for (let k = 0; k < Math.min(c.kmax[d], MAX_LE); k++) levels.push(take(nWords));
+      le.push(levels);
+    }
+    const exits: Uint32Array[] = [new Uint32Array(0)];
+    for (let d = 1; d <= w0; d++) exits.push(take(c.exits[d]));
+    return { dfa, w0, w0Trans, inside, le, kmax: Int32Array.from(c.kmax), exits };
+  });
+  if (w !== words.length) fail('trailing data');
+  return new MaskEngine(grammar, vocab, {}, tables);
+}
+
+export interface LoadResult {
+  readonly engine: MaskEngine;
+  readonly fromCache: boolean;
+  /** time to read and deserialise the cache file (hit) or 0 */
+  readonly cacheLoadMs: number;
+  /** time to load the tokenizer and build the tables (miss) or 0 */
+  readonly compileMs: number;
+  readonly file: string | null;
+  /** a damaged cache file that was rebuilt, or null */
+  readonly warning: string | null;
+}
+
+/**
+ * The engine for `grammar` (read from `grammarPath`) × the tokenizer at `tokenizerPath`: from the
+ * cache when a file for both hashes exists, else compiled and written to the cache.
+ * `cacheDir: false` disables the cache.
+ */
+export function loadOrCompile(grammar: Grammar, grammarText: string, tokenizerPath: string, cacheDir: string | false = defaultCacheDir()): LoadResult {
+  if (cacheDir === false) {
+    const t0 = performance.now();
+    const engine = new MaskEngine(grammar, loadVocabulary(tokenizerPath));
+    return { engine, fromCache: false, cacheLoadMs: 0, compileMs: performance.now() - t0, file: null, warning: null };
+  }
+  const t0 = performance.now();
+  const key = cacheKey(grammarText, tokenizerPath);
+  const file = join(cacheDir, `${key}.twmask`);
+  let warning: string | null = null;
+  if (existsSync(file)) {
+    try {
+      const engine = deserializeEngine(readFileSync(file), grammar, key, file);
+      return { engine, fromCache: true, cacheLoadMs: performance.now() - t0, compileMs: 0, file, warning: null };
+    } catch (e) {
+      if (!(e instanceof CacheError) && !(e instanceof VocabularyError)) throw e;
+      warning = `${(e as Error).message}; rebuilt it`;
+    }
+  }
+  const t1 = performance.now();
+  const engine = new MaskEngine(grammar, loadVocabulary(tokenizerPath));
+  const compileMs = performance.now() - t1;
+  mkdirSync(cacheDir, { recursive: true });
+  const tmp = `${file}.${process.pid}.tmp`;
+  writeFileSync(tmp, serializeEngine(engine, key));
+  renameSync(tmp, file);
+  return { engine, fromCache: false, cacheLoadMs: 0, compileMs, file, warning };
+}
