@@ -89,7 +89,7 @@ class Output {
 function printNode(out: Output, node: Tree, glue: boolean, position: OperandPosition | null): boolean {
   const info = out.info;
   const ctor = info.ctor.get(node.kind)!;
-  if (position !== null && needsParens(info, ctor, position)) {
+  if (position !== null && needsParens(ctor, position)) {
     const parens = info.sort.get(ctor.sort)!.parens!;
     out.emit(parens.open, glue, true);
     printTemplate(out, ctor, node, true);
@@ -176,7 +176,7 @@ function printValue(out: Output, kind: 'sort' | 'token' | 'names', typeName: str
  * anything at its level; under a postfix left infix/postfix.
  * Keep in sync with the level rules in parse.ts.
  */
-export function needsParens(info: GrammarInfo, child: Constructor, position: OperandPosition): boolean {
+export function needsParens(child: Constructor, position: OperandPosition): boolean {
   const c = child.operator;
   if (c === null) return false;
   const p = position.parent.operator!;
@@ -188,6 +188,5 @@ export function needsParens(info: GrammarInfo, child: Constructor, position: Ope
   if (p.fixity === 'postfix') return !childLeftish;
   if (p.assoc === 'left' && position.side === 'left') return !childLeftish;
   if (p.assoc === 'right' && position.side === 'right') return !childRightish;
-  void info;
   return true;
 }
