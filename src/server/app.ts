@@ -433,7 +433,15 @@ export async function buildServer(registry: Registry, limits: ServerLimits = {})
   });
 
   for (const [url, file] of Object.entries(page)) {
-    app.get(url, { schema: { hide: true } }, async (_req, reply) => reply.type(file.type).header('cache-control', 'no-cache').send(file.body));
+    app.get(url, { schema: { hide: true } }, async (_req, reply) =>
+      reply
+        .type(file.type)
+        .header('cache-control', 'no-cache')
+        // the page loads only its own script and style and talks only to this server
+        .header('content-security-policy', "default-src 'none'; script-src 'self'; style-src 'self'; connect-src 'self'; img-src 'self'; base-uri 'none'; form-action 'none'; frame-ancestors 'none'")
+        .header('x-content-type-options', 'nosniff')
+        .send(file.body),
+    );
   }
 
   app.addHook('onClose', async () => {

@@ -403,6 +403,7 @@ describe('the page', () => {
     const html = await app.inject({ method: 'GET', url: '/' });
     expect(html.headers['content-type']).toBe('text/html; charset=utf-8');
     expect(html.body).toContain('<script src="/app.js"></script>');
+    expect(html.headers['content-security-policy']).toContain("connect-src 'self'");
     const js = await app.inject({ method: 'GET', url: '/app.js' });
     expect(js.headers['content-type']).toBe('text/javascript; charset=utf-8');
     expect(() => new Script(js.body, { filename: 'app.js' })).not.toThrow();
