@@ -86,7 +86,7 @@ export const register: RegisterCommand = (program: Command, setExit) => {
       try {
         // loaded here so that other commands start without onnxruntime and the mask engine
         const { loadGrammar } = await import('../../description/index.ts');
-        const { generate } = await import('../../decode/index.ts');
+        const { generate, maskEngine } = await import('../../decode/index.ts');
         const { loadModel } = await import('../../model/index.ts');
         const { checkNames, loadNames, namesFromDatabase } = await import('../../tree/index.ts');
         const { SqlRunner, sqlExecutor, lfExecutor, factsFromDatabase, factNames, loadExecutor } = await import('../../exec/index.ts');
@@ -146,6 +146,10 @@ export const register: RegisterCommand = (program: Command, setExit) => {
           });
           return { text: r.text, tokens: r.tokens.length, model_ms: r.model_ms, mask_ms: r.mask_ms, truncated: r.finished === 'length', token_texts: r.tokenTexts };
         };
+        // warm-up outside the timed loop: compile the grammar's masks for this vocabulary (or load
+        // them from the cache) and run both modes once, so the first item's latency is not the set-up
+        maskEngine(model, grammar);
+        for (const unconstrained of [true, false]) await generate(model, prefix + items[0].question, { grammar, names, unconstrained, maxTokens: 4 });
         const scorer = createScorer({ grammar, names, execute, context: { grammar, db: f.db } });
 
         const progress = await makeProgress();
