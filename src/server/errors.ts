@@ -32,8 +32,8 @@ export function badField(path: string, found: string, expected: string): ApiErro
 }
 
 export function notFound(path: string, what: string, id: string, known: readonly string[]): ApiError {
-  const list = known.length === 0 ? 'none are loaded' : `one of ${known.map((k) => JSON.stringify(k)).join(', ')}`;
-  return new ApiError(404, `unknown_${what}`, `${path}: no ${what} ${JSON.stringify(id)}; expected ${list}`, path);
+  if (known.length === 0) return new ApiError(404, `unknown_${what}`, `${path}: no ${what} is loaded; expected the server to be started with --${what} ${what === 'model' ? 'DIR' : 'G'}`, path);
+  return new ApiError(404, `unknown_${what}`, `${path}: no ${what} ${JSON.stringify(id)}; expected one of ${known.map((k) => JSON.stringify(k)).join(', ')}`, path);
 }
 
 export function overloaded(active: number, queued: number): ApiError {

@@ -398,6 +398,21 @@ describe('a client that goes away', () => {
   });
 });
 
+describe('a server without models', () => {
+  it('answers model routes with 404 naming the flag that loads one', async () => {
+    const bare = await buildServer(await Registry.open({ models: [], grammars: ['arith'] }));
+    try {
+      const res = await bare.inject({ method: 'POST', url: '/api/mask', payload: { grammar: 'arith', prefix: '1 +' } });
+      expect(res.statusCode).toBe(404);
+      expect(res.json().error).toEqual({ code: 'unknown_model', message: '$.model: no model is loaded; expected the server to be started with --model DIR', location: '$.model' });
+      // routes that need no model still work
+      expect((await bare.inject({ method: 'POST', url: '/api/parse', payload: { grammar: 'arith', text: '1 + 2' } })).statusCode).toBe(200);
+    } finally {
+      await bare.close();
+    }
+  });
+});
+
 describe('the page', () => {
   it('serves HTML, CSS and a script V8 compiles', async () => {
     const html = await app.inject({ method: 'GET', url: '/' });

@@ -41,4 +41,18 @@ describe('treewright serve', () => {
     expect(model.status).toBe(1);
     expect(model.stderr).toContain('no/such/model');
   });
+
+  it('a port in use is exit 1 naming --port', async () => {
+    const { createServer } = await import('node:net');
+    const blocker = createServer();
+    await new Promise<void>((r) => blocker.listen(0, '127.0.0.1', () => r()));
+    const port = (blocker.address() as { port: number }).port;
+    try {
+      const res = spawnSync(process.execPath, [CLI, 'serve', '--port', String(port), '--model', 'test/fixtures/tiny-seq2seq', '--grammar', 'arith'], { encoding: 'utf8' });
+      expect(res.status).toBe(1);
+      expect(res.stderr).toMatch(new RegExp(`^--host 127\\.0\\.0\\.1 --port ${port}: cannot listen there \\(EADDRINUSE: `));
+    } finally {
+      blocker.close();
+    }
+  });
 });

@@ -78,7 +78,10 @@ export const register: RegisterCommand = (program: Command, setExit) => {
         });
         setExit(0);
       } catch (e) {
-        process.stderr.write(`${(e as Error).message}\n`);
+        const err = e as NodeJS.ErrnoException;
+        if (err.code === 'EADDRINUSE' || err.code === 'EACCES' || err.code === 'EADDRNOTAVAIL') {
+          process.stderr.write(`--host ${f.host} --port ${f.port}: cannot listen there (${err.code}: ${err.message}); expected a free port on a local address (--port 0 picks one)\n`);
+        } else process.stderr.write(`${err.message}\n`);
         setExit(1);
       }
     });
