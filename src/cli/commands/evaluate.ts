@@ -14,7 +14,7 @@
  * Exit code 0 when the run finished, 1 on an error (printed on stderr, naming the file).
  */
 import { existsSync, readFileSync } from 'node:fs';
-import { join } from 'node:path';
+import { basename, join } from 'node:path';
 import type { Command } from 'commander';
 import type { NameBindings } from '../../description/ir.ts';
 import type { ExecuteFn } from '../../exec/types.ts';
@@ -76,7 +76,7 @@ export const register: RegisterCommand = (program: Command, setExit) => {
     .option('--beam <k>', 'beam search with k hypotheses (default greedy)')
     .option('--limit <n>', 'evaluate only the first n items (after --split)')
     .option('--split <name>', 'evaluate only the items of this split')
-    .option('--db <file>', 'SQLite database: runs SQL, feeds the LF fact base, binds names')
+    .option('--db <file>', 'SQLite database (or a .sql script, built into .cache/db/): runs SQL, feeds the LF fact base, binds names')
     .option('--names <file>', 'JSON bindings of the open name sets (instead of those from --db)')
     .option('--executor <module>', 'your own executor: an ES module exporting execute(tree, context)')
     .option('--max-tokens <n>', 'most tokens generated per output, end of sequence included (default 128)')
@@ -98,7 +98,14 @@ export const register: RegisterCommand = (program: Command, setExit) => {
         const maxTokens = positiveInt('max-tokens', f.maxTokens);
         const gPath = grammarPath(f.grammar);
         const grammar = loadGrammar(gPath);
-        if (f.db !== undefined && !existsSync(f.db)) throw new Error(`--db ${f.db}: no such file (expected a SQLite database)`);
+        if (f.db !== undefined && !existsSync(f.db)) throw new Error(`--db ${f.db}: no such file (expected a SQLite database or a .sql script)`);
+        if (f.db !== undefined && f.db.endsWith('.sql')) {
+          // a SQL script (e.g. grammars/sql/coop.sql): built afresh into a SQLite file under .cache/
+          const { buildSqliteFileFrom } = await import('../../exec/database.ts');
+          const built = join('.cache', 'db', `${basename(f.db, '.sql')}.sqlite`);
+          buildSqliteFileFrom(f.db, built);
+          f.db = built;
+        }
 
         let names: NameBindings = {};
         let namesSource = '';
