@@ -460,8 +460,10 @@ def sentencepiece_tokenizer_json(model_file):
     }
 
 
-def export_onnx(model, out_dir, tokenizer_json_path, tokenizer_config, special_ids):
-    """Writes the model folder (see the module comment). Returns out_dir."""
+def export_onnx(model, out_dir, tokenizer_json_path, tokenizer_config, special_ids, prefixes=None):
+    """Writes the model folder (see the module comment). `prefixes` (optional) maps a target grammar
+    name to the text put before a question (config.json `treewright.prefixes`, read by the
+    treewright CLI). Returns out_dir."""
     pad_id = special_ids['pad_id']
     eos_id = special_ids['eos_id']
     start_id = special_ids.get('decoder_start_id', pad_id)
@@ -546,6 +548,8 @@ def export_onnx(model, out_dir, tokenizer_json_path, tokenizer_config, special_i
         'treewright': {'architecture': 'pre-LN transformer, sinusoidal positions',
                        'exported_by': 'models/src/seq2seq.py'},
     }
+    if prefixes:
+        config['treewright']['prefixes'] = dict(prefixes)
     gen = {'decoder_start_token_id': start_id, 'eos_token_id': eos_id, 'pad_token_id': pad_id,
            'max_length': model.max_positions}
     for name, obj in (('config.json', config), ('generation_config.json', gen), ('tokenizer_config.json', tconf)):

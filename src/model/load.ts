@@ -22,6 +22,8 @@ export interface ModelConfig {
   readonly decoderStartId: number;
   /** Longest decoder sequence the model supports (max_position_embeddings, else n_positions, else 512). */
   readonly maxPositions: number;
+  /** `treewright.prefixes` of config.json: the text put before a question per target grammar name */
+  readonly prefixes: Readonly<Record<string, string>>;
 }
 
 export interface LoadModelOptions {
@@ -56,6 +58,16 @@ function readConfig(file: string): ModelConfig {
   if (eosIds.length === 0 || !eosIds.every((x) => typeof x === 'number' && Number.isInteger(x) && x >= 0)) {
     throw errors.badConfigField(file, 'eos_token_id', eosRaw, 'a token id or a list of token ids');
   }
+  const tw = c.treewright as { prefixes?: unknown } | undefined;
+  const prefixes: Record<string, string> = {};
+  if (tw !== undefined && tw !== null && typeof tw === 'object' && tw.prefixes !== undefined) {
+    const p = tw.prefixes;
+    if (p === null || typeof p !== 'object' || Array.isArray(p)) throw errors.badConfigField(file, 'treewright.prefixes', p, 'an object mapping grammar names to prefix strings');
+    for (const [k, v] of Object.entries(p)) {
+      if (typeof v !== 'string') throw errors.badConfigField(file, `treewright.prefixes.${k}`, v, 'a string');
+      prefixes[k] = v;
+    }
+  }
   const encoderLayers = int('num_layers');
   const padId = int('pad_token_id');
   return {
@@ -69,6 +81,7 @@ function readConfig(file: string): ModelConfig {
     eosIds: eosIds as number[],
     decoderStartId: int('decoder_start_token_id', padId),
     maxPositions: int('max_position_embeddings', typeof c.n_positions === 'number' ? c.n_positions : 512),
+    prefixes,
   };
 }
 
@@ -115,6 +128,14 @@ export class Seq2SeqModel {
   /** File name of the decoder graph in use, relative to the folder. */
   get decoderFile(): string {
     return this.cached ? 'onnx/decoder_model_merged.onnx' : 'onnx/decoder_model.onnx';
+  }
+
+  /**
+   * The text put before a question for a target grammar: config.json's `treewright.prefixes[name]`,
+   * else `"to <name>: "` (the shipped model's convention; `treewright evaluate` uses the same rule).
+   */
+  prefixFor(grammarName: string): string {
+    return this.config.prefixes[grammarName] ?? `to ${grammarName}: `;
   }
 
   /** Token ids of a question, as the tokenizer encodes it (EOS appended by its template). */

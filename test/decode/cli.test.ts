@@ -31,6 +31,15 @@ describe('treewright generate', () => {
     for (const k of ['text', 'tree', 'parses', 'well_typed', 'tokens', 'model_ms', 'mask_ms']) expect(o).toHaveProperty(k);
     expect(o).toMatchObject({ parses: true, well_typed: true, constrained: true, strategy: 'greedy', finished: 'eos' });
     expect(o.tree.kind).toMatch(/^(lambda|argmax|argmin|value|truth)$/);
+    // the fixture's config.json names no prefixes: the default "to <grammar>: " is put before the question
+    expect(o.input).toBe('to lf: lf: which orchards does chen li own?');
+  });
+
+  it('--prefix replaces the default and is not repeated', async () => {
+    const a = JSON.parse((await run([...BASE, '--prefix', '', '--max-tokens', '20', '--json', 'which orchards?'])).out);
+    expect(a.input).toBe('which orchards?');
+    const b = JSON.parse((await run([...BASE, '--max-tokens', '20', '--json', 'to lf: which orchards?'])).out);
+    expect(b.input).toBe('to lf: which orchards?');
   });
 
   it('beam and sampling flags select the strategy; --unconstrained exits 2 when the output is not a program', async () => {

@@ -113,6 +113,28 @@ describe('loading', () => {
   });
 });
 
+describe('input prefixes', () => {
+  it('come from config.json treewright.prefixes, else "to <grammar>: "', async () => {
+    expect(model.prefixFor('sql')).toBe('to sql: ');
+    const dir = variant('prefixes', (d) => {
+      const f = join(d, 'config.json');
+      const c = JSON.parse(readFileSync(f, 'utf8'));
+      c.treewright.prefixes = { sql: 'translate to SQL: ' };
+      writeFileSync(f, JSON.stringify(c));
+    });
+    const m = await loadModel(dir, { threads: 1 });
+    expect(m.prefixFor('sql')).toBe('translate to SQL: ');
+    expect(m.prefixFor('lf')).toBe('to lf: ');
+    const bad = variant('bad-prefixes', (d) => {
+      const f = join(d, 'config.json');
+      const c = JSON.parse(readFileSync(f, 'utf8'));
+      c.treewright.prefixes = { sql: 3 };
+      writeFileSync(f, JSON.stringify(c));
+    });
+    expect(await loadError(bad)).toBe(`${join(bad, 'config.json')}: at $.treewright.prefixes.sql: found 3; expected a string`);
+  });
+});
+
 describe('the KV cache', () => {
   it('gives the same logits as re-running the uncached decoder, across beam reorderings', async () => {
     // Reference: decoder_model.onnx re-run on each row's whole prefix (no cache) — an independent graph.

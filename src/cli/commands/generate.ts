@@ -2,7 +2,10 @@
  * `treewright generate --model DIR --grammar G [--names F | --db F] [--unconstrained] [--beam K]
  * [--sample --temperature T --seed S] [--max-tokens N] [--json] "question"`: answers one question
  * with a seq2seq model folder, constrained by the grammar's token masks unless --unconstrained, and
- * reports whether the output parses and is well-typed. `--json` prints one object: text, tree,
+ * reports whether the output parses and is well-typed. The model's input is `<prefix><question>`
+ * (--prefix, else config.json's treewright.prefixes[grammar name], else "to <grammar name>: "; the
+ * prefix is not repeated when the question already starts with it). `--json` prints one object:
+ * question, input, text, tree,
  * parses, well_typed, parse_error, tokens, token_texts, logprobs, finished, score, strategy,
  * constrained, model_ms, mask_ms, total_ms. Exit code 0 when the output is well-typed, 2 when it is
  * not, 1 on an error (printed on stderr, naming the file).
@@ -25,6 +28,7 @@ interface Flags {
   topP?: string;
   seed?: string;
   maxTokens?: string;
+  prefix?: string;
   json?: boolean;
 }
 
@@ -47,7 +51,7 @@ export const register: RegisterCommand = (program: Command, setExit) => {
   program
     .command('generate')
     .description('answer a question with a seq2seq model, constrained to programs of a grammar')
-    .argument('<question>', 'the question (include the model\'s target prefix, e.g. "sql: ...")')
+    .argument('<question>', 'the question (the model\'s target prefix is put before it, see --prefix)')
     .requiredOption('--model <dir>', 'model folder (config.json, tokenizer.json, onnx/...)')
     .requiredOption('--grammar <g>', 'grammar description (.twg path, or a shipped grammar: sql, lf, arith, json)')
     .option('--names <file>', 'JSON bindings of the open name sets: {"Set": ["a", ...]}')
@@ -59,6 +63,7 @@ export const register: RegisterCommand = (program: Command, setExit) => {
     .option('--top-p <p>', 'sampling nucleus mass (default 1)')
     .option('--seed <s>', 'sampling seed (default 0)')
     .option('--max-tokens <n>', 'most tokens generated, end of sequence included (default 128)')
+    .option('--prefix <text>', 'text put before the question (default: the model config\'s treewright.prefixes[grammar], else "to <grammar name>: "; not repeated when the question starts with it)')
     .option('--json', 'print one JSON object on stdout')
     .action(async (question: string, f: Flags) => {
       try {
@@ -89,11 +94,14 @@ export const register: RegisterCommand = (program: Command, setExit) => {
           maxTokens: number('max-tokens', f.maxTokens, true),
         };
         const model = await loadModel(f.model);
-        const r = await generate(model, question, opts);
+        const prefix = f.prefix ?? model.prefixFor(grammar.name);
+        const input = question.startsWith(prefix) ? question : prefix + question;
+        const r = await generate(model, input, opts);
         if (f.json) {
           process.stdout.write(
             JSON.stringify({
               question,
+              input,
               text: r.text,
               tree: r.tree,
               parses: r.parses,
