@@ -25,6 +25,10 @@
  * or a JSON path into the request body. Checked descriptions are cached by content hash (64 most
  * recent). Binds 127.0.0.1 unless told otherwise.
  *
+ * Start-up: loads every model, compiles every grammar and the mask tables of every model × grammar
+ * pair (measured: 0.06–0.7 s per pair for the demo model's 1,100 tokens on the shared machine),
+ * and builds the demo database when no --db is given.
+ *
  * Worst-case cost: a generate request costs what decode/ costs (model steps × mask fills), plus
  * with `steps` one more mask fill per token; the other routes are linear in their input (parse is
  * ohm's O(n · rules)). Decoding runs on the main thread between onnxruntime calls, so at most about
