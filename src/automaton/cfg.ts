@@ -173,11 +173,10 @@ class Builder {
   }
 }
 
-/** Builds the RTN of `g`. Throws AutomatonError (file:line:col) for unsupported regexes. */
-export function buildRtn(g: Grammar): Rtn {
-  const b = new Builder();
+/** The DFA of every token class of `g` (`reserved` classes minus the keywords), by class index. */
+export function classDfas(g: Grammar): ByteDfa[] {
   const keywords = g.keywords.map((k) => utf8.encode(k));
-  const classDfa: ByteDfa[] = g.tokens.map((t) => {
+  return g.tokens.map((t) => {
     try {
       return compileRegex(t.pattern, t.flags, t.reserved ? keywords : []);
     } catch (e) {
@@ -185,6 +184,15 @@ export function buildRtn(g: Grammar): Rtn {
       throw e;
     }
   });
+}
+
+/**
+ * Builds the RTN of `g`. Throws AutomatonError (file:line:col) for unsupported regexes.
+ * `dfas`: the class DFAs when already compiled (the mask cache stores them).
+ */
+export function buildRtn(g: Grammar, dfas?: readonly ByteDfa[]): Rtn {
+  const b = new Builder();
+  const classDfa = dfas ?? classDfas(g);
   for (const t of g.tokens) {
     const d = classDfa[t.index];
     if (d.start === 0) throw located(g, t.span, `token class ${t.name} has no lexeme (after removing the keywords)`);

@@ -96,8 +96,9 @@ export class Automaton {
   /** the class terminal index whose DFA a terminal uses for precomputation, per terminal */
   readonly startNode: number;
 
-  constructor(readonly grammar: Grammar) {
-    this.rtn = buildRtn(grammar);
+  /** `dfas`: precompiled class DFAs (by class index), e.g. from the mask cache. */
+  constructor(readonly grammar: Grammar, dfas?: readonly ByteDfa[]) {
+    this.rtn = buildRtn(grammar, dfas);
     const { options, canPop } = closures(this.rtn, grammar);
     this.canPop = canPop;
     const n = options.length;

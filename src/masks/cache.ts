@@ -23,7 +23,8 @@ import type { Grammar } from '../description/ir.ts';
 import { deserializeVocabulary, loadVocabulary, VocabularyError, type Vocabulary } from '../vocab/index.ts';
 import { MaskEngine } from './engine.ts';
 import { MAX_LE, type ClassTables } from './precompute.ts';
-import { compileRegex } from '../automaton/regex.ts';
+import { Automaton } from '../automaton/pda.ts';
+import type { ByteDfa } from '../automaton/regex.ts';
 
 export const CACHE_FORMAT = 'TWMASK01';
 const MAGIC = Buffer.from(CACHE_FORMAT, 'latin1');
@@ -52,13 +53,22 @@ function pad4(n: number): number {
 export function serializeEngine(engine: MaskEngine, key: string): Buffer {
   const parts: Buffer[] = [];
   const classes = engine.classes.map((t) => (t === null ? null : { states: t.w0, kmax: Array.from(t.kmax), exits: t.exits.map((e) => e.length) }));
+  // the class DFAs (so loading skips regex compilation), by class index
+  const dfas = engine.grammar.tokens.map((tc) => engine.automaton.rtn.terminals.find((x) => x.tokenClass === tc.index && x.kind !== 'lit')?.dfa ?? null);
+  const dfaInfo = dfas.map((d) => (d === null ? null : { states: d.stateCount, start: d.start, shortest: d.shortest === null ? null : Array.from(d.shortest) }));
   const vocabBlob = Buffer.from(engine.vocab.serialize());
-  const header = Buffer.from(JSON.stringify({ format: CACHE_FORMAT, key, grammarHash: engine.grammar.hash, vocabBytes: vocabBlob.length, classes }), 'utf8');
+  const header = Buffer.from(JSON.stringify({ format: CACHE_FORMAT, key, grammarHash: engine.grammar.hash, vocabBytes: vocabBlob.length, classes, dfas: dfaInfo }), 'utf8');
   const len = Buffer.alloc(4);
   len.writeUInt32LE(header.length);
   parts.push(MAGIC, len, header, Buffer.alloc(pad4(header.length)));
   parts.push(vocabBlob, Buffer.alloc(pad4(vocabBlob.length)));
-  const u32 = (a: Uint32Array) => parts.push(Buffer.from(a.buffer, a.byteOffset, a.byteLength));
+  const u32 = (a: Uint32Array | Int32Array) => parts.push(Buffer.from(a.buffer, a.byteOffset, a.byteLength));
+  for (const d of dfas) {
+    if (d === null) continue;
+    u32(d.trans);
+    u32(d.minAccept);
+    u32(Uint32Array.from(d.accept));
+  }
   for (const t of engine.classes) {
     if (t === null) continue;
     for (let d = 1; d <= t.w0; d++) u32(t.inside[d]);
@@ -79,7 +89,14 @@ export function deserializeEngine(data: Buffer, grammar: Grammar, key: string, f
   if (!createHash('sha256').update(body).digest().equals(data.subarray(data.length - 32))) fail('checksum mismatch');
   const hlen = body.readUInt32LE(8);
   let pos = 12;
-  let header: { format: string; key: string; grammarHash: string; vocabBytes: number; classes: ({ states: number; kmax: number[]; exits: number[] } | null)[] };
+  let header: {
+    format: string;
+    key: string;
+    grammarHash: string;
+    vocabBytes: number;
+    classes: ({ states: number; kmax: number[]; exits: number[] } | null)[];
+    dfas: ({ states: number; start: number; shortest: number[] | null } | null)[];
+  };
   try {
     header = JSON.parse(body.subarray(pos, pos + hlen).toString('utf8'));
   } catch {
@@ -102,10 +119,21 @@ export function deserializeEngine(data: Buffer, grammar: Grammar, key: string, f
     w += n;
     return v;
   };
+  if (!Array.isArray(header.dfas) || header.dfas.length !== grammar.tokens.length) fail('DFA count mismatch');
+  const dfas: ByteDfa[] = header.dfas.map((d, i) => {
+    if (d === null) return fail(`class ${grammar.tokens[i].name} has no DFA`);
+    const trans = new Int32Array(take(d.states * 256));
+    const minAccept = new Int32Array(take(d.states));
+    const accept = Uint8Array.from(take(d.states));
+    return { stateCount: d.states, start: d.start, trans, accept, minAccept, shortest: d.shortest === null ? null : Uint8Array.from(d.shortest) };
+  });
+  const automaton = new Automaton(grammar, dfas);
   const tables: (ClassTables | null)[] = header.classes.map((c, i) => {
     if (c === null) return null;
     const t = grammar.tokens[i];
-    const dfa = compileRegex(t.pattern, t.flags, t.reserved ? grammar.keywords.map((k) => new TextEncoder().encode(k)) : []);
+    const term = automaton.rtn.terminals.find((x) => x.kind === 'class' && x.tokenClass === i);
+    if (!term) return fail(`class ${t.name} has tables but no terminal`);
+    const dfa = term.dfa;
     if (dfa.stateCount !== c.states) fail(`class ${t.name} has ${dfa.stateCount} states, the cache ${c.states}`);
     const w0 = c.states;
     const w0Trans = new Int32Array(256);
@@ -124,7 +152,7 @@ export function deserializeEngine(data: Buffer, grammar: Grammar, key: string, f
     return { dfa, w0, w0Trans, inside, le, kmax: Int32Array.from(c.kmax), exits };
   });
   if (w !== words.length) fail('trailing data');
-  return new MaskEngine(grammar, vocab, {}, tables);
+  return new MaskEngine(grammar, vocab, {}, tables, automaton);
 }
 
 export interface LoadResult {

@@ -75,9 +75,9 @@ export class MaskEngine {
   /** per non-space byte b: trie nodes for "one or more spaces, then b" */
   readonly wsChildren: Int32Array[];
 
-  constructor(readonly grammar: Grammar, readonly vocab: Vocabulary, opts: CompileOptions = {}, tables?: (ClassTables | null)[]) {
+  constructor(readonly grammar: Grammar, readonly vocab: Vocabulary, opts: CompileOptions = {}, tables?: (ClassTables | null)[], automaton?: Automaton) {
     const t0 = performance.now();
-    this.automaton = new Automaton(grammar);
+    this.automaton = automaton ?? new Automaton(grammar);
     this.trie = vocab.trie;
     this.nWords = (vocab.vocabSize + 31) >>> 5;
     const trie = this.trie;
@@ -95,19 +95,19 @@ export class MaskEngine {
     }
     // direct child tables for wide trie nodes (the root, " ", …): O(1) child lookup
     this.wide = new Int32Array(trie.nodeCount).fill(-1);
-    const direct: number[] = [];
     let nWide = 0;
     for (let n = 0; n < trie.nodeCount; n++) {
       if (trie.end[n] === n + 1) continue;
       let k = 0;
       for (let c = n + 1; c < trie.end[n] && k < WIDE; c = trie.end[c]) k++;
-      if (k < WIDE) continue;
-      this.wide[n] = nWide++;
-      const base = direct.length;
-      for (let b = 0; b < 256; b++) direct.push(-1);
-      for (let c = n + 1; c < trie.end[n]; c = trie.end[c]) direct[base + trie.byte[c]] = c;
+      if (k >= WIDE) this.wide[n] = nWide++;
     }
-    this.wideChild = Int32Array.from(direct);
+    this.wideChild = new Int32Array(nWide * 256).fill(-1);
+    for (let n = 0; n < trie.nodeCount; n++) {
+      const w = this.wide[n];
+      if (w < 0) continue;
+      for (let c = n + 1; c < trie.end[n]; c = trie.end[c]) this.wideChild[w * 256 + trie.byte[c]] = c;
+    }
     this.firstByte = new Uint8Array(trie.nodeCount);
     for (let n = 1; n < trie.nodeCount; n++) this.firstByte[n] = trie.depth[n] === 1 ? trie.byte[n] : this.firstByte[n - 1];
     this.spaceBytes = Uint8Array.from([...Array(256).keys()].filter((b) => this.automaton.rtn.space[b]));

@@ -15,7 +15,7 @@ import { existsSync, mkdtempSync, readdirSync, readFileSync, writeFileSync, mkdi
 import { loadavg, tmpdir } from 'node:os';
 import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
-import type { Command } from 'commander';
+import { Option, type Command } from 'commander';
 import type { Grammar, NameBindings } from '../../description/ir.ts';
 import { cacheKey, defaultCacheDir, loadOrCompile, MaskEngine, serializeEngine } from '../../masks/index.ts';
 import { buildSqliteFileFrom } from '../../exec/database.ts';
@@ -65,9 +65,81 @@ function defaultNames(grammar: Grammar): NameBindings {
 const percentile = (sorted: number[], q: number) => sorted[Math.min(sorted.length - 1, Math.floor(sorted.length * q))];
 const round = (x: number, d = 1) => Math.round(x * 10 ** d) / 10 ** d;
 
+/** Decoding paths written by the parent for the replay process. */
+interface Replay {
+  names: NameBindings;
+  paths: number[][];
+  maxLen: number;
+}
+
+/** Mask timings along the paths, in this process (the replay child: engine from the cache only). */
+function replayPaths(grammar: Grammar, tokenizerPath: string, replay: Replay, cache: string): Omit<BenchResult, 'preprocess_ms' | 'vocab_load_ms' | 'programs' | 'tokenizer' | 'grammar' | 'load_average'> {
+  const grammarText = readFileSync(grammar.file, 'utf8');
+  const t = performance.now();
+  const hit = loadOrCompile(grammar, grammarText, tokenizerPath, cache);
+  const cacheLoadMs = performance.now() - t;
+  if (!hit.fromCache) throw new UsageError(`${hit.file}: the cache file written for this run was not used (${hit.warning ?? 'no reason given'})`);
+  const engine = hit.engine;
+  const c = engine.bind(replay.names);
+  c.prepare();
+  const mask = new Uint32Array((engine.vocab.vocabSize + 31) >>> 5);
+  const walk = (measure: number[] | null) => {
+    for (const ids of replay.paths) {
+      let s = c.start();
+      for (let i = 0; i < ids.length; i++) {
+        const t0 = performance.now();
+        c.fillMask(s, replay.maxLen - i, mask);
+        if (measure) measure.push((performance.now() - t0) * 1000);
+        s = c.advance(s, ids[i]);
+      }
+    }
+  };
+  walk(null); // warm-up (JIT, first-use dispatch tables)
+  const times: number[] = [];
+  walk(times);
+  times.sort((a, b) => a - b);
+  // naive baseline on evenly spaced steps of the same paths
+  const states: { s: ReturnType<typeof c.start>; i: number }[] = [];
+  for (const ids of replay.paths) {
+    let s = c.start();
+    for (let i = 0; i < ids.length; i++) {
+      states.push({ s, i });
+      s = c.advance(s, ids[i]);
+    }
+  }
+  const naiveSteps = Math.min(20, states.length);
+  const naive: number[] = [];
+  for (let k = 0; k < naiveSteps; k++) {
+    const { s, i } = states[Math.floor((k * states.length) / naiveSteps)];
+    const t0 = performance.now();
+    c.fillMaskNaive(s, replay.maxLen - i, mask);
+    naive.push((performance.now() - t0) * 1000);
+  }
+  naive.sort((a, b) => a - b);
+  const median = percentile(times, 0.5);
+  const naiveMedian = percentile(naive, 0.5);
+  return {
+    vocab_size: engine.vocab.vocabSize,
+    steps: times.length,
+    mask_us_median: round(median),
+    mask_us_p99: round(percentile(times, 0.99)),
+    mask_us_max: round(times[times.length - 1]),
+    naive_us_median: round(naiveMedian, 0),
+    naive_steps: naive.length,
+    speedup: round(naiveMedian / median, 0),
+    cache_load_ms: round(cacheLoadMs, 0),
+    rss_mb: round(process.memoryUsage().rss / 2 ** 20, 0),
+  };
+}
+
+/**
+ * The whole benchmark: preprocessing here (vocabulary index, tables, local masks), the cache file,
+ * the paths (transformers.js encodings of sampled programs); then a fresh process loads the engine
+ * from the cache and times the masks, so cache-load time and RSS are those of a decoder that only
+ * needs the masks.
+ */
 export async function runBench(grammar: Grammar, tokenizerPath: string, names: NameBindings, opts: { programs: number; seed: number; cache: string | false }): Promise<BenchResult> {
   const grammarText = readFileSync(grammar.file, 'utf8');
-  // preprocessing: vocabulary index, mask tables, binding and local masks
   let t = performance.now();
   const vocab = reportingMaskErrors(() => loadVocabulary(tokenizerPath));
   const vocabLoadMs = performance.now() - t;
@@ -76,18 +148,10 @@ export async function runBench(grammar: Grammar, tokenizerPath: string, names: N
   const c = reportingMaskErrors(() => engine.bind(names));
   c.prepare();
   const preprocessMs = performance.now() - t;
-  // cache: write, then time a load that must hit
-  let cacheLoadMs = NaN;
-  if (opts.cache !== false) {
-    const key = cacheKey(grammarText, tokenizerPath);
-    mkdirSync(opts.cache, { recursive: true });
-    writeFileSync(join(opts.cache, `${key}.twmask`), serializeEngine(engine, key));
-    t = performance.now();
-    const hit = loadOrCompile(grammar, grammarText, tokenizerPath, opts.cache);
-    cacheLoadMs = performance.now() - t;
-    if (!hit.fromCache) throw new UsageError(`${hit.file}: the cache file just written was not used (${hit.warning ?? 'no reason given'})`);
-  }
-  // decoding paths: the tokenizer's own encodings of sampled programs
+  const cacheDir = opts.cache === false ? mkdtempSync(join(tmpdir(), 'tw-bench-cache-')) : opts.cache;
+  const key = cacheKey(grammarText, tokenizerPath);
+  mkdirSync(cacheDir, { recursive: true });
+  writeFileSync(join(cacheDir, `${key}.twmask`), serializeEngine(engine, key));
   const { PreTrainedTokenizer } = await import('@huggingface/transformers');
   const configPath = join(dirname(tokenizerPath), 'tokenizer_config.json');
   const tokenizer = new PreTrainedTokenizer(JSON.parse(readFileSync(tokenizerPath, 'utf8')), existsSync(configPath) ? JSON.parse(readFileSync(configPath, 'utf8')) : {});
@@ -99,59 +163,21 @@ export async function runBench(grammar: Grammar, tokenizerPath: string, names: N
     const spelled = Buffer.concat(ids.map((id) => vocab.bytesOf(id))).toString('utf8');
     if (spelled === text || spelled === text.normalize('NFC')) paths.push(ids);
   }
-  const MAX_LEN = 512;
-  const mask = new Uint32Array((vocab.vocabSize + 31) >>> 5);
-  const walk = (measure: number[] | null) => {
-    for (const ids of paths) {
-      let s = c.start();
-      for (let i = 0; i < ids.length; i++) {
-        const t0 = performance.now();
-        c.fillMask(s, MAX_LEN - i, mask);
-        if (measure) measure.push((performance.now() - t0) * 1000);
-        s = c.advance(s, ids[i]);
-      }
-    }
-  };
-  walk(null); // warm-up (JIT, first-use tables)
-  const times: number[] = [];
-  walk(times);
-  times.sort((a, b) => a - b);
-  // naive baseline on evenly spaced steps of the same paths
-  const allStates: { s: ReturnType<typeof c.start>; i: number }[] = [];
-  for (const ids of paths) {
-    let s = c.start();
-    for (let i = 0; i < ids.length; i++) {
-      allStates.push({ s, i });
-      s = c.advance(s, ids[i]);
-    }
-  }
-  const naiveSteps = Math.min(20, allStates.length);
-  const naive: number[] = [];
-  for (let k = 0; k < naiveSteps; k++) {
-    const { s, i } = allStates[Math.floor((k * allStates.length) / naiveSteps)];
-    const t0 = performance.now();
-    c.fillMaskNaive(s, MAX_LEN - i, mask);
-    naive.push((performance.now() - t0) * 1000);
-  }
-  naive.sort((a, b) => a - b);
-  const median = percentile(times, 0.5);
-  const naiveMedian = percentile(naive, 0.5);
+  const replayFile = join(mkdtempSync(join(tmpdir(), 'tw-bench-')), 'paths.json');
+  writeFileSync(replayFile, JSON.stringify({ names, paths, maxLen: 512 } satisfies Replay));
+  const out = execFileSync(
+    process.execPath,
+    [join(ROOT, 'src/cli/treewright.mjs'), 'bench', '--replay', replayFile, '--grammar', grammar.file, '--tokenizer', tokenizerPath, '--cache', cacheDir, '--json'],
+    { encoding: 'utf8', stdio: ['ignore', 'pipe', 'inherit'], maxBuffer: 1 << 26 },
+  );
+  const child = JSON.parse(out);
   return {
     grammar: grammar.name,
     tokenizer: tokenizerPath,
-    vocab_size: vocab.vocabSize,
     programs: paths.length,
-    steps: times.length,
-    mask_us_median: round(median),
-    mask_us_p99: round(percentile(times, 0.99)),
-    mask_us_max: round(times[times.length - 1]),
-    naive_us_median: round(naiveMedian, 0),
-    naive_steps: naive.length,
-    speedup: round(naiveMedian / median, 0),
+    ...child,
     preprocess_ms: round(preprocessMs, 0),
     vocab_load_ms: round(vocabLoadMs, 0),
-    cache_load_ms: round(cacheLoadMs, 0),
-    rss_mb: round(process.memoryUsage().rss / 2 ** 20, 0),
     load_average: round(loadavg()[0], 1),
   };
 }
@@ -182,8 +208,16 @@ export const register: RegisterCommand = (program: Command, setExit) => {
     .option('--seed <n>', 'sampler seed', '1')
     .option('--json', 'print the figures as JSON on stdout')
     .option('--cache <dir>', 'mask cache directory', defaultCacheDir())
-    .option('--no-cache', 'skip the cache write/load measurement')
-    .action(async (opts: { grammar?: string; tokenizer?: string; all?: boolean; names?: string; db?: string; programs: string; seed: string; json?: boolean; cache: string | false }) => {
+    .option('--no-cache', 'keep the cache file of this run in a temporary directory')
+    .addOption(new Option('--replay <file>', 'internal: time the masks on the paths in FILE, engine from the cache').hideHelp())
+    .action(async (opts: { grammar?: string; tokenizer?: string; all?: boolean; names?: string; db?: string; programs: string; seed: string; json?: boolean; cache: string | false; replay?: string }) => {
+      if (opts.replay) {
+        const grammar = resolveGrammar(opts.grammar!);
+        const replay = JSON.parse(readFileSync(opts.replay, 'utf8')) as Replay;
+        process.stdout.write(JSON.stringify(replayPaths(grammar, opts.tokenizer!, replay, opts.cache as string)) + '\n');
+        setExit(0);
+        return;
+      }
       const programs = Number(opts.programs);
       const seed = Number(opts.seed);
       if (!Number.isInteger(programs) || programs < 1) {
