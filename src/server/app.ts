@@ -381,6 +381,11 @@ export async function buildServer(registry: Registry, limits: ServerLimits = {})
     const maxTokens = b.max_tokens ?? Math.min(128, limit);
     const prefix = b.prefix ?? `${g.grammar.name}: `;
     const question = b.question.startsWith(prefix) ? b.question : prefix + b.question;
+    // the encoder has fixed positions; a longer input would fail inside onnxruntime
+    const inputTokens = m.model.encodeQuestion(question).length;
+    if (inputTokens > m.model.config.maxPositions) {
+      throw badField('$.question', `${inputTokens} tokens (with the prefix ${JSON.stringify(prefix)})`, `at most ${m.model.config.maxPositions} tokens for model ${m.id}`);
+    }
     const strategy = b.beam !== undefined ? 'beam' : b.sample ? 'sample' : 'greedy';
     stats.generated++;
     return withSlot(async () => {

@@ -320,6 +320,11 @@ describe('POST /api/generate', () => {
       expect(res.json().error.message.startsWith(`${location}: `)).toBe(true);
     }
     expect((await post('/api/generate', { question: q, grammar: 'lf', max_tokens: 500 })).json().error.message).toBe('$.max_tokens: found 500; expected at most 127 for model tiny-seq2seq');
+    // a question longer than the encoder's positions (config.json: max_position_embeddings)
+    const config = JSON.parse(readFileSync(`${FIXTURE}/config.json`, 'utf8'));
+    const long = await post('/api/generate', { question: 'pears '.repeat(config.max_position_embeddings), grammar: 'lf' });
+    expect(long.statusCode).toBe(400);
+    expect(long.json().error.message).toMatch(new RegExp(`^\\$\\.question: found \\d+ tokens \\(with the prefix "lf: "\\); expected at most ${config.max_position_embeddings} tokens for model tiny-seq2seq$`));
   });
 });
 
