@@ -102,6 +102,14 @@ describe('playground page', () => {
       el.dispatchEvent(new Event('input'));
     });
     const partial = (await page.textContent('#c-sofar'))!;
+    // the list of tokens allowed after the text so far holds the token the decoder chose next
+    await page.waitForSelector('#c-allowed[data-count]');
+    const nextToken = await page.$eval('#c-tokens .chip:nth-child(4)', (e) => (e as HTMLElement).title);
+    const nextId = /\(id (\d+)\)/.exec(nextToken)![1];
+    const allowedIds = (await page.getAttribute('#c-allowed', 'data-ids'))!.split(' ');
+    const allowedCount = Number(await page.getAttribute('#c-allowed', 'data-count'));
+    expect(allowedIds.length).toBe(allowedCount); // all of them fit the page's request of 500
+    expect(allowedIds).toContain(nextId);
     expect(code.startsWith(partial)).toBe(true);
     expect(partial.length).toBeLessThan(code.length);
     expect(await page.$$eval('#c-tree .node.open', (els) => els.length)).toBeGreaterThan(0);

@@ -158,6 +158,13 @@ function renderRun(key, run, upto) {
 
   const parts = [chips, chart(run, shown), caption, el('div', { class: 'note', text: 'text so far' }), sofar];
 
+  // the tokens the grammar allows after the text so far (asked from /api/mask when not playing)
+  if (run.left_grammar_at === null || shown <= run.left_grammar_at) {
+    const allowedBox = el('div', { class: 'allowed', id: `${key}-allowed` });
+    parts.push(el('div', { class: 'note', text: 'allowed next (no length budget)' }), allowedBox);
+    if (state.timer === null) scheduleAllowed(key, run, cur ? cur.text : '', allowedBox);
+  }
+
   parts.push(el('div', { class: 'note', text: 'tree' }));
   const treeBox = el('div', { class: 'tree', id: `${key}-tree` });
   if (run.tree_view) {
@@ -189,6 +196,25 @@ function renderRun(key, run, upto) {
     parts.push(answer);
   }
   panel.replaceChildren(...parts);
+}
+
+const allowedTimers = {};
+function scheduleAllowed(key, run, prefix, box) {
+  clearTimeout(allowedTimers[key]);
+  box.textContent = '…';
+  allowedTimers[key] = setTimeout(async () => {
+    try {
+      const r = await api('/api/mask', { grammar: run.grammar, model: run.model, prefix, sample: 500 });
+      if (!box.isConnected) return;
+      box.dataset.count = String(r.allowed_count);
+      box.dataset.ids = r.allowed.map((t) => t.id).join(' ');
+      const shownTokens = r.allowed.slice(0, 60).map((t) => el('span', { class: 'tok', 'data-id': String(t.id), text: t.text.replace(/ /g, '\u2423') }));
+      const more = r.allowed_count > shownTokens.length ? el('span', { class: 'note', text: ` … ${r.allowed_count - shownTokens.length} more` }) : null;
+      box.replaceChildren(el('span', { class: 'note', text: `${r.allowed_count}${r.complete ? ' (end allowed)' : ''}: ` }), ...shownTokens, more ?? '');
+    } catch (e) {
+      if (box.isConnected) box.textContent = e.message;
+    }
+  }, 120);
 }
 
 function formatAnswer(v) {
