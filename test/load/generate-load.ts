@@ -79,14 +79,14 @@ const body = (i: number) => ({
   max_tokens: maxTokens,
 });
 
-async function one(i: number): Promise<{ ms: number; status: number }> {
+async function one(i: number): Promise<{ ms: number; status: number; decodeMs: number | null; wellTyped: boolean }> {
   const t0 = performance.now();
   try {
     const res = await fetch(`${base}api/generate`, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify(body(i)) });
-    await res.arrayBuffer();
-    return { ms: performance.now() - t0, status: res.status };
+    const json = (await res.json()) as { total_ms?: number; well_typed?: boolean };
+    return { ms: performance.now() - t0, status: res.status, decodeMs: json.total_ms ?? null, wellTyped: json.well_typed === true };
   } catch {
-    return { ms: performance.now() - t0, status: 0 }; // connection-level failure
+    return { ms: performance.now() - t0, status: 0, decodeMs: null, wellTyped: false }; // connection-level failure
   }
 }
 
@@ -100,6 +100,7 @@ const latencies: number[] = [];
 const byStatus = new Map<number, number>();
 let next = 0;
 let wellTyped = 0;
+const decodeMs: number[] = [];
 const t0 = performance.now();
 const deadline = Date.now() + maxSeconds * 1000;
 let rssQuarter = 0;
@@ -111,7 +112,8 @@ await Promise.all(
       const r = await one(i);
       latencies.push(r.ms);
       byStatus.set(r.status, (byStatus.get(r.status) ?? 0) + 1);
-      if (r.status === 200) wellTyped++;
+      if (r.decodeMs !== null) decodeMs.push(r.decodeMs);
+      if (r.wellTyped) wellTyped++;
       if (latencies.length === Math.floor(count / 4)) rssQuarter = rssKb(pid);
     }
   }),
@@ -123,6 +125,7 @@ server.kill('SIGTERM');
 await new Promise((r) => server.on('exit', r));
 
 latencies.sort((a, b) => a - b);
+decodeMs.sort((a, b) => a - b);
 const errors = [...byStatus].filter(([s]) => s !== 200).reduce((n, [, c]) => n + c, 0);
 const report = {
   model: modelDir,
@@ -136,6 +139,9 @@ const report = {
   p50_ms: Number(quantile(latencies, 0.5).toFixed(1)),
   p99_ms: Number(quantile(latencies, 0.99).toFixed(1)),
   max_ms: Number(latencies[latencies.length - 1].toFixed(1)),
+  decode_p50_ms: Number(quantile(decodeMs, 0.5).toFixed(1)),
+  decode_p99_ms: Number(quantile(decodeMs, 0.99).toFixed(1)),
+  well_typed: wellTyped,
   errors,
   by_status: Object.fromEntries([...byStatus].sort((a, b) => a[0] - b[0])),
   rss_kb: { before: rssBefore, after_quarter: rssQuarter, after: rssAfter, peak: Math.max(rssBefore, rssAfter, ...samples) },
@@ -146,6 +152,8 @@ process.stdout.write(
   `model        ${report.model} (${report.model_kind})\n` +
     `requests     ${report.requests} of ${count} planned, concurrency ${concurrency}, max_tokens ${maxTokens}, ${report.wall_s} s (${report.throughput_rps} req/s)\n` +
     `latency      p50 ${report.p50_ms} ms · p99 ${report.p99_ms} ms · max ${report.max_ms} ms\n` +
+    `decode       p50 ${report.decode_p50_ms} ms · p99 ${report.decode_p99_ms} ms (server-side total_ms of one decode; the rest of the latency is waiting for a slot)\n` +
+    `well-typed   ${wellTyped} of ${report.requests} outputs (one in eight requests is unconstrained)\n` +
     `statuses     ${Object.entries(report.by_status).map(([s, c]) => `${s}: ${c}`).join(', ')} (errors: ${errors})\n` +
     `server RSS   before ${mb(rssBefore)} · after 1/4 ${mb(rssQuarter)} · after ${mb(rssAfter)} · peak ${mb(report.rss_kb.peak)}\n`,
 );
