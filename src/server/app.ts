@@ -96,8 +96,9 @@ function at(value: unknown, pointer: string): unknown {
 }
 
 const show = (v: unknown) => {
+  if (typeof v === 'string' && v.length > 40) return `${JSON.stringify(v.slice(0, 40))}… (${v.length} characters)`;
   const s = JSON.stringify(v);
-  return s === undefined ? 'nothing' : s.length > 60 ? `${s.slice(0, 57)}...` : s;
+  return s === undefined ? 'nothing' : s.length > 60 ? `${s.slice(0, 57)}…` : s;
 };
 
 interface AjvIssue {
@@ -117,7 +118,16 @@ function validationError(issue: AjvIssue, body: unknown): ApiError {
     return new ApiError(400, 'invalid_request', `${path}: unknown field; expected only the fields the API describes (GET /api/openapi.json)`, path);
   }
   const path = jsonPath(issue.instancePath);
-  const expected = (issue.message ?? 'a valid value').replace(/^must (be )?/, '').replace(/^have /, 'to have ');
+  const p = issue.params;
+  const article = (t: string) => (/^[aeiou]/.test(t) ? `an ${t}` : `a ${t}`);
+  const expected =
+    issue.keyword === 'type' ? String(p.type).split(',').map(article).join(' or ')
+    : issue.keyword === 'maxLength' ? `a string of at most ${p.limit} characters`
+    : issue.keyword === 'minLength' ? `a string of at least ${p.limit} character${p.limit === 1 ? '' : 's'}`
+    : issue.keyword === 'maxItems' ? `at most ${p.limit} items`
+    : issue.keyword === 'maximum' || issue.keyword === 'minimum' || issue.keyword === 'exclusiveMaximum' || issue.keyword === 'exclusiveMinimum' ? `a number ${p.comparison} ${p.limit}`
+    : issue.keyword === 'enum' ? `one of ${(p.allowedValues as unknown[]).map((v) => JSON.stringify(v)).join(', ')}`
+    : (issue.message ?? 'a valid value').replace(/^must (be )?/, '');
   return new ApiError(400, 'invalid_request', `${path}: found ${show(at(body, issue.instancePath))}; expected ${expected}`, path);
 }
 

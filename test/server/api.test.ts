@@ -124,6 +124,12 @@ describe('POST /api/check', () => {
     expect(list.find((g: { id: string }) => g.id === a.id)).toMatchObject({ origin: 'checked', name: 'arith' });
   });
 
+  it('refuses a description over 64 KiB by JSON path', async () => {
+    const res = await post('/api/check', { text: '#'.repeat(65537) });
+    expect(res.statusCode).toBe(400);
+    expect(res.json().error.message).toBe(`$.text: found "${'#'.repeat(40)}"… (65537 characters); expected a string of at most 65536 characters`);
+  });
+
   it('names a missing field by JSON path', async () => {
     const res = await post('/api/check', { file: 'x.twg' });
     expect(res.statusCode).toBe(400);
