@@ -61,7 +61,7 @@ export const checkSchema = {
     type: 'object',
     additionalProperties: false,
     required: ['text'],
-    properties: { text: { type: 'string', maxLength: 65536, description: 'compiling is synchronous: a large description holds the server for its duration (about 4 s for 64 KB)' }, file: { type: 'string', maxLength: 200, default: 'description.twg' } },
+    properties: { text: { type: 'string', maxLength: 65536, description: 'compiling is synchronous: a large description holds the server for its duration (measured: 2.6 s for a synthetic 64 KB description of 965 sorts on the shared machine)' }, file: { type: 'string', maxLength: 200, default: 'description.twg' } },
   },
   response: {
     200: {
