@@ -10,7 +10,7 @@
  *   vocabulary index                Vocabulary.serialize() (its own checksum)
  *   per class with tables: inside bitsets for states 1..W0, then le bitsets (kmax[d] capped at
  *   MAX_LE per state, in state order), then the exit node lists (u32)
- *   sha256 of everything above      (32 bytes)
+ *   sha256 of everything above except the vocabulary section (it has its own)  (32 bytes)
  * The automaton itself is rebuilt from the description (milliseconds); per-binding local masks
  * are not cached (computed on first use, ~0.1 s for the shipped grammars).
  * A damaged or foreign file is reported (CacheError) and rebuilt by `loadOrCompile`.
@@ -76,7 +76,11 @@ export function serializeEngine(engine: MaskEngine, key: string): Buffer {
     for (let d = 1; d <= t.w0; d++) u32(t.exits[d]);
   }
   const body = Buffer.concat(parts);
-  return Buffer.concat([body, createHash('sha256').update(body).digest()]);
+  // the checksum skips the vocabulary section, which carries its own
+  const vocabStart = 12 + header.length + pad4(header.length);
+  const vocabEnd = vocabStart + vocabBlob.length + pad4(vocabBlob.length);
+  const sum = createHash('sha256').update(body.subarray(0, vocabStart)).update(body.subarray(vocabEnd)).digest();
+  return Buffer.concat([body, sum]);
 }
 
 /** Reads what `serializeEngine` wrote; throws CacheError when the file is damaged or for another key. */
@@ -86,8 +90,8 @@ export function deserializeEngine(data: Buffer, grammar: Grammar, key: string, f
   };
   if (data.length < 8 + 4 + 32 || !data.subarray(0, 8).equals(MAGIC)) fail('wrong magic');
   const body = data.subarray(0, data.length - 32);
-  if (!createHash('sha256').update(body).digest().equals(data.subarray(data.length - 32))) fail('checksum mismatch');
   const hlen = body.readUInt32LE(8);
+  if (12 + hlen > body.length) fail('truncated header');
   let pos = 12;
   let header: {
     format: string;
@@ -102,6 +106,11 @@ export function deserializeEngine(data: Buffer, grammar: Grammar, key: string, f
   } catch {
     return fail('bad header');
   }
+  const vocabStart = 12 + hlen + pad4(hlen);
+  const vocabEnd = vocabStart + header.vocabBytes + pad4(header.vocabBytes);
+  if (!(vocabEnd <= body.length)) fail('truncated');
+  const sum = createHash('sha256').update(body.subarray(0, vocabStart)).update(body.subarray(vocabEnd)).digest();
+  if (!sum.equals(data.subarray(data.length - 32))) fail('checksum mismatch');
   if (header.format !== CACHE_FORMAT || header.key !== key || header.grammarHash !== grammar.hash) fail('key mismatch');
   if (header.classes.length !== grammar.tokens.length) fail('class count mismatch');
   pos += hlen + pad4(hlen);
