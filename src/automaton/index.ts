@@ -18,8 +18,8 @@
  * pathological regexes, capped at 20,000 states).
  *
  * Limits: regexes without lookaround, back-references or \b; left recursion through non-operator
- * layouts is refused; a `bound` field is treated as live whenever some variable is in scope (the
- * shipped lf grammar only reaches bound fields inside binders or next to an Entity alternative).
+ * layouts is refused; a `new` field inside an operator constructor stays in scope for the rest of
+ * that precedence level (no shipped grammar has one); leading and trailing spaces are accepted.
  */
 export { Automaton, Bound, BindError, Thread, Frame, Env, WORD, INF, type PdaState } from './pda.ts';
 export { buildRtn, closures, AutomatonError, type Rtn, type Terminal, type TerminalKind } from './cfg.ts';

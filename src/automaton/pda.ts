@@ -16,8 +16,8 @@
  *
  * Invariants (established by construction, relied on by the masks):
  * - Every thread of a state is viable: it has a completion under the bound names (options and
- *   pushed frames are filtered by the liveness tables of `Bound`), except for the scoping caveat
- *   in DEVELOPERS text: a `bound` field is live when some variable is in scope.
+ *   pushed frames are filtered by the liveness tables of `Bound`, computed per mode: with no
+ *   variable in scope a `bound` field is dead, with some it is live).
  * - A state with no thread is dead; `viable(state)` is one comparison (threads.length !== 0).
  * - The word-boundary rule: a terminal may start with a word byte only if the previous byte was
  *   not a word byte (a space between two tokens resets it).
@@ -93,7 +93,7 @@ export class Automaton {
   readonly optTarget: Int32Array;
   readonly optPush: readonly Int32Array[];
   readonly canPop: Uint8Array;
-  /** the class terminal index whose DFA a terminal uses for precomputation, per terminal */
+  /** the start sort's entry node (BETWEEN thread of the start state) */
   readonly startNode: number;
 
   /** `dfas`: precompiled class DFAs (by class index), e.g. from the mask cache. */

@@ -187,7 +187,6 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
   private mask: Uint32Array = new Uint32Array(0);
   private lim = INF;
   private rootPrevWord = false;
-  private readonly pathBytes = new Uint8Array(4096);
   private readonly scratch: Thread[] = [];
   /** largest completion distance of a token marked since the last reset (for local masks) */
   private maxSeen = 0;

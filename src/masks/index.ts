@@ -10,13 +10,17 @@
  *   c.fillMask(s, 64, mask);              // bit id set ⇔ token id keeps the output a program prefix
  *   s = c.advance(s, id);                 // persistent: the old s is still valid (beams, rollback)
  *
- * Design (see DEVELOPERS.md, "Token masks"): per token-class DFA state, precomputed bitsets of the
- * tokens that stay inside the lexeme and the trie nodes where a lexeme can end inside a token;
- * everything else is a trie walk pruned at the first byte no parse can read.
+ * Design (DEVELOPERS.md, "Token masks"): per token-class DFA state, precomputed bitsets of the
+ * tokens that stay inside the lexeme and the trie nodes where a lexeme can end inside a token; per
+ * RTN node (and binding), a stack-independent "local mask" and the trie nodes where the rest of the
+ * stack matters; everything else is a trie walk pruned at the first byte no parse can read.
+ * `loadOrCompile` keeps grammar × vocabulary tables in a cache file keyed by both content hashes.
  *
- * Worst-case cost per mask: O(threads × (bitset words × budget levels + visited trie nodes)); the
- * visited nodes are bounded by the tokens that begin with a literal, a name or a lexeme end.
- * Limits: see automaton/index.ts (ambiguity cap, regex subset, scoping caveat).
+ * Worst-case cost per mask: O(threads × (bitset words × pop depth + trie nodes walked below pop
+ * points and exit nodes)). Measured at 128k ids (llama3, SQL/JSON): median 6–12 µs, p99 < 0.2 ms,
+ * 3,000–5,000× faster than trying every token; tables 0.4–0.9 s; cache load 0.14–0.22 s.
+ * Limits: see automaton/index.ts (regex subset, ambiguity cap); grammars with `new`/`bound` fields
+ * walk instead of using local masks; masks follow token-class regexes, not value ranges.
  */
 export { MaskEngine, MaskConstraint, MaskError, type MaskState, type CompileOptions } from './engine.ts';
 import type { Grammar } from '../description/ir.ts';

@@ -24,4 +24,12 @@ export interface TokenConstraint<S = unknown> {
   advance(state: S, id: number): S;
   /** True when the text emitted so far is a complete program (so an EOS id is allowed). */
   isComplete(state: S): boolean;
+  /**
+   * Optional: a number of tokens (EOS included) that surely suffices to finish from `state`. With
+   * `budget ≥ tokensToComplete(start)` at the first step, every output ends complete within the
+   * budget (the mask engine's bound: see DEVELOPERS.md, "Token masks").
+   */
+  tokensToComplete?(state: S): number;
+  /** Optional: false when no program starts with the text so far (e.g. after raw text was forced). */
+  viable?(state: S): boolean;
 }
