@@ -14,6 +14,7 @@ import { MaskError } from '../masks/index.ts';
 import { ModelError, type Seq2SeqModel } from '../model/index.ts';
 import { checkNames, createParser, NamesError, ParseError, printTree, TreeError } from '../tree/index.ts';
 import { ApiError, badField, bodyTooLarge, notFound, overloaded, parseJsonBody, timeLimit } from './errors.ts';
+import { CheckTimeout } from './checker.ts';
 import { Gate } from './gate.ts';
 import type { GrammarEntry, ModelEntry, Registry } from './registry.ts';
 import * as S from './schemas.ts';
@@ -284,7 +285,12 @@ export async function buildServer(registry: Registry, limits: ServerLimits = {})
 
   app.post('/api/check', { schema: S.checkSchema }, async (req) => {
     const body = req.body as { text: string; file: string };
-    return registry.check(body.text, body.file);
+    try {
+      return await withSlot(() => registry.check(body.text, body.file));
+    } catch (e) {
+      if (e instanceof CheckTimeout) throw new ApiError(504, 'time_limit', `$.text: ${e.message} and was stopped; expected a smaller description`, '$.text');
+      throw e;
+    }
   });
 
   app.post('/api/parse', { schema: S.parseSchema }, async (req) => {

@@ -22,8 +22,9 @@
  * 30 s, checked before every decoder step → 504), at most `maxActive` model/executor requests at
  * once with `maxQueued` waiting (defaults 2 and 64) — beyond that 503 at once, never an unbounded
  * queue. Every error is JSON `{error: {code, message, location?}}`, the location a `file:line:col`
- * or a JSON path into the request body. Checked descriptions are cached by content hash (64 most
- * recent). Binds 127.0.0.1 unless told otherwise.
+ * or a JSON path into the request body. Checked descriptions are compiled in a worker thread
+ * (checker.ts; 10 s limit → 504, 64 KiB text limit) and cached by content hash (64 most recent).
+ * Binds 127.0.0.1 unless told otherwise.
  *
  * Start-up: loads every model, compiles every grammar and the mask tables of every model × grammar
  * pair (measured: 0.06–0.7 s per pair for the demo model's 1,100 tokens on the shared machine),

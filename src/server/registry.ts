@@ -17,6 +17,7 @@ import type { FactBase } from '../exec/facts.ts';
 import { loadModel, type Seq2SeqModel } from '../model/index.ts';
 import { checkNames, loadNames, namesFromDatabase } from '../tree/index.ts';
 import { lineColumn } from '../util/source.ts';
+import { Checker } from './checker.ts';
 
 export const REPO = resolve(dirname(fileURLToPath(import.meta.url)), '..', '..');
 export const SHIPPED = ['sql', 'lf', 'arith', 'json'] as const;
@@ -73,6 +74,8 @@ export interface RegistryOptions {
   readonly sqlTimeoutMs?: number;
   /** onnxruntime threads per session */
   readonly threads?: number;
+  /** time limit of one /api/check compile in ms (default 10 000) */
+  readonly checkTimeoutMs?: number;
   /** compile the mask tables of every model × startup grammar while opening (default true) */
   readonly warm?: boolean;
   /** most checked descriptions kept (least recently used go first) */
@@ -105,6 +108,7 @@ export class Registry {
   private tempDir: string | null = null;
   readonly dbPath: string;
   readonly facts: FactBase;
+  private readonly checker: Checker;
 
   private constructor(opts: RegistryOptions, dbPath: string, tempDir: string | null) {
     this.dbPath = dbPath;
@@ -113,6 +117,7 @@ export class Registry {
     this.checkedLimit = opts.checkedLimit ?? 64;
     this.extraNames = opts.names !== undefined ? loadNames(opts.names) : {};
     this.runner = new SqlRunner(dbPath, { timeoutMs: opts.sqlTimeoutMs ?? 2000 });
+    this.checker = new Checker(opts.checkTimeoutMs ?? 10_000);
   }
 
   /** Loads grammars and models; throws with a located message on any bad file. */
@@ -208,10 +213,12 @@ export class Registry {
     return { id, grammar, text, file, origin, names, namesProblem: problem, execute: this.executorFor(grammar) };
   }
 
-  /** Compiles a description (cached by content hash); a clean one becomes a grammar id. */
-  check(text: string, file: string): CheckResult {
-    const { grammar, diagnostics } = compileDescription(text, file);
-    const hash = grammar?.hash ?? createHashHex(text);
+  /**
+   * Compiles a description in the checker's worker thread (cached by content hash and file name);
+   * a clean one becomes a grammar id. Rejects with CheckTimeout past the check time limit.
+   */
+  async check(text: string, file: string): Promise<CheckResult> {
+    const hash = createHashHex(text);
     const key = `${hash}\u0000${file}`;
     const hit = this.checked.get(key);
     if (hit) {
@@ -219,6 +226,7 @@ export class Registry {
       this.checked.set(key, hit);
       return hit.result;
     }
+    const { grammar, diagnostics } = await this.checker.compile(text, file);
     const id = grammar !== null ? `h-${hash.slice(0, 16)}` : null;
     const result: CheckResult = { ok: grammar !== null, id, hash, diagnostics: diagnostics.map((d) => diagnosticJson(d, text)) };
     const entry = grammar !== null ? this.entry(id!, grammar, text, file, 'checked') : null;
@@ -246,6 +254,7 @@ export class Registry {
   }
 
   async close(): Promise<void> {
+    await this.checker.close();
     this.runner?.close();
     this.runner = null;
     for (const m of this.models.values()) await m.model.dispose();

@@ -130,6 +130,39 @@ describe('POST /api/check', () => {
     expect(res.json().error.message).toBe(`$.text: found "${'#'.repeat(40)}"… (65537 characters); expected a string of at most 65536 characters`);
   });
 
+  it('compiles off the main thread, within a time limit', async () => {
+    // a synthetic 64 KB description: a chain of 960-odd sorts (about 2.6 s to compile here)
+    let big = 'grammar big\nstart S0\nspace " "\ntoken N = /[0-9]+/ as int\n';
+    let i = 0;
+    for (; big.length < 64000; i++) big += `sort S${i} { c${i}a(x: N) = "k${i}" x; c${i}b(y: S${i + 1}?) = "q${i}" [y]; }\n`;
+    big += `sort S${i} { c${i}z(x: N) = "z" x; }\n`;
+    // the main thread keeps turning while it compiles: a 1 ms interval fires many times (a compile
+    // on the main thread would hold it for the whole compile and let it fire only before and after)
+    let ticks = 0;
+    let answered = 0;
+    const timer = setInterval(() => {
+      ticks++;
+      void app.inject({ method: 'GET', url: '/api/models' }).then((r) => r.statusCode === 200 && answered++);
+    }, 1);
+    const res = await app.inject({ method: 'POST', url: '/api/check', payload: { text: big, file: 'big.twg' } });
+    clearInterval(timer);
+    expect(res.json()).toMatchObject({ ok: true, diagnostics: [] });
+    expect(ticks).toBeGreaterThan(20);
+    expect(answered).toBeGreaterThan(20);
+
+    const strict = await buildServer(await Registry.open({ models: [], grammars: ['arith'], checkTimeoutMs: 50 }));
+    try {
+      const res = await strict.inject({ method: 'POST', url: '/api/check', payload: { text: big + '# again\n', file: 'big.twg' } });
+      expect(res.statusCode).toBe(504);
+      expect(res.json().error).toEqual({ code: 'time_limit', message: '$.text: compiling big.twg took longer than 50 ms and was stopped; expected a smaller description', location: '$.text' });
+      // a fresh worker takes the next check
+      const small = await strict.inject({ method: 'POST', url: '/api/check', payload: { text: 'grammar g\nstart E\nspace " "\nsort E { one() = "1"; }\n' } });
+      expect(small.json()).toMatchObject({ ok: true });
+    } finally {
+      await strict.close();
+    }
+  });
+
   it('names a missing field by JSON path', async () => {
     const res = await post('/api/check', { file: 'x.twg' });
     expect(res.statusCode).toBe(400);

@@ -1,0 +1,13 @@
+/**
+ * Worker thread that compiles descriptions for /api/check, so a large description does not hold the
+ * server's main thread (see checker.ts). Messages: {ready} once loaded, then {id, text, file} → {id, grammar, diagnostics}.
+ */
+import { parentPort } from 'node:worker_threads';
+import { compileDescription } from '../description/index.ts';
+
+parentPort!.on('message', (m: { id: number; text: string; file: string }) => {
+  const r = compileDescription(m.text, m.file);
+  parentPort!.postMessage({ id: m.id, grammar: r.grammar, diagnostics: r.diagnostics });
+});
+// loaded: the checker starts its time limits only now (starting a thread and its loader takes ~1 s)
+parentPort!.postMessage({ ready: true });
