@@ -33,6 +33,11 @@ export class Checker {
     return run;
   }
 
+  /** Starts the worker now (in the background), so the first check does not wait for it to load. */
+  warmUp(): void {
+    this.start().catch(() => undefined);
+  }
+
   /** The worker, once it has loaded (started on first use and after a stop). */
   private start(): Promise<Worker> {
     if (this.closed) return Promise.reject(new Error('the checker is closed'));

@@ -160,6 +160,7 @@ export class Registry {
       // compile every model × grammar mask table now, so no request pays for it (~0.5 s each for
       // the demo model's 1,100 tokens); a pair that cannot work fails again, located, per request
       if (opts.warm !== false) {
+        reg.checker.warmUp();
         for (const m of reg.models.values()) {
           for (const g of reg.grammars.values()) {
             try {
