@@ -13,8 +13,8 @@ import type { RegisterCommand } from './index.ts';
 interface Flags {
   host: string;
   port: string;
-  model: string[];
-  grammar: string[];
+  model?: string[];
+  grammar?: string[];
   db?: string;
   names?: string;
   threads?: string;
@@ -31,16 +31,16 @@ function int(flag: string, value: string | undefined, min: number): number | und
   return n;
 }
 
-const collect = (v: string, all: string[]) => [...all, v];
+const collect = (v: string, all: string[] | undefined) => [...(all ?? []), v];
 
 export const register: RegisterCommand = (program: Command, setExit) => {
   program
     .command('serve')
     .description('serve the JSON API and the decoding playground page over HTTP')
-    .option('--host <host>', 'address to bind (loopback by default)', '127.0.0.1')
+    .option('--host <host>', 'address to bind', '127.0.0.1')
     .option('--port <port>', 'TCP port (0: any free port)', '8080')
-    .option('--model <dir>', 'model folder (repeatable; default models/coop when present)', collect, [])
-    .option('--grammar <g>', 'grammar: .twg path or shipped name (repeatable; default sql, lf, arith, json)', collect, [])
+    .option('--model <dir>', 'model folder (repeatable; default models/coop when present)', collect)
+    .option('--grammar <g>', 'grammar: .twg path or shipped name (repeatable; default sql, lf, arith, json)', collect)
     .option('--db <file>', 'SQLite database for SQL, the LF fact base and names (default: the demo cooperative)')
     .option('--names <file>', 'JSON bindings of open name sets, merged over the defaults')
     .option('--threads <n>', 'onnxruntime threads per model session')
@@ -54,8 +54,8 @@ export const register: RegisterCommand = (program: Command, setExit) => {
         const app = await startServer({
           host: f.host,
           port: int('port', f.port, 0),
-          models: f.model.length > 0 ? f.model : undefined,
-          grammars: f.grammar.length > 0 ? f.grammar : undefined,
+          models: f.model,
+          grammars: f.grammar,
           db: f.db,
           names: f.names,
           threads: int('threads', f.threads, 1),
