@@ -37,6 +37,12 @@ interface LocalMask {
   readonly pops: Uint32Array;
 }
 
+interface SubLocal {
+  readonly ids: Uint32Array;
+  readonly maxDist: number;
+  readonly pops: Uint32Array;
+}
+
 /** Trie nodes with at least this many children get a direct 256-entry child table. */
 const WIDE = 24;
 
@@ -194,6 +200,10 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
   private popSink: Set<number> | null = null;
   /** per RTN node: the local mask of a BETWEEN thread (see `localMask`) */
   private readonly locals: (LocalMask | undefined)[] = [];
+  /** per (RTN node, trie node): the local part of a walk below that trie node (see `subLocal`) */
+  private readonly subLocals = new Map<number, SubLocal>();
+  /** while a sub-local walk is computed: the token ids it marks */
+  private collect: number[] | null = null;
   private readonly useLocal: boolean;
 
   constructor(readonly engine: MaskEngine, readonly bound: Bound) {
@@ -233,6 +243,34 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
       this.mask = saved.mask;
       this.lim = saved.lim;
       this.rootPrevWord = saved.pw;
+      this.maxSeen = saved.max;
+    }
+  }
+
+  /**
+   * The local part of a walk below trie node x (≠ root) for a BETWEEN thread at RTN node n: the
+   * token ids it marks, their largest distance, and the pop points — computed once with the
+   * sentinel frame and kept, like `localMask` (exit nodes of lexemes and pop points land here).
+   */
+  private subLocal(n: number, x: number): SubLocal {
+    const key = n * this.engine.trie.nodeCount + x;
+    const hit = this.subLocals.get(key);
+    if (hit !== undefined) return hit;
+    const saved = { lim: this.lim, max: this.maxSeen, collect: this.collect };
+    const ids: number[] = [];
+    this.collect = ids;
+    this.lim = INF;
+    this.maxSeen = 0;
+    this.popSink = new Set();
+    try {
+      this.walkBetween(x, new Thread(n, -1, 0, '', SENTINEL, null), false);
+      const entry: SubLocal = { ids: Uint32Array.from(new Set(ids)), maxDist: this.maxSeen, pops: Uint32Array.from([...this.popSink].sort((p, q) => p - q)) };
+      this.subLocals.set(key, entry);
+      return entry;
+    } finally {
+      this.popSink = null;
+      this.collect = saved.collect;
+      this.lim = saved.lim;
       this.maxSeen = saved.max;
     }
   }
@@ -331,6 +369,10 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
     if (dist > this.lim) return;
     if (dist > this.maxSeen) this.maxSeen = dist;
     const trie = this.engine.trie;
+    if (this.collect !== null) {
+      for (let i = trie.tokStart[c], e = trie.tokStart[c + 1]; i < e; i++) this.collect.push(trie.tokens[i]);
+      return;
+    }
     const mask = this.mask;
     for (let i = trie.tokStart[c], e = trie.tokStart[c + 1]; i < e; i++) {
       const id = trie.tokens[i];
@@ -554,6 +596,22 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
     const bound = this.bound;
     const a = bound.automaton;
     const engine = this.engine;
+    if (x !== 0 && !skipClasses && this.useLocal && this.popSink === null && th.env === null) {
+      // below a non-root trie node: the stack-independent part is kept per (RTN node, trie node)
+      const sub = this.subLocal(th.node, x);
+      const frames = th.frames;
+      if (sub.maxDist + (frames === null ? 0 : frames.rest) <= this.lim) {
+        const mask = this.mask;
+        const ids = sub.ids;
+        for (let i = 0; i < ids.length; i++) mask[ids[i] >>> 5] |= 1 << (ids[i] & 31);
+        const pops = sub.pops;
+        if (frames !== null && pops.length > 0) {
+          const outer = new Thread(frames.ret, -1, 0, '', frames.next, frames.env);
+          for (let i = 0; i < pops.length; i++) this.walkBetween(pops[i], outer, false);
+        }
+        return;
+      }
+    }
     const { byte, end } = engine.trie;
     const space = a.rtn.space;
     const pw = x === 0 ? this.rootPrevWord : WORD[byte[x]] === 1;
