@@ -22,6 +22,7 @@
  */
 import type { NameBindings, Grammar } from '../description/ir.ts';
 import type { TokenConstraint } from '../util/constraint.ts';
+import { popcount32 } from '../util/bitset.ts';
 import { Automaton, Bound, Env, Frame, Thread, WORD, INF, type PdaState, type Dispatch } from '../automaton/pda.ts';
 import type { Vocabulary, TokenTrie } from '../vocab/index.ts';
 import { buildClassTables, MAX_LE, wMinAccept, wStep, type ClassTables } from './precompute.ts';
@@ -31,10 +32,39 @@ export class MaskError extends Error {}
 /** The frame standing for "the rest of the stack" while a local mask is computed. */
 const SENTINEL = new Frame(-1, null, null, 0);
 
+/** The set bits as an id list when that is shorter than half the words (else null: OR word by word). */
+function sparseIds(bits: Uint32Array): Uint32Array | null {
+  let n = 0;
+  for (let w = 0; w < bits.length; w++) if (bits[w] !== 0) n += popcount32(bits[w]);
+  if (n * 2 > bits.length) return null;
+  const out = new Uint32Array(n);
+  let k = 0;
+  for (let w = 0; w < bits.length; w++) {
+    let word = bits[w];
+    while (word !== 0) {
+      const low = word & -word;
+      out[k++] = (w << 5) + (31 - Math.clz32(low));
+      word ^= low;
+    }
+  }
+  return out;
+}
+
 interface LocalMask {
   readonly bits: Uint32Array;
+  readonly ids: Uint32Array | null;
   readonly maxDist: number;
   readonly pops: Uint32Array;
+}
+
+interface LexLocal {
+  readonly bits: Uint32Array;
+  readonly ids: Uint32Array | null;
+  readonly rootBits: Uint32Array | null;
+  readonly rootIds: Uint32Array | null;
+  readonly maxDist: number;
+  readonly popsLex: Uint32Array;
+  readonly popsRoot: Uint32Array;
 }
 
 interface SubLocal {
@@ -202,6 +232,8 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
   private readonly locals: (LocalMask | undefined)[] = [];
   /** per (RTN node, trie node): the local part of a walk below that trie node (see `subLocal`) */
   private readonly subLocals = new Map<number, SubLocal>();
+  /** per class tables, per (RTN node, DFA state): lexeme local masks (see `lexLocal`) */
+  private readonly lexLocals = new Map<ClassTables, Map<number, LexLocal>>();
   /** while a sub-local walk is computed: the token ids it marks */
   private collect: number[] | null = null;
   private readonly useLocal: boolean;
@@ -235,7 +267,7 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
     this.popSink = new Set();
     try {
       this.maskBetweenRoot(new Thread(n, -1, 0, '', SENTINEL, null));
-      const entry: LocalMask = { bits, maxDist: this.maxSeen, pops: Uint32Array.from([...this.popSink].sort((p, q) => p - q)) };
+      const entry: LocalMask = { bits, ids: sparseIds(bits), maxDist: this.maxSeen, pops: Uint32Array.from([...this.popSink].sort((p, q) => p - q)) };
       this.locals[n] = entry;
       return entry;
     } finally {
@@ -271,6 +303,56 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
       this.popSink = null;
       this.collect = saved.collect;
       this.lim = saved.lim;
+      this.maxSeen = saved.max;
+    }
+  }
+
+  /**
+   * The local mask of a token-class lexeme in DFA state d whose RTN continuation is node n: inside
+   * tokens and exit walks (`bits`, pops `popsLex`), and — when the lexeme may end here — the BETWEEN
+   * mask after it (`rootBits`, filtered by the word rule at run time, pops `popsRoot`). Computed once
+   * with the sentinel frame, like `localMask`.
+   */
+  private lexLocal(tables: ClassTables, n: number, d: number): LexLocal {
+    const key = n * 65536 + d;
+    let perClass = this.lexLocals.get(tables);
+    if (perClass === undefined) {
+      perClass = new Map();
+      this.lexLocals.set(tables, perClass);
+    }
+    const hit = perClass.get(key);
+    if (hit !== undefined) return hit;
+    const saved = { mask: this.mask, lim: this.lim, pw: this.rootPrevWord, max: this.maxSeen };
+    const nWords = this.engine.nWords;
+    this.lim = INF;
+    this.rootPrevWord = false;
+    this.maxSeen = 0;
+    try {
+      const end = new Thread(n, -1, 0, '', SENTINEL, null);
+      const bits = new Uint32Array(nWords);
+      this.mask = bits;
+      this.popSink = new Set();
+      this.orInside(tables, d, INF - this.bound.betweenDist(n, null, SENTINEL), false);
+      const ex = tables.exits[d];
+      for (let i = 0; i < ex.length; i++) this.walkBetween(ex[i], end, false);
+      const popsLex = Uint32Array.from([...this.popSink].sort((p, q) => p - q));
+      let rootBits: Uint32Array | null = null;
+      let popsRoot = new Uint32Array(0);
+      if (tables.dfa.accept[d]) {
+        rootBits = new Uint32Array(nWords);
+        this.mask = rootBits;
+        this.popSink = new Set();
+        this.maskBetweenRoot(end);
+        popsRoot = Uint32Array.from([...this.popSink].sort((p, q) => p - q));
+      }
+      const entry: LexLocal = { bits, ids: sparseIds(bits), rootBits, rootIds: rootBits === null ? null : sparseIds(rootBits), maxDist: this.maxSeen, popsLex, popsRoot };
+      perClass.set(key, entry);
+      return entry;
+    } finally {
+      this.popSink = null;
+      this.mask = saved.mask;
+      this.lim = saved.lim;
+      this.rootPrevWord = saved.pw;
       this.maxSeen = saved.max;
     }
   }
@@ -390,6 +472,28 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
     if (t.kind === 'class') {
       const tables = this.engine.classes[t.tokenClass]!;
       const d = th.lex;
+      if (this.useLocal && this.popSink === null && th.env === null) {
+        const local = this.lexLocal(tables, th.node, d);
+        const frames = th.frames;
+        if (local.maxDist + (frames === null ? 0 : frames.rest) <= this.lim) {
+          this.orPacked(local.bits, local.ids, false);
+          if (local.rootBits !== null) this.orPacked(local.rootBits, local.rootIds, this.rootPrevWord);
+          if (frames !== null && local.popsLex.length + local.popsRoot.length > 0) {
+            const outer = new Thread(frames.ret, -1, 0, '', frames.next, frames.env);
+            for (let i = 0; i < local.popsLex.length; i++) this.walkBetween(local.popsLex[i], outer, false);
+            for (let i = 0; i < local.popsRoot.length; i++) {
+              const x = local.popsRoot[i];
+              if (x === 0) this.maskBetweenRoot(outer);
+              else {
+                const fb = this.engine.firstByte[x];
+                if (this.rootPrevWord && WORD[fb] && !bound.automaton.rtn.space[fb]) continue;
+                this.walkBetween(x, outer, false);
+              }
+            }
+          }
+          return;
+        }
+      }
       const end = bound.endLexeme(th);
       const rest = bound.betweenDist(th.node, th.env, th.frames);
       this.orInside(tables, d, this.lim - rest, false);
@@ -411,6 +515,23 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
       if (t2 === null) continue;
       this.markNode(c, bound.threadDist(t2, WORD[trie.byte[c]] === 1));
       if (trie.end[c] > c + 1) this.walkGeneric(c, t2);
+    }
+  }
+
+  /** OR a kept mask: through its id list when it has one (sparse), else word by word. */
+  private orPacked(bits: Uint32Array, ids: Uint32Array | null, noWordStart: boolean): void {
+    if (ids === null) {
+      this.orBits(bits, noWordStart);
+      return;
+    }
+    const mask = this.mask;
+    const ws = this.engine.wordStart;
+    for (let i = 0; i < ids.length; i++) {
+      const id = ids[i];
+      const w = id >>> 5;
+      const bit = 1 << (id & 31);
+      if (noWordStart && (ws[w] & bit) !== 0) continue;
+      mask[w] |= bit;
     }
   }
 
@@ -472,7 +593,7 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
       const local = this.localMask(th.node);
       const frames = th.frames;
       if (local.maxDist + (frames === null ? 0 : frames.rest) <= this.lim) {
-        this.orBits(local.bits, this.rootPrevWord);
+        this.orPacked(local.bits, local.ids, this.rootPrevWord);
         if (frames === null) return; // after the program's end only spaces follow: local already has them
         const pops = local.pops;
         if (pops.length === 0) return;
