@@ -13,12 +13,14 @@
  * Design (DEVELOPERS.md, "Token masks"): per token-class DFA state, precomputed bitsets of the
  * tokens that stay inside the lexeme and the trie nodes where a lexeme can end inside a token; per
  * RTN node (and binding), a stack-independent "local mask" and the trie nodes where the rest of the
- * stack matters; everything else is a trie walk pruned at the first byte no parse can read.
+ * stack matters (kept likewise per class-lexeme state and per trie node below the root); everything
+ * else is a trie walk pruned at the first byte no parse can read.
  * `loadOrCompile` keeps grammar × vocabulary tables in a cache file keyed by both content hashes.
  *
  * Worst-case cost per mask: O(threads × (bitset words × pop depth + trie nodes walked below pop
- * points and exit nodes)). Measured at 128k ids (llama3, SQL/JSON): median 6–12 µs, p99 < 0.2 ms,
- * 3,000–5,000× faster than trying every token; tables 0.4–0.9 s; cache load 0.14–0.22 s.
+ * points and exit nodes)). Measured at 128k ids (llama3, SQL/JSON, `npm run bench`): median 2–7 µs,
+ * p99 < 0.15 ms, 4,000–10,000× faster than trying every token; tables + local masks 0.3–0.4 s;
+ * cache load ≈ 0.1 s (up to 0.3 s on a loaded machine); lf (scoping, no kept masks) median ≈ 27 µs.
  * Limits: see automaton/index.ts (regex subset, ambiguity cap); grammars with `new`/`bound` fields
  * walk instead of using local masks; masks follow token-class regexes, not value ranges.
  */
