@@ -96,18 +96,23 @@ describe('playground page', () => {
     if (uOff === 1) expect(uTree).toContain('does not parse');
     if (MODEL !== DEMO) expect(uOff).toBe(1);
 
-    // stepping back shows a partial text and a tree that has not grown fully yet
-    await page.$eval('#step', (el) => {
-      (el as HTMLInputElement).value = '3';
+    // stepping back to the step with the fewest allowed tokens (the bar titles say how many) shows
+    // a partial text, a tree that has not grown fully yet, and the tokens allowed next
+    const counts = await page.$$eval('#c svg.chart rect title', (els) => els.map((e) => Number(/: (\d+) allowed/.exec(e.textContent ?? '')?.[1] ?? NaN)));
+    let k = 1;
+    for (let i = 1; i < counts.length - 1; i++) if (counts[i] < counts[k]) k = i;
+    await page.$eval('#step', (el, v) => {
+      (el as HTMLInputElement).value = String(v);
       el.dispatchEvent(new Event('input'));
-    });
+    }, k);
     const partial = (await page.textContent('#c-sofar'))!;
     // the list of tokens allowed after the text so far holds the token the decoder chose next
     await page.waitForSelector('#c-allowed[data-count]');
-    const nextToken = await page.$eval('#c-tokens .chip:nth-child(4)', (e) => (e as HTMLElement).title);
+    const nextToken = await page.$eval(`#c-tokens .chip:nth-child(${k + 1})`, (e) => (e as HTMLElement).title);
     const nextId = /\(id (\d+)\)/.exec(nextToken)![1];
     const allowedIds = (await page.getAttribute('#c-allowed', 'data-ids'))!.split(' ');
     const allowedCount = Number(await page.getAttribute('#c-allowed', 'data-count'));
+    expect(allowedCount).toBeGreaterThanOrEqual(counts[k]); // no length budget here: never fewer
     expect(allowedIds.length).toBe(allowedCount); // all of them fit the page's request of 500
     expect(allowedIds).toContain(nextId);
     expect(code.startsWith(partial)).toBe(true);
