@@ -20,7 +20,7 @@ describe('shipped grammars', () => {
     expect(g.start).toBe('Expr');
     expect(g.space).toBe(' \t');
     expect(g.tokens.map((t) => [t.name, t.pattern, t.flags, t.value, t.reserved])).toEqual([
-      ['Num', '[0-9]+(?:\\.[0-9]+)?', '', 'number', false],
+      ['Num', '[0-9]{1,9}(?:\\.[0-9]{1,6})?', '', 'number', false],
       ['Name', '[a-z][a-z0-9]*', '', 'text', true],
     ]);
     expect(g.nameSets.map((n) => [n.name, n.token])).toEqual([['Func', 'Name']]);

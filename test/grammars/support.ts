@@ -105,8 +105,10 @@ export function jsonValue(node: Node): unknown {
     case 'array':
       return (node.items as Node[]).map(jsonValue);
     case 'string':
-    case 'number':
       return node.value;
+    case 'number':
+      // the tree holds the lexeme (`as text`): RFC 8259 section 6 numbers of any size
+      return Number(node.value);
     case 'true':
       return true;
     case 'false':

@@ -7,8 +7,22 @@ import { compileDescription, loadGrammar } from '../../src/description/index.ts'
 import type { Grammar } from '../../src/description/ir.ts';
 import { createParser, ParseError, printTree, type Tree } from '../../src/tree/index.ts';
 
+// Unbounded numeric classes (the shipped grammars bound their digits): values out of range.
+const WIDE = `grammar wide
+start Value
+space " "
+token Int = /[0-9]+/ as int
+token Num = /-?[0-9]+(?:\\.[0-9]+)?(?:[eE][+-]?[0-9]+)?/ as number
+sort Value {
+  int(value: Int) = "int" value;
+  num(value: Num) = "num" value;
+  list(items: Value*) = "[" ~items sep ~"," ~"]";
+}
+`;
+
 const grammars: Record<string, Grammar> = {};
-const grammar = (name: string) => (grammars[name] ??= loadGrammar(`grammars/${name}/${name}.twg`));
+const grammar = (name: string) =>
+  (grammars[name] ??= name === 'wide' ? compileDescription(WIDE, 'wide.twg').grammar! : loadGrammar(`grammars/${name}/${name}.twg`));
 const parse = (g: string, text: string, names?: Record<string, string[]>): Tree => createParser(grammar(g)).parse(text, { file: `in.${g}`, names });
 
 function expectParseError(g: string, text: string, message: string, names?: Record<string, string[]>): void {
@@ -39,7 +53,9 @@ describe('parse trees', () => {
   it('numbers become their values and print canonically', () => {
     expect(parse('arith', '007.50')).toEqual({ kind: 'num', value: 7.5 });
     expect(canonical('arith', '007.50')).toBe('7.5');
-    expect(canonical('json', '[1E2, -0.0e0, 1.50]')).toBe('[100, 0, 1.5]');
+    expect(canonical('wide', '[num 1E2, num -0.0e0, num 1.50, int 007]')).toBe('[num 100, num 0, num 1.5, int 7]');
+    // JSON numbers are `as text`: the tree holds the lexeme, of any size
+    expect(parse('json', '[1E2, -0.0e0, 1e999]')).toEqual({ kind: 'array', items: ['1E2', '-0.0e0', '1e999'].map((value) => ({ kind: 'number', value })) });
   });
   it('strings decode (JSON escapes; SQL doubled quotes)', () => {
     expect(parse('json', '"a\\u0041\\n\\/"')).toEqual({ kind: 'string', value: 'aA\n/' });
@@ -79,8 +95,10 @@ describe('parse errors (whole messages)', () => {
   it('second line, after the last token', () =>
     expectParseError('json', '{\n  "a": 1,\n', 'in.json:2:10: expected String\n2 |   "a": 1,\n  |          ^'));
   it('integer out of range', () =>
-    expectParseError('sql', 'SELECT * FROM t LIMIT 99999999999999999', 'in.sql:1:23: Int 99999999999999999 is not a safe integer value (out of range)\n1 | SELECT * FROM t LIMIT 99999999999999999\n  |                       ^~~~~~~~~~~~~~~~~'));
-  it('number out of range', () => expectParseError('json', '[1e400]', 'in.json:1:2: Number 1e400 is not a finite number value (out of range)\n1 | [1e400]\n  |  ^~~~~'));
+    expectParseError('wide', 'int 99999999999999999', 'in.wide:1:5: Int 99999999999999999 is not a safe integer value (out of range)\n1 | int 99999999999999999\n  |     ^~~~~~~~~~~~~~~~~'));
+  it('number out of range', () => expectParseError('wide', '[num 1e400]', 'in.wide:1:6: Num 1e400 is not a finite number value (out of range)\n1 | [num 1e400]\n  |      ^~~~~'));
+  it('shipped grammars: too many digits is a syntax error', () =>
+    expectParseError('sql', 'SELECT * FROM t LIMIT 9999999999', 'in.sql:1:23: expected Int\n1 | SELECT * FROM t LIMIT 9999999999\n  |                       ^'));
   it('unknown name when names are bound', () =>
     expectParseError('arith', '1 + cube(2)', "in.arith:1:5: unknown name 'cube' for Func\n1 | 1 + cube(2)\n  |     ^~~~", { Func: ['max'] }));
   it('unbound variable', () => expectParseError('lf', 'lambda $x. p($y)', "in.lf:1:14: unbound variable '$y'\n1 | lambda $x. p($y)\n  |              ^~"));

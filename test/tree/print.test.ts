@@ -44,7 +44,7 @@ describe('print arith', () => {
   it('-(1 + 2)', () => expectPrinted('arith', neg(add(num(1), num(2))), '-(1 + 2)'));
   it('1 - -2', () => expectPrinted('arith', sub(num(1), neg(num(2))), '1 - -2'));
   it('-2 * 3', () => expectPrinted('arith', mul(neg(num(2)), num(3)), '-2 * 3'));
-  it('numbers print like JSON.stringify', () => expectPrinted('arith', add(num(0.5), num(1e20)), '0.5 + 100000000000000000000'));
+  it('numbers print like JSON.stringify', () => expectPrinted('arith', add(num(0.5), add(num(0.000001), num(999999999.000001))), '0.5 + (0.000001 + 999999999.000001)'));
   it('nested calls', () => expectPrinted('arith', call('f', call('g'.repeat(1), num(1)), add(num(1), num(2))), 'f(g(1), 1 + 2)'));
 });
 
@@ -110,9 +110,9 @@ describe('print sql', () => {
 const str = (value: string) => n('string', { value });
 describe('print json', () => {
   it('object and array spacing', () =>
-    expectPrinted('json', n('object', { members: [n('member', { key: 'a', value: n('array', { items: [n('number', { value: 1 }), n('true'), n('null')] }) }), n('member', { key: 'b', value: n('object', { members: [] }) })] }), '{"a": [1, true, null], "b": {}}'));
+    expectPrinted('json', n('object', { members: [n('member', { key: 'a', value: n('array', { items: [n('number', { value: '1' }), n('true'), n('null')] }) }), n('member', { key: 'b', value: n('object', { members: [] }) })] }), '{"a": [1, true, null], "b": {}}'));
   it('string escapes are JSON.stringify', () => expectPrinted('json', str('tab\there "q" \\ \u0001 é'), '"tab\\there \\"q\\" \\\\ \\u0001 é"'));
-  it('numbers', () => expectPrinted('json', n('array', { items: [n('number', { value: -0.5 }), n('number', { value: 1e21 })] }), '[-0.5, 1e+21]'));
+  it('numbers print their lexemes (`as text`)', () => expectPrinted('json', n('array', { items: [n('number', { value: '-0.50' }), n('number', { value: '1e999' })] }), '[-0.50, 1e999]'));
 });
 
 describe('print rejects invalid trees with a JSON path', () => {
@@ -122,7 +122,9 @@ describe('print rejects invalid trees with a JSON path', () => {
     expect(() => printTree(grammar('sql'), select({ where: n('star') }))).toThrow('$.where.kind: expected Cond (one of or, and, not, compare, between, like, member), got "star", a constructor of Item');
   });
   it('value the token cannot spell', () =>
-    expect(() => printTree(grammar('arith'), num(-1))).toThrow('$.value: Num cannot spell -1: -1 does not match /[0-9]+(?:\\.[0-9]+)?/'));
+    expect(() => printTree(grammar('arith'), num(-1))).toThrow('$.value: Num cannot spell -1: -1 does not match /[0-9]{1,9}(?:\\.[0-9]{1,6})?/'));
+  it('a value beyond the bounded digits', () =>
+    expect(() => printTree(grammar('arith'), num(1e20))).toThrow('$.value: Num cannot spell 100000000000000000000: 100000000000000000000 does not match /[0-9]{1,9}(?:\\.[0-9]{1,6})?/'));
 });
 
 describe('glue never merges two tokens', () => {

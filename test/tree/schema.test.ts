@@ -58,8 +58,9 @@ function mutants(t: Tree, rand: () => number, otherKind: (kind: string) => strin
       const n = pick(withFields);
       const k = pick(Object.keys(n).filter((x) => x !== 'kind'));
       const v = n[k];
-      // a JSON value of another type than the field's: objects/arrays/null become a number, scalars an object
-      n[k] = v === null || typeof v === 'object' ? 12345 : typeof v === 'number' ? { not: 'a number' } : true;
+      // a JSON value of another type than the field's: null (an absent optional, which may be a
+      // token) becomes an object that is no node, objects/arrays a number, scalars an object
+      n[k] = v === null ? { not: 'a node' } : typeof v === 'object' ? 12345 : typeof v === 'number' ? { not: 'a number' } : true;
       out.push({ what: 'wrong type', tree: m });
     }
   }
