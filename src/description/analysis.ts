@@ -22,6 +22,12 @@
  *   with a slot of sort B (skipping items that can print as nothing). The self-edge of an infix or
  *   postfix operator on its own first operand is left out (the parser climbs precedence there).
  *   A constructor with an edge to a sort that leads back to its own sort is an error.
+ * - numeric digits: an `as int` / `as number` class whose lexemes can hold more than 15 digits
+ *   (past 2^53 for integers; past the 15 significant digits a double keeps for numbers), or for
+ *   `as number` more than 6 digits after a `.` (JSON.stringify prints 0.0000001 as 1e-7), has
+ *   lexemes whose value does not print back as written. Warning. Counted over the regex AST with
+ *   each character set reduced to "may be a digit" / "may be a point"; lookarounds count as empty.
+ *   Limits: exponents are not checked (`[0-9]e[0-9]{3}` admits 9e999).
  *
  * Cost: each fixpoint is O(rounds · L) with rounds ≤ S + 1 (L layout items, S sorts); the
  * left-corner closure is O(S · (S + E)). Limits: the separator and adjacency checks look at first
@@ -31,6 +37,7 @@ import type { Constructor, Field, Grammar, LayoutItem, Sort, Span, TokenClass } 
 import * as E from './errors.ts';
 import { stronglyConnected } from './graph.ts';
 import type { Diagnostic } from './errors.ts';
+import regjsparser from 'regjsparser';
 
 /** What can begin (or end) a printed term: literal texts and token classes. */
 interface Edge {
@@ -195,6 +202,7 @@ export function analyseGrammar(g: Grammar, text: string): Diagnostic[] {
   checkIdenticalLayouts(g, facts, out, at, text);
   checkLists(g, facts, out, at);
   checkLeftRecursion(g, facts, out, at);
+  checkNumericDigits(g, out, at);
   return out;
 }
 
@@ -405,5 +413,149 @@ function checkLeftRecursion(g: Grammar, facts: Facts, out: Diagnostic[], at: At)
         break;
       }
     }
+  }
+}
+
+// ---- numeric token classes ------------------------------------------------------------------------
+
+/** Most digits in a lexeme (`digits`) and most digits after a possible `.` (`afterPoint`, -Infinity without one). */
+interface DigitCount {
+  readonly digits: number;
+  readonly afterPoint: number;
+}
+
+const MAX_EXACT_DIGITS = 15; // every decimal of ≤ 15 significant digits survives a double (IEEE 754 binary64)
+const MAX_PLAIN_FRACTION = 6; // Number::toString switches to exponent form below 1e-6 (ECMA-262)
+
+function checkNumericDigits(g: Grammar, out: Diagnostic[], at: At): void {
+  for (const t of g.tokens) {
+    if (t.value !== 'int' && t.value !== 'number') continue;
+    let root: RxAst;
+    try {
+      root = regjsparser.parse(t.pattern, t.flags, { namedGroups: true, lookbehind: true, unicodePropertyEscape: true }) as unknown as RxAst;
+    } catch {
+      continue; // compile.ts reports a bad regex
+    }
+    const c = countDigits(root);
+    if (t.value === 'int' ? c.digits > MAX_EXACT_DIGITS : c.digits > MAX_EXACT_DIGITS || c.afterPoint > MAX_PLAIN_FRACTION) {
+      out.push(t.value === 'int' ? E.unboundedIntDigits(at(t.span), t.name) : E.unboundedNumberDigits(at(t.span), t.name));
+    }
+  }
+}
+
+/** The regjsparser AST, as far as the digit count reads it. */
+interface RxAst {
+  readonly type: string;
+  readonly body?: RxAst | readonly RxAst[];
+  readonly min?: number | RxAst;
+  readonly max?: number | RxAst;
+  readonly codePoint?: number;
+  readonly value?: string;
+  readonly negative?: boolean;
+  readonly behavior?: string;
+}
+
+const EMPTY: DigitCount = { digits: 0, afterPoint: -Infinity };
+const NONE: DigitCount = { digits: -Infinity, afterPoint: -Infinity }; // matches nothing
+
+function seq(a: DigitCount, b: DigitCount): DigitCount {
+  if (a.digits === -Infinity || b.digits === -Infinity) return NONE;
+  return { digits: a.digits + b.digits, afterPoint: Math.max(a.afterPoint + b.digits, b.afterPoint) };
+}
+
+function alt(a: DigitCount, b: DigitCount): DigitCount {
+  return { digits: Math.max(a.digits, b.digits), afterPoint: Math.max(a.afterPoint, b.afterPoint) };
+}
+
+/** One character of the set: may it be a digit, may it be `.`. */
+function char(digit: boolean, point: boolean): DigitCount {
+  return { digits: digit ? 1 : 0, afterPoint: point ? 0 : -Infinity };
+}
+
+const inRange = (lo: number, hi: number, c: number) => lo <= c && c <= hi;
+
+/** Whether a character class may match a digit / a point (nested class sets count as "may"). */
+function classChars(node: RxAst): [boolean, boolean] {
+  let digit = false;
+  let allDigits = true;
+  let point = false;
+  const items = (node.body ?? []) as readonly RxAst[];
+  for (let d = 48; d <= 57; d++) {
+    const hit = items.some((it) => itemMatches(it, d));
+    digit ||= hit;
+    allDigits &&= hit;
+  }
+  point = items.some((it) => itemMatches(it, 46));
+  if (node.negative) return [!allDigits, !point];
+  return [digit, point];
+}
+
+function itemMatches(it: RxAst, c: number): boolean {
+  switch (it.type) {
+    case 'value':
+      return it.codePoint === c;
+    case 'characterClassRange':
+      return inRange((it.min as RxAst).codePoint!, (it.max as RxAst).codePoint!, c);
+    case 'characterClassEscape':
+      return escapeMatches(it.value!, c);
+    default:
+      return true;
+  }
+}
+
+function escapeMatches(e: string, c: number): boolean {
+  const digit = inRange(48, 57, c);
+  switch (e) {
+    case 'd':
+      return digit;
+    case 'D':
+      return !digit;
+    case 'w':
+      return digit;
+    case 'W':
+      return !digit;
+    case 's':
+      return false;
+    default:
+      return true;
+  }
+}
+
+function countDigits(node: RxAst): DigitCount {
+  switch (node.type) {
+    case 'alternative':
+      return ((node.body ?? []) as readonly RxAst[]).reduce((acc, n) => seq(acc, countDigits(n)), EMPTY);
+    case 'disjunction':
+      return ((node.body ?? []) as readonly RxAst[]).reduce((acc, n) => alt(acc, countDigits(n)), NONE);
+    case 'group': {
+      if (node.behavior !== 'normal' && node.behavior !== 'ignore') return EMPTY; // lookaround
+      return ((node.body ?? []) as readonly RxAst[]).reduce((acc, n) => seq(acc, countDigits(n)), EMPTY);
+    }
+    case 'quantifier': {
+      const body = ((node.body ?? []) as readonly RxAst[]).reduce((acc, n) => seq(acc, countDigits(n)), EMPTY);
+      const min = node.min as number;
+      const max = (node.max as number | undefined) ?? Infinity;
+      if (max === 0) return EMPTY;
+      if (body.digits === -Infinity) return min === 0 ? EMPTY : NONE;
+      // k copies: digits k·d; the last point may sit in the first copy, so (k - 1)·d + afterPoint
+      const digits = body.digits === 0 ? 0 : max * body.digits;
+      const afterPoint = body.afterPoint === -Infinity ? -Infinity : body.digits === 0 ? body.afterPoint : (max - 1) * body.digits + body.afterPoint;
+      return { digits, afterPoint };
+    }
+    case 'value':
+      return char(inRange(48, 57, node.codePoint!), node.codePoint === 46);
+    case 'dot':
+      return char(true, true);
+    case 'characterClassEscape':
+      return char(escapeMatches(node.value!, 48), escapeMatches(node.value!, 46));
+    case 'characterClass': {
+      const [digit, point] = classChars(node);
+      return char(digit, point);
+    }
+    case 'anchor':
+    case 'reference':
+      return EMPTY;
+    default:
+      return char(true, true); // unicode property escapes and anything newer: assume the worst
   }
 }

@@ -293,6 +293,16 @@ export const unproductiveSort = (at: At, sort: string) =>
 export const unreachableSort = (at: At, sort: string, start: string) =>
   warning('unreachable-sort', at, `sort ${q(sort)} cannot occur in a tree of the start sort ${q(start)}`, 'use it in a field, or remove it');
 
+export const unboundedIntDigits = (at: At, token: string) =>
+  warning('unbounded-digits', at, `values of ${token} beyond 2^53 cannot be represented; bound the digits (e.g. [0-9]{1,15})`);
+
+export const unboundedNumberDigits = (at: At, token: string) =>
+  warning(
+    'unbounded-digits',
+    at,
+    `values of ${token} with more than 15 digits, or more than 6 after the point, do not print back as written; bound the digits (e.g. [0-9]{1,9}(?:\\.[0-9]{1,6})?)`,
+  );
+
 export const identicalLayouts = (at: At, ctor: string, other: string, sort: string) =>
   error(
     'identical-layouts',

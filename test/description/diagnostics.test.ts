@@ -483,6 +483,41 @@ describe('diagnostics', () => {
     expect(compileDescription(text, 'g.twg').grammar).not.toBeNull();
   });
 
+  it("unboundedDigits", () => {
+    // 2^53 = 9007199254740992 is the first integer past Number.MAX_SAFE_INTEGER (ECMA-262); every
+    // 15-digit integer is below it. ECMAScript Number::toString prints 0.0000001 as 1e-7.
+    const text = lines("grammar g", "start A", "space \" \"", "token Int = /[0-9]+/ as int", "token Num = /[0-9]{1,9}\\.[0-9]{1,7}/ as number", "token Ok = /-?[0-9]{1,9}(?:\\.[0-9]{1,6})?/ as number", "token Id = /[0-9]+/ as text", "sort A { a(i: Int, n: Num, o: Ok, d: Id) = \"a\" i n o d; }", '');
+    expect(report(text)).toBe(
+      lines(
+        "g.twg:4:1: warning: values of Int beyond 2^53 cannot be represented; bound the digits (e.g. [0-9]{1,15})",
+        "4 | token Int = /[0-9]+/ as int",
+        "  | ^~~~~~~~~~~~~~~~~~~~~~~~~~~",
+        "",
+        "g.twg:5:1: warning: values of Num with more than 15 digits, or more than 6 after the point, do not print back as written; bound the digits (e.g. [0-9]{1,9}(?:\\.[0-9]{1,6})?)",
+        "5 | token Num = /[0-9]{1,9}\\.[0-9]{1,7}/ as number",
+        "  | ^~~~~~~~~~~~~~~~~~~~~~~~~~~~~~~~~~~~~~~~~~~~~~",
+      ),
+    );
+    expect(compileDescription(text, 'g.twg').grammar).not.toBeNull();
+  });
+
+  it("unboundedDigits: digits counted across groups, repetitions and classes", () => {
+    const warned = (pattern: string, kind: string) =>
+      compileDescription(lines("grammar g", "start A", "space \" \"", `token N = /${pattern}/ as ${kind}`, "sort A { a(n: N) = n; }", ''), 'g.twg').diagnostics.map((d) => d.code);
+    expect(warned('[0-9]{1,15}', 'int')).toEqual([]);
+    expect(warned('[0-9]{1,16}', 'int')).toEqual(['unbounded-digits']);
+    expect(warned('(?:[0-9]{5}){3}', 'int')).toEqual([]);
+    expect(warned('(?:[0-9]{5}){4}', 'int')).toEqual(['unbounded-digits']);
+    expect(warned('[1-9][0-9]{1,7}[0-9]{1,8}', 'int')).toEqual(['unbounded-digits']);
+    expect(warned('\\d+', 'int')).toEqual(['unbounded-digits']);
+    expect(warned('[^a-z]{1,20}', 'int')).toEqual(['unbounded-digits']);
+    expect(warned('0|[1-9][0-9]*', 'int')).toEqual(['unbounded-digits']);
+    expect(warned('[0-9]{1,8}(?:[.][0-9]{1,6})?', 'number')).toEqual([]);
+    expect(warned('[0-9]{1,8}(?:.[0-9]{1,7})?', 'number')).toEqual(['unbounded-digits']);
+    expect(warned('[0-9]{1,12}\\.[0-9]{1,6}', 'number')).toEqual(['unbounded-digits']);
+    expect(warned('[0-9]+', 'text')).toEqual([]);
+  });
+
   it("identical", () => {
     const text = lines("grammar g", "start A", "space \" \"", "token T = /[a-z]+/ as text", "sort A {", "  a(x: T) = \"(\" x \")\";", "  b(y: T) = \"(\" ~y ~\")\";", "}", '');
     expect(report(text)).toBe(
@@ -497,7 +532,7 @@ describe('diagnostics', () => {
   });
 
   it("sepBegins", () => {
-    const text = lines("grammar g", "start A", "space \" \"", "token N = /[0-9]+/ as int", "sort A { list(items: B*) = \"[\" items sep \"-\" \"]\"; }", "sort B { neg(b: B) = \"-\" b; num(n: N) = n; }", '');
+    const text = lines("grammar g", "start A", "space \" \"", "token N = /[0-9]{1,9}/ as int", "sort A { list(items: B*) = \"[\" items sep \"-\" \"]\"; }", "sort B { neg(b: B) = \"-\" b; num(n: N) = n; }", '');
     expect(report(text)).toBe(
       lines(
         "g.twg:5:32: error: separator \"-\" of list `items` can also begin an element (`B`)",
@@ -510,7 +545,7 @@ describe('diagnostics', () => {
   });
 
   it("sepEnds", () => {
-    const text = lines("grammar g", "start A", "space \" \"", "token N = /[0-9]+/ as int", "sort A { list(items: B*) = \"[\" items sep \"!\" \"]\"; }", "sort B { fact(n: N) = n \"!\"; }", '');
+    const text = lines("grammar g", "start A", "space \" \"", "token N = /[0-9]{1,9}/ as int", "sort A { list(items: B*) = \"[\" items sep \"!\" \"]\"; }", "sort B { fact(n: N) = n \"!\"; }", '');
     expect(report(text)).toBe(
       lines(
         "g.twg:5:32: error: separator \"!\" of list `items` can also end an element (`B`)",
@@ -549,7 +584,7 @@ describe('diagnostics', () => {
   });
 
   it("adjacentTokens", () => {
-    const text = lines("grammar g", "start A", "space \" \"", "token N = /[0-9]+/ as int", "sort A { list(items: N*) = \"[\" items \"]\"; }", '');
+    const text = lines("grammar g", "start A", "space \" \"", "token N = /[0-9]{1,9}/ as int", "sort A { list(items: N*) = \"[\" items \"]\"; }", '');
     expect(report(text)).toBe(
       lines(
         "g.twg:5:32: error: list `items` has no separator and its elements can run together: two N lexemes in a row can read as one",
@@ -562,7 +597,7 @@ describe('diagnostics', () => {
   });
 
   it("adjacentToken", () => {
-    const text = lines("grammar g", "start A", "space \" \"", "token N = /[0-9]+/ as int", "sort A { list(items: B*) = \"[\" items \"]\"; }", "sort B { b(n: N) = n \"!\"; }", '');
+    const text = lines("grammar g", "start A", "space \" \"", "token N = /[0-9]{1,9}/ as int", "sort A { list(items: B*) = \"[\" items \"]\"; }", "sort B { b(n: N) = n \"!\"; }", '');
     expect(report(text)).toBe(
       lines(
         "g.twg:5:32: error: list `items` has no separator and its elements can run together: an element can begin with a N token",
@@ -575,7 +610,7 @@ describe('diagnostics', () => {
   });
 
   it("adjacentInner", () => {
-    const text = lines("grammar g", "start A", "space \" \"", "token N = /[0-9]+/ as int", "sort A { list(items: B*) = \"[\" items \"]\"; }", "sort B { b(n: N, c: C?) = \"let\" n c; }", "sort C { c() = \"let\"; }", '');
+    const text = lines("grammar g", "start A", "space \" \"", "token N = /[0-9]{1,9}/ as int", "sort A { list(items: B*) = \"[\" items \"]\"; }", "sort B { b(n: N, c: C?) = \"let\" n c; }", "sort C { c() = \"let\"; }", '');
     expect(report(text)).toBe(
       lines(
         "g.twg:5:32: error: list `items` has no separator and its elements can run together: \"let\", which begins an element, can also occur inside one",
@@ -588,7 +623,7 @@ describe('diagnostics', () => {
   });
 
   it("adjacentRecursive", () => {
-    const text = lines("grammar g", "start A", "space \" \"", "token N = /[0-9]+/ as int", "sort A { list(items: B*) = \"[\" items \"]\"; }", "sort B { b(n: N, c: B?) = \"let\" n \"in\" c; }", '');
+    const text = lines("grammar g", "start A", "space \" \"", "token N = /[0-9]{1,9}/ as int", "sort A { list(items: B*) = \"[\" items \"]\"; }", "sort B { b(n: N, c: B?) = \"let\" n \"in\" c; }", '');
     expect(report(text)).toBe(
       lines(
         "g.twg:5:32: error: list `items` has no separator and its elements can run together: an element (`B`) can contain another one",
@@ -601,7 +636,7 @@ describe('diagnostics', () => {
   });
 
   it("leftDirect", () => {
-    const text = lines("grammar g", "start E", "space \" \"", "token N = /[0-9]+/ as int", "sort E { add(l: E, r: E) = l \"+\" r; num(n: N) = n; }", '');
+    const text = lines("grammar g", "start E", "space \" \"", "token N = /[0-9]{1,9}/ as int", "sort E { add(l: E, r: E) = l \"+\" r; num(n: N) = n; }", '');
     expect(report(text)).toBe(
       lines(
         "g.twg:5:28: error: constructor `add` is left-recursive: its layout begins with field `l` of its own sort `E`",
@@ -614,7 +649,7 @@ describe('diagnostics', () => {
   });
 
   it("leftIndirect", () => {
-    const text = lines("grammar g", "start E", "space \" \"", "token N = /[0-9]+/ as int", "sort E { call(f: F) = f \"()\"; num(n: N) = n; }", "sort F { fn(e: E) = e \".\" \"f\"; }", '');
+    const text = lines("grammar g", "start E", "space \" \"", "token N = /[0-9]{1,9}/ as int", "sort E { call(f: F) = f \"()\"; num(n: N) = n; }", "sort F { fn(e: E) = e \".\" \"f\"; }", '');
     expect(report(text)).toBe(
       lines(
         "g.twg:5:23: error: constructor `call` is left-recursive: its layout begins with field `f` of sort `F`, which can begin with a `E` again",
@@ -632,7 +667,7 @@ describe('diagnostics', () => {
   });
 
   it("infixShape", () => {
-    const text = lines("grammar g", "start E", "space \" \"", "token N = /[0-9]+/ as int", "sort E parens \"(\" \")\" { add(l: E, r: E) = \"+\" l r @ infix left 10; num(n: N) = n; }", '');
+    const text = lines("grammar g", "start E", "space \" \"", "token N = /[0-9]{1,9}/ as int", "sort E parens \"(\" \")\" { add(l: E, r: E) = \"+\" l r @ infix left 10; num(n: N) = n; }", '');
     expect(report(text)).toBe(
       lines(
         "g.twg:5:43: error: layout of `add` does not fit `infix`: an infix layout begins and ends with a required field of sort `E` and has literal text between them",
@@ -645,7 +680,7 @@ describe('diagnostics', () => {
   });
 
   it("prefixShape", () => {
-    const text = lines("grammar g", "start E", "space \" \"", "token N = /[0-9]+/ as int", "sort E parens \"(\" \")\" { neg(o: E) = o \"-\" @ prefix 10; num(n: N) = n; }", '');
+    const text = lines("grammar g", "start E", "space \" \"", "token N = /[0-9]{1,9}/ as int", "sort E parens \"(\" \")\" { neg(o: E) = o \"-\" @ prefix 10; num(n: N) = n; }", '');
     expect(report(text)).toBe(
       lines(
         "g.twg:5:37: error: layout of `neg` does not fit `prefix`: a prefix layout begins with literal text and ends with a required field of sort `E`",
@@ -658,7 +693,7 @@ describe('diagnostics', () => {
   });
 
   it("postfixShape", () => {
-    const text = lines("grammar g", "start E", "space \" \"", "token N = /[0-9]+/ as int", "sort E parens \"(\" \")\" { fact(o: E) = \"!\" o @ postfix 10; num(n: N) = n; }", '');
+    const text = lines("grammar g", "start E", "space \" \"", "token N = /[0-9]{1,9}/ as int", "sort E parens \"(\" \")\" { fact(o: E) = \"!\" o @ postfix 10; num(n: N) = n; }", '');
     expect(report(text)).toBe(
       lines(
         "g.twg:5:38: error: layout of `fact` does not fit `postfix`: a postfix layout begins with a required field of sort `E` and ends with literal text",
@@ -671,7 +706,7 @@ describe('diagnostics', () => {
   });
 
   it("noParens", () => {
-    const text = lines("grammar g", "start E", "space \" \"", "token N = /[0-9]+/ as int", "sort E { add(l: E, r: E) = l \"+\" r @ infix left 10; num(n: N) = n; }", '');
+    const text = lines("grammar g", "start E", "space \" \"", "token N = /[0-9]{1,9}/ as int", "sort E { add(l: E, r: E) = l \"+\" r @ infix left 10; num(n: N) = n; }", '');
     expect(report(text)).toBe(
       lines(
         "g.twg:5:6: error: sort `E` has operators but no `parens`",
@@ -684,7 +719,7 @@ describe('diagnostics', () => {
   });
 
   it("assocConflict", () => {
-    const text = lines("grammar g", "start E", "space \" \"", "token N = /[0-9]+/ as int", "sort E parens \"(\" \")\" {", "  add(l: E, r: E) = l \"+\" r @ infix left 10;", "  sub(l: E, r: E) = l \"-\" r @ infix right 10;", "  num(n: N) = n;", "}", '');
+    const text = lines("grammar g", "start E", "space \" \"", "token N = /[0-9]{1,9}/ as int", "sort E parens \"(\" \")\" {", "  add(l: E, r: E) = l \"+\" r @ infix left 10;", "  sub(l: E, r: E) = l \"-\" r @ infix right 10;", "  num(n: N) = n;", "}", '');
     expect(report(text)).toBe(
       lines(
         "g.twg:7:29: error: infix operators `add` and `sub` share precedence 10 but not associativity",
