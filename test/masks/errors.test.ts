@@ -8,6 +8,7 @@ import { execFileSync } from 'node:child_process';
 import { mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
+import { compileDescription } from '../../src/description/index.ts';
 import { compileMasks, loadOrCompile, MaskError } from '../../src/masks/index.ts';
 import { BYTE_LEVEL_CHAR_TO_BYTE, VocabularyError } from '../../src/vocab/index.ts';
 import { grammar, rng, ROOT, smallVocabulary } from './helpers.ts';
@@ -120,6 +121,33 @@ describe('the cache', () => {
     expect(third.fromCache).toBe(false);
     expect(third.warning).toBe(`${first.file}: not a usable mask cache (checksum mismatch); expected a file written by treewright for key ${first.file!.split('/').pop()!.slice(0, 12)}…; rebuilt it`);
     expect(loadOrCompile(jsonGrammar, jsonText, tinyPath, cacheDir).fromCache).toBe(true);
+  });
+});
+
+describe('the cache and changed token classes', () => {
+  it('a cache written for a description with unbounded digits is never used for the bounded one', () => {
+    const cacheDir = join(dir, 'cache-digits');
+    const arith = grammar('arith');
+    const boundedText = readFileSync(arith.file, 'utf8');
+    const unboundedText = boundedText.replace('/[0-9]{1,9}(?:\\.[0-9]{1,6})?/', '/[0-9]+(?:\\.[0-9]+)?/');
+    expect(unboundedText).not.toBe(boundedText);
+    const unbounded = compileDescription(unboundedText, arith.file).grammar!;
+    const old = loadOrCompile(unbounded, unboundedText, tinyPath, cacheDir);
+    const now = loadOrCompile(arith, boundedText, tinyPath, cacheDir);
+    expect(now.fromCache).toBe(false);
+    expect(now.file).not.toBe(old.file);
+    const zero = '0'.charCodeAt(0); // the tiny tokenizer's id of a byte is the byte
+    const digitAfterNine = (r: ReturnType<typeof loadOrCompile>) => {
+      const c = r.engine.bind({ Func: ['max'] });
+      const m = new Uint32Array((c.vocabSize + 31) >>> 5);
+      c.fillMask(c.advanceBytes(c.start(), utf8.encode('123456789')), Infinity, m);
+      return ((m[zero >>> 5] >>> (zero & 31)) & 1) === 1;
+    };
+    expect(digitAfterNine(old)).toBe(true);
+    expect(digitAfterNine(now)).toBe(false);
+    const again = loadOrCompile(arith, boundedText, tinyPath, cacheDir);
+    expect(again.fromCache).toBe(true);
+    expect(digitAfterNine(again)).toBe(false);
   });
 });
 

@@ -12,7 +12,7 @@ import { createParser, printTree, sampleTree, type Tree } from '../../src/tree/i
 const description = (levels: Record<string, number>) => `grammar ops
 start E
 space " "
-token N = /[0-9]+/ as int
+token N = /[0-9]{1,9}/ as int
 sort E parens "(" ")" {
   eq(l: E, r: E) = l "==" r @ infix none 5;
   add(l: E, r: E) = l "+" r @ infix left 10;
