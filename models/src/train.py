@@ -135,6 +135,25 @@ def evaluate(model, pairs, sp, batch_size=64, max_len=200):
     }, predictions
 
 
+def export(model, model_dir, plain_decoder):
+    """Exports through seq2seq.export_onnx into a temporary folder and copies the shipped files
+    (the tokenizer files stay as train_tokenizer.py wrote them)."""
+    with tempfile.TemporaryDirectory() as tmp:
+        with open(os.path.join(model_dir, 'tokenizer_config.json'), encoding='utf-8') as f:
+            tconf = json.load(f)
+        export_onnx(model, tmp, os.path.join(model_dir, 'tokenizer.json'), tconf,
+                    {'pad_id': PAD, 'eos_id': EOS, 'decoder_start_id': START, 'unk_id': UNK},
+                    prefixes=PREFIXES)
+        os.makedirs(os.path.join(model_dir, 'onnx'), exist_ok=True)
+        for name in ('config.json', 'generation_config.json', 'tokenizer_config.json'):
+            shutil.copyfile(os.path.join(tmp, name), os.path.join(model_dir, name))
+        # the merged decoder serves every step; the cache-less one only on request (size budget)
+        names = ['encoder_model.onnx', 'decoder_model_merged.onnx'] + (['decoder_model.onnx'] if plain_decoder else [])
+        for name in names:
+            shutil.copyfile(os.path.join(tmp, 'onnx', name), os.path.join(model_dir, 'onnx', name))
+    print('exported to', model_dir, flush=True)
+
+
 def main():
     ap = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
     ap.add_argument('--model-dir', default=os.path.join(ROOT, 'models', 'coop'))
@@ -156,12 +175,20 @@ def main():
     ap.add_argument('--threads', type=int, default=1)
     ap.add_argument('--measure-only', action='store_true', help='time 20 steps and exit')
     ap.add_argument('--no-export', action='store_true')
+    ap.add_argument('--export-from', metavar='CHECKPOINT',
+                    help='only export a checkpoint saved by an earlier run (/tmp/coop-model.pt)')
     ap.add_argument('--plain-decoder', action='store_true',
                     help='also ship onnx/decoder_model.onnx (the cache-less decoder, +6.7 MB)')
     args = ap.parse_args()
 
     import sentencepiece as spm
     torch.set_num_threads(args.threads)
+    if args.export_from:
+        ckpt = torch.load(args.export_from)
+        model = Seq2Seq.from_config_dict(ckpt['config'])
+        model.load_state_dict(ckpt['state'])
+        export(model.eval(), args.model_dir, args.plain_decoder)
+        return
     torch.manual_seed(args.seed)
     rng = random.Random(args.seed)
     data_dir = os.path.join(args.model_dir, 'data')
@@ -243,19 +270,7 @@ def main():
                os.path.join(tempfile.gettempdir(), 'coop-model.pt'))
 
     if not args.no_export:
-        with tempfile.TemporaryDirectory() as tmp:
-            with open(os.path.join(args.model_dir, 'tokenizer_config.json'), encoding='utf-8') as f:
-                tconf = json.load(f)
-            export_onnx(model, tmp, os.path.join(args.model_dir, 'tokenizer.json'), tconf,
-                        {'pad_id': PAD, 'eos_id': EOS, 'decoder_start_id': START, 'unk_id': UNK})
-            os.makedirs(os.path.join(args.model_dir, 'onnx'), exist_ok=True)
-            for name in ('config.json', 'generation_config.json', 'tokenizer_config.json'):
-                shutil.copyfile(os.path.join(tmp, name), os.path.join(args.model_dir, name))
-            # the merged decoder serves every step; the cache-less one only on request (size budget)
-            names = ['encoder_model.onnx', 'decoder_model_merged.onnx'] + (['decoder_model.onnx'] if args.plain_decoder else [])
-            for name in names:
-                shutil.copyfile(os.path.join(tmp, 'onnx', name), os.path.join(args.model_dir, 'onnx', name))
-        print('exported to', args.model_dir, flush=True)
+        export(model, args.model_dir, args.plain_decoder)
     with open(os.path.join(args.model_dir, 'training_log.json'), 'w', encoding='utf-8') as f:
         json.dump(log, f, indent=1)
     with open(os.path.join(tempfile.gettempdir(), 'coop-predictions.json'), 'w', encoding='utf-8') as f:
