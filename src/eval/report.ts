@@ -93,11 +93,11 @@ ${lat('latency_ms_p50', 'latency p50')}
 ${lat('latency_ms_p95', 'latency p95')}</tbody></table>`;
 }
 
-function taxonomyTable(entries: readonly TaxonomyEntry[], mode: Mode): string {
+function taxonomyTable(entries: readonly TaxonomyEntry[], mode: Mode, shown: ReadonlySet<string>): string {
   if (entries.length === 0) return `<p class="quiet">No ${mode} output failed.</p>`;
   const total = entries.reduce((s, e) => s + e.count, 0);
   return `<table class="taxonomy" data-mode="${mode}"><thead><tr><th>where it first went wrong</th><th>count</th><th>share</th><th>example</th></tr></thead><tbody>
-${entries.map((e) => `<tr><td><code>${esc(e.category)}</code></td><td class="count">${e.count}</td><td>${pct(e.count / total)}</td><td><a href="#card-${esc(e.example)}">${esc(e.example)}</a></td></tr>`).join('\n')}
+${entries.map((e) => `<tr><td><code>${esc(e.category)}</code></td><td class="count">${e.count}</td><td>${pct(e.count / total)}</td><td>${shown.has(e.example) ? `<a href="#card-${esc(e.example)}">${esc(e.example)}</a>` : esc(e.example)}</td></tr>`).join('\n')}
 </tbody></table>`;
 }
 
@@ -253,6 +253,8 @@ mark.end { background: none; color: var(--bad); border: none; font-weight: 700; 
 .good { color: var(--good); font-weight: 600; text-transform: none; } .bad { color: var(--bad); font-weight: 600; text-transform: none; } .warn { color: var(--warn); font-weight: 600; text-transform: none; }
 .note { font-size: 13px; color: var(--quiet); max-width: 80ch; }
 code { font: 12.5px ui-monospace, Menlo, Consolas, monospace; }
+.taxonomy td:last-child, .taxonomy td.count { white-space: nowrap; font-size: 12.5px; }
+.taxonomy code { white-space: normal; }
 `;
 
 /** Builds the report's HTML text. */
@@ -282,6 +284,7 @@ export function renderReport(input: ReportInput): string {
     return pct(sorted[Math.floor((sorted.length - 1) / 2)]);
   };
   const examples = pickExamples(input.rows, input.examples ?? 8);
+  const shown = new Set(examples.map(([u]) => u.id));
   return `<!doctype html>
 <html lang="en"><head><meta charset="utf-8"><meta name="viewport" content="width=device-width, initial-scale=1">
 <title>${esc(input.title ?? 'treewright evaluation')}</title>
@@ -304,9 +307,9 @@ unconstrained <b>${maskShare('unconstrained')}</b>, constrained <b>${maskShare('
 
 <h2>Where unconstrained outputs first went wrong</h2>
 <div class="grid">
-<div>${taxonomyTable(input.taxonomy.unconstrained, 'unconstrained')}
-<h3 class="quiet" style="font-size:14px">constrained</h3>${taxonomyTable(input.taxonomy.constrained, 'constrained')}</div>
-<div class="chart"><canvas id="chart-taxonomy" data-chart="taxonomy"></canvas></div>
+<div>${taxonomyTable(input.taxonomy.unconstrained, 'unconstrained', shown)}
+<h3 class="quiet" style="font-size:14px">constrained</h3>${taxonomyTable(input.taxonomy.constrained, 'constrained', shown)}</div>
+<div class="chart" style="height:${Math.max(320, 80 + 48 * Math.min(12, input.taxonomy.unconstrained.length))}px"><canvas id="chart-taxonomy" data-chart="taxonomy"></canvas></div>
 </div>
 
 <h2>Examples</h2>
