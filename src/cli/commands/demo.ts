@@ -17,6 +17,7 @@ import { compileDescription } from '../../description/index.ts';
 import type { Grammar, NameBindings } from '../../description/ir.ts';
 import { buildSqliteFileFrom } from '../../exec/database.ts';
 import { createParser, createSampler, loadNames, namesFromDatabase, printTree, sampleTree } from '../../tree/index.ts';
+import { modelSection } from './demo-model.ts';
 import type { RegisterCommand } from './index.ts';
 
 /** What every section may use. Built once by runDemo. */
@@ -179,7 +180,7 @@ const errorSection: DemoSection = {
 };
 
 /** The tour, in order. Later stages append their sections here. */
-export const SECTIONS: DemoSection[] = [checkSection, sampleSection, parseSection, errorSection];
+export const SECTIONS: DemoSection[] = [modelSection, checkSection, sampleSection, parseSection, errorSection];
 
 /** Runs every section; returns the exit code (1 when a section fails, after reporting it). */
 export async function runDemo(out: (line: string) => void): Promise<number> {
@@ -204,7 +205,7 @@ export async function runDemo(out: (line: string) => void): Promise<number> {
       ['arith', loadNames(inRepo('grammars/arith/samples/names.json'))],
     ]);
     const ctx: DemoContext = { grammars, database, sqlNames: namesFromDatabase(database), schema, names };
-    out('treewright demo: the grammar side, on the shipped grammars');
+    out('treewright demo: the shipped model and grammars');
     for (const section of SECTIONS) {
       out('');
       out(section.title);
