@@ -30,6 +30,19 @@ describe('demo', () => {
     for (const file of ['broken.sql', 'broken.lf', 'broken.json']) {
       expect(lines.some((l) => new RegExp(`^${file.replace('.', '\\.')}:1:\\d+: `).test(l)), file).toBe(true);
     }
+    // the model part: five questions, each decoded both ways; every constrained output is
+    // well-typed and executed (the guarantee), whatever the unconstrained one did
+    const constrained = lines.flatMap((l, i) => (l.trimStart().startsWith('constrained ') ? [i] : []));
+    expect(constrained.length).toBe(5);
+    for (const i of constrained) {
+      expect(lines[i + 1], lines[i]).toMatch(/^\s+well-typed \(/);
+      expect(lines[i + 2], lines[i]).toMatch(/^\s+answer: /);
+    }
+    // Q1's gold SQL run by SQLite itself (the outside reference) gives the count the demo shows
+    const q1 = lines.findIndex((l) => l.startsWith('Q1 '));
+    const gold = lines[q1 + 1].replace(/^\s+gold \(sql\)\s+/, '');
+    const count = coopDatabase().prepare(gold).pluck().get();
+    expect(lines.slice(q1, q1 + 8).filter((l) => l.trim() === `answer: ${count}`).length).toBeGreaterThanOrEqual(1);
     // every sampled SQL program is shown with SQLite's verdict
     const verdicts = lines.filter((l) => l.startsWith('    SQLite: '));
     expect(verdicts.length).toBe(4);
