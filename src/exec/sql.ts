@@ -154,8 +154,8 @@ export function checkSelectTree(tree: Tree): string | null {
   if (tree === null || typeof tree !== 'object' || typeof tree.kind !== 'string') {
     return 'the program is not a tree (expected a JSON object with a "kind")';
   }
-  if (tree.kind !== 'select') {
-    return `only a single SELECT may run, but the tree's root is "${tree.kind}" (at $.kind)`;
+  if (tree.kind !== 'select' && tree.kind !== 'grouped') {
+    return `only a single SELECT may run, but the tree's root is "${tree.kind}" (at $.kind; expected "select" or "grouped")`;
   }
   return null;
 }

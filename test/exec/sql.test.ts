@@ -92,8 +92,11 @@ describe('SqlRunner', () => {
 });
 
 describe('checkSelectTree', () => {
-  it('accepts a select root and names any other root', () => {
+  it('accepts a select or grouped root and names any other root', () => {
     expect(checkSelectTree({ kind: 'select' })).toBeNull();
-    expect(checkSelectTree({ kind: 'subselect' })).toBe('only a single SELECT may run, but the tree\'s root is "subselect" (at $.kind)');
+    expect(checkSelectTree({ kind: 'grouped' })).toBeNull();
+    expect(checkSelectTree({ kind: 'subselect' })).toBe(
+      'only a single SELECT may run, but the tree\'s root is "subselect" (at $.kind; expected "select" or "grouped")',
+    );
   });
 });
