@@ -15,10 +15,13 @@ export interface Step {
   readonly index: number;
   readonly id: number;
   readonly token: string;
-  /** tokens the grammar allowed before this one was chosen; null once the text left the grammar */
+  /** tokens the constrained decoder allowed before this one was chosen (the grammar's mask under
+   * the length budget left); null once the text left the grammar */
   readonly allowed_count: number | null;
-  /** whether the chosen token was allowed (null once the text left the grammar earlier) */
+  /** whether the chosen token was among them (null once the text left the grammar earlier) */
   readonly allowed: boolean | null;
+  /** whether the text after this token is still a prefix of some program (null after it was not) */
+  readonly viable: boolean | null;
   /** output text after this token */
   readonly text: string;
   /** non-whitespace characters in `text` (what tree-view offsets count) */
@@ -29,8 +32,11 @@ export interface StepsResult {
   readonly steps: Step[];
   /** tokens the grammar allowed where the sequence ended (EOS among them when complete) */
   readonly final_allowed_count: number | null;
-  /** the first step whose token the grammar did not allow, or null */
+  /** the first step after which the text is no longer a prefix of any program, or null */
   readonly left_grammar_at: number | null;
+  /** the first step whose token kept the text a program prefix but left too few tokens to finish
+   * it (the length budget), or null */
+  readonly over_budget_at: number | null;
 }
 
 function popcount(mask: Uint32Array): number {
@@ -61,29 +67,36 @@ export function replaySteps(
   let state: MaskState | null = constraint.start();
   const steps: Step[] = [];
   let left: number | null = null;
+  let overBudget: number | null = null;
   for (let i = 0; i < tokens.length; i++) {
     let count: number | null = null;
     let allowed: boolean | null = null;
+    let viable: boolean | null = null;
     if (state !== null) {
       constraint.fillMask(state, maxTokens - i, mask);
       count = popcount(mask);
       const id = tokens[i];
       allowed = id < constraint.vocabSize && (mask[id >>> 5] & (1 << (id & 31))) !== 0;
-      if (allowed) state = constraint.advance(state, id);
-      else {
-        state = null;
-        left = i;
+      let next: MaskState | null = null;
+      try {
+        next = constraint.advance(state, id);
+      } catch {
+        // advance refuses a token after which the text is no program prefix (or a special token)
       }
+      viable = next !== null;
+      if (!allowed && viable && overBudget === null) overBudget = i;
+      if (!viable) left = i;
+      state = next;
     }
     const text = textOf(tokens.slice(0, i + 1));
-    steps.push({ index: i, id: tokens[i], token: tokenTexts[i], allowed_count: count, allowed, text, filled: nonSpace(text) });
+    steps.push({ index: i, id: tokens[i], token: tokenTexts[i], allowed_count: count, allowed, viable, text, filled: nonSpace(text) });
   }
   let final: number | null = null;
   if (state !== null) {
-    constraint.fillMask(state, maxTokens - tokens.length, mask);
+    constraint.fillMask(state, Math.max(0, maxTokens - tokens.length), mask);
     final = popcount(mask);
   }
-  return { steps, final_allowed_count: final, left_grammar_at: left };
+  return { steps, final_allowed_count: final, left_grammar_at: left, over_budget_at: overBudget };
 }
 
 export interface TreeViewNode {
@@ -97,85 +110,91 @@ export interface TreeViewNode {
   readonly children: TreeViewNode[];
 }
 
-interface Draft {
-  label: string;
-  field: string | null;
-  /** canonical token range [first, last] of the leaves below; -1 when there are none */
-  first: number;
-  last: number;
-  children: Draft[];
-}
-
 /**
- * A tree view of `tree` with text extents. Leaves (token and name values) are matched, in layout
- * order, to the canonical tokens (printTokens); a node's extent runs from just after the leaf
- * before it (so keywords that introduce a node belong to it) to its own last leaf. Offsets skip
- * whitespace, so they hold for any spacing of the same tokens (the model may space differently
- * from the canonical print).
+ * A tree view of `tree` with text extents. The canonical tokens (printTokens) are walked along the
+ * layouts, as the printer produced them: a text item is one token, a slot is its value's tokens
+ * (wrapped in the sort's parens when the printer added them), list elements are separated by their
+ * separator token. So each node covers exactly its own tokens, keywords included. Offsets skip
+ * whitespace, so they hold for any spacing of the same tokens (the model may space differently from
+ * the canonical print). Should the walk ever disagree with the tokens, the view is the root alone.
  */
 export function treeView(grammar: Grammar, tree: unknown): TreeViewNode {
   const byName = new Map(grammar.constructors.map((c) => [c.name, c]));
+  const sorts = new Map(grammar.sorts.map((x) => [x.name, x]));
   const tokenClass = new Map(grammar.tokens.map((t) => [t.name, t]));
   const nameToken = new Map(grammar.nameSets.map((n) => [n.name, tokenClass.get(n.token)!]));
   const toks = printTokens(grammar, tree);
   const offs = [0];
   for (const t of toks) offs.push(offs[offs.length - 1] + nonSpace(t.text));
-  let cursor = 0;
-  const leaf = (lexeme: string, field: string): Draft => {
-    for (let i = cursor; i < toks.length; i++) {
-      if (toks[i].text === lexeme) {
-        cursor = i + 1;
-        return { label: lexeme, field, first: i, last: i, children: [] };
-      }
+  let at = 0;
+  const take = (text: string): boolean => {
+    if (at < toks.length && toks[at].text === text) {
+      at++;
+      return true;
     }
-    return { label: lexeme, field, first: -1, last: -1, children: [] };
+    return false;
   };
-  const visit = (node: Tree, field: string | null): Draft => {
-    const ctor = byName.get(node.kind);
-    const children: Draft[] = [];
-    const fieldOf = new Map(ctor?.fields.map((f) => [f.name, f]) ?? []);
-    const slot = (name: string) => {
-      const f = fieldOf.get(name);
-      if (f === undefined) return;
-      const value = node[name];
-      const one = (v: unknown, label: string) => {
-        if (v === null || v === undefined) return;
-        if (f.type.kind === 'sort') children.push(visit(v as Tree, label));
-        else {
-          const cls = f.type.kind === 'token' ? tokenClass.get(f.type.name) : nameToken.get(f.type.name);
-          const lexeme = cls ? valueToLexeme(cls.value, v as string | number) : String(v);
-          children.push(leaf(lexeme, label));
-        }
-      };
-      if (Array.isArray(value)) value.forEach((v, i) => one(v, `${name}[${i}]`));
-      else one(value, name);
-    };
-    const walk = (items: readonly LayoutItem[]) => {
-      for (const it of items) {
-        if (it.kind === 'slot') slot(it.field);
-        else if (it.kind === 'when') walk(it.items);
+
+  // each returns the view of what it consumed, or null (and `at` restored) when the tokens disagree
+  const node = (value: Tree, field: string | null): TreeViewNode | null => {
+    const ctor = byName.get(value.kind);
+    if (ctor === undefined) return null;
+    const start = at;
+    const plain = body(value, ctor, field, start);
+    if (plain !== null) return plain;
+    at = start;
+    const parens = sorts.get(ctor.sort)?.parens;
+    if (parens && take(parens.open)) {
+      const inner = body(value, ctor, field, start);
+      if (inner !== null && take(parens.close)) return { ...inner, end: offs[at] };
+    }
+    at = start;
+    return null;
+  };
+  const body = (value: Tree, ctor: (typeof grammar.constructors)[number], field: string | null, start: number): TreeViewNode | null => {
+    const children: TreeViewNode[] = [];
+    const fields = new Map(ctor.fields.map((f) => [f.name, f]));
+    const one = (v: unknown, f: (typeof ctor.fields)[number], label: string): boolean => {
+      if (f.type.kind === 'sort') {
+        const child = node(v as Tree, label);
+        if (child === null) return false;
+        children.push(child);
+        return true;
       }
+      const cls = f.type.kind === 'token' ? tokenClass.get(f.type.name) : nameToken.get(f.type.name);
+      const lexeme = cls ? valueToLexeme(cls.value, v as string | number) : String(v);
+      const from = at;
+      if (!take(lexeme)) return false;
+      children.push({ label: lexeme, field: label, start: offs[from], end: offs[at], children: [] });
+      return true;
     };
-    walk(ctor?.layout ?? []);
-    const placed = children.filter((c) => c.first >= 0);
-    return { label: node.kind, field, first: placed.length ? placed[0].first : -1, last: placed.length ? placed[placed.length - 1].last : -1, children };
+    const items = (list: readonly LayoutItem[]): boolean => {
+      for (const it of list) {
+        if (it.kind === 'text') {
+          if (!take(it.text)) return false;
+        } else if (it.kind === 'when') {
+          const v = value[it.field];
+          const present = Array.isArray(v) ? v.length > 0 : v !== null && v !== undefined;
+          if (present && !items(it.items)) return false;
+        } else {
+          const f = fields.get(it.field);
+          if (f === undefined) return false;
+          const v = value[it.field];
+          if (Array.isArray(v)) {
+            for (let i = 0; i < v.length; i++) {
+              if (i > 0 && it.sep !== null && !take(it.sep)) return false;
+              if (!one(v[i], f, `${it.field}[${i}]`)) return false;
+            }
+          } else if (v !== null && v !== undefined && !one(v, f, it.field)) return false;
+        }
+      }
+      return true;
+    };
+    if (!items(ctor.layout)) return null;
+    return { label: value.kind, field, start: offs[start], end: offs[at], children };
   };
-  const root = visit(tree as Tree, null);
-  // extents: a node starts right after the last token placed before it, and ends at its last leaf
-  // (nodes without leaves end where the next token placed after them starts)
-  const finish = (d: Draft, lo: number, hi: number): TreeViewNode => {
-    const start = lo;
-    const end = d.last >= 0 ? d.last + 1 : hi;
-    const kids: TreeViewNode[] = [];
-    let prev = lo;
-    d.children.forEach((c, i) => {
-      let nextStart = end;
-      for (let j = i + 1; j < d.children.length; j++) if (d.children[j].first >= 0) { nextStart = d.children[j].first; break; }
-      const child = finish(c, c.first >= 0 ? Math.max(prev, lo) : prev, c.first >= 0 ? c.last + 1 : nextStart);
-      kids.push(child);
-      if (c.last >= 0) prev = c.last + 1;
-    });
-    return { label: d.label, field: d.field, start: offs[start], end: offs[Math.max(start, end)], children: kids };
-  };
-  return finish(root, 0, toks.length);
+
+  const root = node(tree as Tree, null);
+  if (root !== null && at === toks.length) return root;
+  return { label: (tree as Tree).kind, field: null, start: 0, end: offs[toks.length], children: [] };
 }

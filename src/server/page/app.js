@@ -141,18 +141,21 @@ function renderRun(key, run, upto) {
     let cls = 'chip';
     if (i < shown) cls += ' seen';
     if (i === shown - 1) cls += ' now';
-    if (s.allowed === false) cls += ' off';
+    if (s.viable === false) cls += ' off';
+    else if (s.allowed === false) cls += ' over';
     else if (s.allowed === null) cls += ' after';
-    const tip = s.allowed_count === null ? 'after the text left the grammar' : `${s.allowed_count} tokens allowed here${s.allowed === false ? '; this one was not' : ''}`;
+    const tip = s.allowed_count === null ? 'after the text left the grammar'
+      : `${s.allowed_count} tokens allowed here${s.viable === false ? '; this one leaves the grammar' : s.allowed === false ? '; this one fits the grammar but leaves too few tokens to finish' : ''}`;
     // spaces shown as a visible mark so whitespace tokens do not look empty
     chips.append(el('span', { class: cls, title: `step ${i + 1}: ${JSON.stringify(s.token)} (id ${s.id}) — ${tip}`, text: s.token.replace(/ /g, '\u2423') }));
   });
 
   const left = run.left_grammar_at;
-  const caption = el('p', { class: 'caption' },
-    left === null
-      ? `Allowed tokens per step (of ${state.vocab}; log scale).`
-      : `Allowed tokens per step (log scale). Step ${left + 1} chose a token the grammar does not allow; from there on the text is no program prefix.`);
+  const over = run.over_budget_at;
+  let captionText = `Allowed tokens per step (of ${state.vocab}; log scale).`;
+  if (over !== null && (left === null || over < left)) captionText += ` From step ${over + 1} (amber) the text no longer fits the ${run.steps.length + (run.finished === 'eos' ? 1 : 0)}-token budget.`;
+  if (left !== null) captionText += ` Step ${left + 1} (red) chose a token after which the text is no program prefix.`;
+  const caption = el('p', { class: 'caption' }, captionText);
 
   const sofar = el('div', { class: 'sofar', id: `${key}-sofar`, title: 'text so far', text: cur ? cur.text : '' });
 
@@ -160,6 +163,7 @@ function renderRun(key, run, upto) {
 
   // the tokens the grammar allows after the text so far (asked from /api/mask when not playing)
   if (run.left_grammar_at === null || shown <= run.left_grammar_at) {
+    // (with no length budget: after an amber step the grammar still allows these)
     const allowedBox = el('div', { class: 'allowed', id: `${key}-allowed` });
     parts.push(el('div', { class: 'note', text: 'allowed next (no length budget)' }), allowedBox);
     if (state.timer === null) scheduleAllowed(key, run, cur ? cur.text : '', allowedBox);
@@ -238,7 +242,7 @@ function chart(run, shown) {
   run.steps.forEach((s, i) => {
     const v = s.allowed_count;
     const h = v === null ? 4 : Math.max(2, ((H - pad) * Math.log10(v + 1)) / top);
-    const cls = v === null ? 'bar none' : s.allowed === false ? 'bar off' : 'bar';
+    const cls = v === null ? 'bar none' : s.viable === false ? 'bar off' : s.allowed === false ? 'bar over' : 'bar';
     const r = svg('rect', { class: cls, x: 1 + i * bw + bw * 0.1, y: H - h, width: Math.max(bw * 0.8, 0.5), height: h, opacity: i < shown ? 1 : 0.3 });
     const t = svg('title');
     t.textContent = `step ${i + 1}: ${v === null ? 'outside the grammar' : `${v} allowed`}`;
