@@ -403,7 +403,7 @@ export class Generator {
     const body = lf.conj(lfDesc(d, lf.var(v), vars));
     const lfTree = dir === 'max' ? lf.argmax(v, body, m.name) : lf.argmin(v, body, m.name);
     const where = sql.conj(sqlDesc(d, false));
-    const key = sql.byColumn(sql.col(m.column));
+    const key = sql.col(m.column);
     const sqlTree = sql.select({
       items: [sql.column(sql.col('name'))], from: this.table(cls), where,
       order: [sql.order(key, dir === 'max' ? 'desc' : null)], limit: 1,
@@ -495,7 +495,7 @@ export class Generator {
     const lfTree = dir === 'max' ? lf.argmax(v, body, m.name) : lf.argmin(v, body, m.name);
     const nameIs = (n: string) => sql.compare(sql.ref(sql.col('name')), 'eq', sql.str(n));
     const where = sql.or(nameIs(a), nameIs(b));
-    const key = sql.byColumn(sql.col(m.column));
+    const key = sql.col(m.column);
     const sqlTree = sql.select({
       items: [sql.column(sql.col('name'))], from: this.table(cls), where,
       order: [sql.order(key, dir === 'max' ? 'desc' : null)], limit: 1,

@@ -57,18 +57,24 @@ export interface SelectParts {
 }
 
 export const sql = {
-  select: (p: SelectParts): Node => ({
-    kind: 'select',
-    distinct: p.distinct ? { kind: 'distinct' } : null,
-    items: p.items,
-    from: p.from,
-    joins: p.joins ?? [],
-    where: p.where ?? null,
-    group: p.group ?? [],
-    having: p.having ?? null,
-    order: p.order ?? [],
-    limit: p.limit ?? null,
-  }),
+  /**
+   * A query: `grouped` when `group` is non-empty (then `order` holds `group_order` nodes), else
+   * `select` (then `order` holds `order` nodes and there may be no `having`).
+   */
+  select: (p: SelectParts): Node => {
+    const head = {
+      distinct: p.distinct ? { kind: 'distinct' } : null,
+      items: p.items,
+      from: p.from,
+      joins: p.joins ?? [],
+      where: p.where ?? null,
+    };
+    if (p.group && p.group.length > 0) {
+      return { kind: 'grouped', ...head, group: p.group, having: p.having ?? null, order: p.order ?? [], limit: p.limit ?? null };
+    }
+    if (p.having) throw new Error('sql.select: a HAVING clause needs a non-empty GROUP BY');
+    return { kind: 'select', ...head, order: p.order ?? [], limit: p.limit ?? null };
+  },
   col: (column: string, table: string | null = null): Node => ({ kind: 'col', table, column }),
   column: (col: Node): Node => ({ kind: 'column', col }),
   aggregate: (agg: Node): Node => ({ kind: 'aggregate', agg }),
@@ -93,8 +99,8 @@ export const sql = {
   num: (value: number): Node =>
     Number.isInteger(value) ? { kind: 'int', value } : { kind: 'dec', value },
   str: (value: string): Node => ({ kind: 'str', value }),
-  order: (key: Node, dir: 'asc' | 'desc' | null): Node => ({ kind: 'order', key, dir: dir ? { kind: dir } : null }),
-  byColumn: (col: Node): Node => ({ kind: 'by_column', col }),
+  /** an ORDER BY key of an ungrouped query: a column only */
+  order: (col: Node, dir: 'asc' | 'desc' | null): Node => ({ kind: 'order', col, dir: dir ? { kind: dir } : null }),
   /** a left-nested AND of zero or more conditions (null for none) */
   conj: (parts: readonly Node[]): Node | null =>
     parts.length === 0 ? null : parts.slice(1).reduce((acc, p) => sql.and(acc, p), parts[0]),

@@ -207,24 +207,6 @@ export function* nodes(value: unknown): Generator<Node> {
   }
 }
 
-/**
- * Whether a top-level `select` is an aggregate query in SQLite's sense: it has GROUP BY or an
- * aggregate among its result columns (SQLite documentation, "SELECT", section "Generation of the
- * set of result rows": a query is an aggregate query if it has a GROUP BY clause or any aggregate
- * function in its result expressions).
- */
-export function isAggregateQuery(select: Node): boolean {
-  return (select.group as Node[]).length > 0 || (select.items as Node[]).some((i) => i.kind === 'aggregate');
-}
-
-/**
- * Whether a top-level `select` uses something only an aggregate query may use: a HAVING clause,
- * or an aggregate in ORDER BY.
- */
-export function needsAggregateQuery(select: Node): boolean {
-  return select.having !== null || (select.order as Node[]).some((o) => (o.key as Node).kind === 'by_aggregate');
-}
-
 /** Whether the tree has DISTINCT inside SUM, AVG, MIN or MAX (COUNT(DISTINCT x) excluded). */
 export function hasDistinctInNonCountAggregate(tree: Node): boolean {
   for (const n of nodes(tree)) {

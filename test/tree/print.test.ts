@@ -76,7 +76,7 @@ const ref = (column: string) => n('ref', { col: col(column) });
 const int = (value: number) => n('int', { value });
 const cmp = (left: Tree, op: string, right: Tree) => n('compare', { left, op: n(op), right });
 const select = (fields: Record<string, TreeValue>): Tree =>
-  n('select', { distinct: null, items: [n('star')], from: 't', joins: [], where: null, group: [], having: null, order: [], limit: null, ...fields });
+  n('select', { distinct: null, items: [n('star')], from: 't', joins: [], where: null, order: [], limit: null, ...fields });
 
 describe('print sql', () => {
   it('SELECT *', () => expectPrinted('sql', select({}), 'SELECT * FROM t'));
@@ -84,10 +84,12 @@ describe('print sql', () => {
     expectPrinted('sql', select({ where: n('not', { operand: n('or', { left: cmp(ref('a'), 'eq', int(1)), right: cmp(ref('b'), 'eq', int(2)) }) }) }), 'SELECT * FROM t WHERE NOT (a = 1 OR b = 2)'));
   it('AND binds tighter than OR', () =>
     expectPrinted('sql', select({ where: n('and', { left: n('or', { left: cmp(ref('a'), 'eq', int(1)), right: cmp(ref('b'), 'eq', int(2)) }), right: cmp(ref('c'), 'lt', int(3)) }) }), 'SELECT * FROM t WHERE (a = 1 OR b = 2) AND c < 3'));
-  it('every optional clause, separators glued', () =>
+  it('ORDER BY a column', () =>
+    expectPrinted('sql', select({ order: [n('order', { col: col('name'), dir: n('asc') })], limit: 3 }), 'SELECT * FROM t ORDER BY name ASC LIMIT 3'));
+  it('every optional clause of a grouped query, separators glued', () =>
     expectPrinted(
       'sql',
-      select({
+      n('grouped', {
         distinct: n('distinct'),
         items: [n('column', { col: col('name', 'g') }), n('aggregate', { agg: n('apply', { fn: n('count'), distinct: n('distinct'), col: col('id') }) })],
         from: 'g',
@@ -95,7 +97,7 @@ describe('print sql', () => {
         where: n('like', { subject: col('name'), pattern: "O'Hara%" }),
         group: [col('name', 'g'), col('id')],
         having: n('having', { agg: n('count_rows'), op: n('ge'), value: n('dec', { value: 2.5 }) }),
-        order: [n('order', { key: n('by_column', { col: col('name') }), dir: n('desc') }), n('order', { key: n('by_aggregate', { agg: n('count_rows') }), dir: null })],
+        order: [n('group_order', { key: n('by_column', { col: col('name') }), dir: n('desc') }), n('group_order', { key: n('by_aggregate', { agg: n('count_rows') }), dir: null })],
         limit: 10,
       }),
       "SELECT DISTINCT g.name, COUNT(DISTINCT id) FROM g JOIN o ON g.id = o.grower WHERE name LIKE 'O''Hara%' GROUP BY g.name, id HAVING COUNT(*) >= 2.5 ORDER BY name DESC, COUNT(*) LIMIT 10",

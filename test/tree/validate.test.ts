@@ -11,7 +11,7 @@ const grammar = (name: string) => (grammars[name] ??= loadGrammar(`grammars/${na
 
 const num = (value: unknown) => ({ kind: 'num', value });
 const col = (column: string) => ({ kind: 'col', table: null, column });
-const select = (fields: Record<string, unknown>) => ({ kind: 'select', distinct: null, items: [{ kind: 'star' }], from: 't', joins: [], where: null, group: [], having: null, order: [], limit: null, ...fields });
+const select = (fields: Record<string, unknown>) => ({ kind: 'select', distinct: null, items: [{ kind: 'star' }], from: 't', joins: [], where: null, order: [], limit: null, ...fields });
 
 function expectIssue(g: string, value: unknown, issue: TreeIssue | null, opts: Parameters<typeof validateTree>[2] = {}): void {
   expect(validateTree(grammar(g), value, opts)).toEqual(issue);
