@@ -76,11 +76,27 @@ export function maskEngine(model: Seq2SeqModel, grammar: Grammar): MaskEngine {
   return engine;
 }
 
+const NO_NAMES: NameBindings = Object.freeze({});
+const bindings = new WeakMap<MaskEngine, WeakMap<NameBindings, ReturnType<MaskEngine['bind']>>>();
+
+/**
+ * The engine bound to `names`, kept per bindings object: a constraint keeps the masks it has
+ * computed, so reusing it across questions avoids recomputing them (a fresh bind starts cold).
+ * Pass the same `names` object from call to call to profit from it.
+ */
+export function boundConstraint(engine: MaskEngine, names: NameBindings): ReturnType<MaskEngine['bind']> {
+  let byNames = bindings.get(engine);
+  if (byNames === undefined) bindings.set(engine, (byNames = new WeakMap()));
+  let bound = byNames.get(names);
+  if (bound === undefined) byNames.set(names, (bound = engine.bind(names)));
+  return bound;
+}
+
 /** Decodes a question and, given a grammar, parses and checks the output (see GenerateOptions). */
 export async function generate(model: Seq2SeqModel, question: string, options: GenerateOptions = {}): Promise<GenerateResult> {
-  const { grammar = null, names = {}, unconstrained = false, ...rest } = options;
+  const { grammar = null, names = NO_NAMES, unconstrained = false, ...rest } = options;
   let constraint = rest.constraint ?? null;
-  if (grammar !== null && !unconstrained && constraint === null) constraint = maskEngine(model, grammar).bind(names);
+  if (grammar !== null && !unconstrained && constraint === null) constraint = boundConstraint(maskEngine(model, grammar), names);
   const result = await decode(model, question, { ...rest, constraint: unconstrained ? null : constraint });
   if (grammar === null) return { ...result, tree: null, parses: false, well_typed: false, parse_error: null };
   let tree: Tree;
