@@ -1,0 +1,22 @@
+/**
+ * treewright's library entry: the public API of every pipeline stage, in pipeline order.
+ *
+ *   import { loadGrammar, loadVocabulary, compileMasks, ConstraintLogitsProcessor } from 'treewright';
+ *   const grammar = loadGrammar('grammars/sql/sql.twg');
+ *   const engine = compileMasks(grammar, loadVocabulary('my-model/tokenizer.json'));
+ *   const constraint = engine.bind({ Table: ['orchards'], Column: ['name', 'hectares'] });
+ *
+ * The package ships TypeScript sources (run through tsx or a TypeScript-aware bundler). Each
+ * stage's own index.ts documents what it produces, its costs and its limits.
+ */
+export * from './description/index.ts';
+export type * from './description/ir.ts';
+export type { TokenConstraint } from './util/constraint.ts';
+export * from './tree/index.ts';
+export * from './vocab/index.ts';
+export { compileMasks, MaskEngine, MaskConstraint, MaskError, loadOrCompile, defaultCacheDir, CacheError } from './masks/index.ts';
+export { loadModel, Seq2SeqModel, ModelError } from './model/index.ts';
+export * from './decode/index.ts';
+export { SqlRunner, checkSelectTree, sqlExecutor, evaluateLf, lfExecutor, makeFactBase, factNames, buildCoop, factsFromDatabase, buildSqliteFile, buildSqliteFileFrom, loadExecutor } from './exec/index.ts';
+export type { ExecContext, ExecResult, ExecuteFn, LfAnswer, FactBase } from './exec/index.ts';
+export { evaluate, loadItems, computeMetrics, computeTaxonomy, mcnemarExact, bootstrapRate, writeReport } from './eval/index.ts';
