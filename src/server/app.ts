@@ -7,7 +7,7 @@ import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import Fastify, { type FastifyInstance, type FastifyRequest } from 'fastify';
 import swagger from '@fastify/swagger';
-import { generate, maskEngine, textOf } from '../decode/index.ts';
+import { boundConstraint, generate, maskEngine, textOf } from '../decode/index.ts';
 import type { NameBindings } from '../description/ir.ts';
 import type { Tree } from '../exec/types.ts';
 import { MaskError } from '../masks/index.ts';
@@ -322,7 +322,7 @@ export async function buildServer(registry: Registry, limits: ServerLimits = {})
     return withSlot(async () => {
       let c;
       try {
-        c = maskEngine(m.model, g.grammar).bind(names);
+        c = boundConstraint(maskEngine(m.model, g.grammar), names);
       } catch (e) {
         return modelError(e);
       }
@@ -437,7 +437,7 @@ export async function buildServer(registry: Registry, limits: ServerLimits = {})
       if (b.steps) {
         let c;
         try {
-          c = maskEngine(m.model, g.grammar).bind(names);
+          c = boundConstraint(maskEngine(m.model, g.grammar), names);
         } catch (e) {
           return modelError(e);
         }
