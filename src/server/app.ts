@@ -395,7 +395,7 @@ export async function buildServer(registry: Registry, limits: ServerLimits = {})
     const limit = m.model.config.maxPositions - 1;
     if (b.max_tokens !== undefined && b.max_tokens > limit) throw badField('$.max_tokens', String(b.max_tokens), `at most ${limit} for model ${m.id}`);
     const maxTokens = b.max_tokens ?? Math.min(128, limit);
-    const prefix = b.prefix ?? `${g.grammar.name}: `;
+    const prefix = b.prefix ?? m.model.prefixFor(g.grammar.name);
     const question = b.question.startsWith(prefix) ? b.question : prefix + b.question;
     // the encoder has fixed positions; a longer input would fail inside onnxruntime
     const inputTokens = m.model.encodeQuestion(question).length;

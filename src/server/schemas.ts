@@ -123,7 +123,7 @@ export const generateSchema = {
       top_p: { type: 'number', exclusiveMinimum: 0, maximum: 1 },
       seed: { type: 'integer' },
       max_tokens: { type: 'integer', minimum: 1, maximum: 1024 },
-      prefix: { type: 'string', maxLength: 100, description: 'text put before the question (default "<grammar name>: ")' },
+      prefix: { type: 'string', maxLength: 100, description: 'text put before the question (default: config.json treewright.prefixes[grammar], else "to <grammar name>: " — the prefix the model was trained with)' },
       names,
       steps: { type: 'boolean', description: 'also return each step: chosen token, allowed-token count, text so far; and a tree view' },
       execute: { type: 'boolean', description: 'run a well-typed output with the grammar\'s executor' },

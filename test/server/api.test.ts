@@ -307,7 +307,7 @@ describe('POST /api/generate', () => {
 
   it('constrained: a well-typed program, every step allowed, steps rebuild the text', async () => {
     const r = (await post('/api/generate', { question: q, grammar: 'lf', steps: true, execute: true, max_tokens: 48 })).json();
-    expect(r).toMatchObject({ question: `lf: ${q}`, parses: true, well_typed: true, constrained: true, strategy: 'greedy', model: 'tiny-seq2seq', left_grammar_at: null, over_budget_at: null });
+    expect(r).toMatchObject({ question: `to lf: ${q}`, parses: true, well_typed: true, constrained: true, strategy: 'greedy', model: 'tiny-seq2seq', left_grammar_at: null, over_budget_at: null });
     expect(r.steps.every((s: { viable: boolean }) => s.viable === true)).toBe(true);
     expect(r.steps.length).toBe(r.tokens.length);
     expect(r.steps.every((s: { allowed: boolean; allowed_count: number }) => s.allowed === true && s.allowed_count >= 1)).toBe(true);
@@ -364,7 +364,7 @@ describe('POST /api/generate', () => {
     const config = JSON.parse(readFileSync(`${FIXTURE}/config.json`, 'utf8'));
     const long = await post('/api/generate', { question: 'pears '.repeat(config.max_position_embeddings), grammar: 'lf' });
     expect(long.statusCode).toBe(400);
-    expect(long.json().error.message).toMatch(new RegExp(`^\\$\\.question: found \\d+ tokens \\(with the prefix "lf: "\\); expected at most ${config.max_position_embeddings} tokens for model tiny-seq2seq$`));
+    expect(long.json().error.message).toMatch(new RegExp(`^\\$\\.question: found \\d+ tokens \\(with the prefix "to lf: "\\); expected at most ${config.max_position_embeddings} tokens for model tiny-seq2seq$`));
   });
 });
 
