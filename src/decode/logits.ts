@@ -2,6 +2,7 @@
  * Allocation-free helpers over one row of logits (`row` starts at `off`, `n` entries).
  * Keep in sync with src/decode/hook.ts, which applies the same mask to transformers.js tensors.
  */
+import { mulberry32 } from '../tree/sample.ts';
 
 /** Sets every entry whose bit is clear in `mask` to −Infinity (bit `i & 31` of word `i >>> 5`). */
 export function applyMask(logits: Float32Array, off: number, n: number, mask: Uint32Array): void {
@@ -52,19 +53,15 @@ export function argmax(logits: Float32Array, off: number, n: number): number {
 
 /**
  * A seeded PRNG (mulberry32; common practice, no source): 32-bit state, uniform doubles in [0, 1).
- * Written here because it is ten lines and the decoder needs a reproducible stream per call.
+ * The tree stage's generator, wrapped so the decoder holds one reproducible stream per call.
  */
 export class Prng {
-  private s: number;
+  private readonly draw: () => number;
   constructor(seed: number) {
-    this.s = seed >>> 0;
+    this.draw = mulberry32(seed);
   }
   next(): number {
-    this.s = (this.s + 0x6d2b79f5) >>> 0;
-    let t = this.s;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
+    return this.draw();
   }
 }
 

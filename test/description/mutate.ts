@@ -4,16 +4,8 @@
  */
 
 /** mulberry32: a small 32-bit PRNG (common practice, no source); returns floats in [0, 1). */
-export function rng(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
+import { mulberry32 as rng } from '../../src/tree/sample.ts';
+export { rng };
 
 const PUNCTUATION = '{}[]()";:,=@~?*+/#\\|$-.\'`!<>';
 const TOKEN = /"(?:\\.|[^"\\\n])*"|\/(?:\\.|[^/\n])+\/[a-z]*|[A-Za-z_][A-Za-z0-9_]*|[0-9]+|\S/g;

