@@ -558,13 +558,7 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
     }
     const top = room >= km ? km : room;
     if (top + this.lim - room > this.maxSeen) this.maxSeen = top + this.lim - room;
-    const mask = this.mask;
-    if (noWordStart) {
-      const ws = this.engine.wordStart;
-      for (let w = 0; w < src.length; w++) mask[w] |= src[w] & ~ws[w];
-    } else {
-      for (let w = 0; w < src.length; w++) mask[w] |= src[w];
-    }
+    this.orBits(src, noWordStart);
   }
 
   private orInsideSlow(tables: ClassTables, d: number, room: number, noWordStart: boolean): void {
