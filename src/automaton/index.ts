@@ -2,9 +2,9 @@
  * automaton/ — grammar IR → a pushdown automaton over UTF-8 bytes.
  *
  * Produces `new Automaton(grammar)` (immutable: the recursive transition network of cfg.ts, the
- * token-class DFAs of regex.ts, static next-terminal closures), `automaton.bind(names)` → `Bound`
+ * token-class DFAs of regex.ts, static next-terminal closures), `automaton.bind(names)` → `AutomatonInstance`
  * (name-set tries, liveness and shortest-completion tables; no vocabulary work), and persistent
- * runtime states: `bound.advanceBytes(state, bytes)`, `isComplete`, `viable`, `shortestCompletion`;
+ * runtime states: `instance.advanceBytes(state, bytes)`, `isComplete`, `viable`, `shortestCompletion`;
  * rollback is `state.prev`; forking is sharing the state.
  *
  * Example:
@@ -21,6 +21,6 @@
  * layouts is refused; a `new` field inside an operator constructor stays in scope for the rest of
  * that precedence level (no shipped grammar has one); leading and trailing spaces are accepted.
  */
-export { Automaton, Bound, BindError, Thread, Frame, Env, WORD, INF, type PdaState } from './pda.ts';
+export { Automaton, AutomatonInstance, BindError, Thread, Frame, Env, WORD, INF, type PdaState } from './pda.ts';
 export { buildRtn, closures, AutomatonError, type Rtn, type Terminal, type TerminalKind } from './cfg.ts';
 export { compileRegex, literalDfa, runDfa, RegexError, type ByteDfa } from './regex.ts';

@@ -1,6 +1,6 @@
 /**
  * The pushdown automaton over bytes: an immutable compiled network (`Automaton`), a per-binding
- * layer (`Bound`: name-set tries, liveness and shortest-completion tables under the bound names),
+ * layer (`AutomatonInstance`: name-set tries, liveness and shortest-completion tables under the bound names),
  * and persistent runtime states.
  *
  * Runtime state (`PdaState`) = a set of threads + whether the last byte was a word character.
@@ -16,7 +16,7 @@
  *
  * Invariants (established by construction, relied on by the masks):
  * - Every thread of a state is viable: it has a completion under the bound names (options and
- *   pushed frames are filtered by the liveness tables of `Bound`, computed per mode: with no
+ *   pushed frames are filtered by the liveness tables of `AutomatonInstance`, computed per mode: with no
  *   variable in scope a `bound` field is dead, with some it is live).
  * - A state with no thread is dead; `viable(state)` is one comparison (threads.length !== 0).
  * - The word-boundary rule: a terminal may start with a word byte only if the previous byte was
@@ -116,8 +116,8 @@ export class Automaton {
   }
 
   /** Binds open name sets (and checks them); cheap: no vocabulary work. */
-  bind(names: NameBindings): Bound {
-    return new Bound(this, names);
+  bind(names: NameBindings): AutomatonInstance {
+    return new AutomatonInstance(this, names);
   }
 }
 
@@ -168,7 +168,7 @@ const utf8 = new TextEncoder();
  * The automaton under one binding of the open name sets. Holds the liveness and distance tables;
  * creates and advances runtime states. Immutable after construction.
  */
-export class Bound {
+export class AutomatonInstance {
   /** per terminal: its lexeme DFA under this binding (name sets: the members' DFA) */
   readonly termDfa: readonly ByteDfa[];
   /** option viability per mode: [0] no variable in scope, [1] some variable in scope */

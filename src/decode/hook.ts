@@ -41,7 +41,7 @@ export class ConstraintLogitsProcessor extends LogitsProcessor {
   /** the row arrays of the previous call (transformers.js appends to the same arrays each step) */
   private rows: bigint[][] = [];
   private done: number[] = [];
-  /** milliseconds spent in fillMask / advance / applying masks, over the processor's life */
+  /** milliseconds spent in writeAllowed / advance / applying masks, over the processor's life */
   maskMs = 0;
 
   constructor(constraint: TokenConstraint<unknown>, options: HookOptions = {}) {
@@ -101,7 +101,7 @@ export class ConstraintLogitsProcessor extends LogitsProcessor {
         continue;
       }
       const used = inputIds[r].length - this.promptLength[r];
-      c.fillMask(this.states[r], Math.max(0, this.maxNewTokens - used), this.mask);
+      c.writeAllowed(this.states[r], Math.max(0, this.maxNewTokens - used), this.mask);
       applyMask(data, off, V, this.mask);
       if (width > V) data.fill(-Infinity, off + V, off + width);
     }

@@ -99,7 +99,7 @@ async function* single(model: Seq2SeqModel, question: string | readonly number[]
     const lz = logSumExp(logits, 0, V);
     if (c !== null) {
       const m0 = performance.now();
-      c.fillMask(state, o.maxTokens - i, mask);
+      c.writeAllowed(state, o.maxTokens - i, mask);
       applyMask(logits, 0, V, mask);
       maskMs += performance.now() - m0;
     }
@@ -204,7 +204,7 @@ async function beam(model: Seq2SeqModel, question: string | readonly number[], o
       const lz = logSumExp(logits, off, V);
       if (c !== null) {
         const m0 = performance.now();
-        c.fillMask(beams[r].state, o.maxTokens - step, mask);
+        c.writeAllowed(beams[r].state, o.maxTokens - step, mask);
         applyMask(logits, off, V, mask);
         maskMs += performance.now() - m0;
       }

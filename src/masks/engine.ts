@@ -23,7 +23,7 @@
 import type { NameBindings, Grammar } from '../description/ir.ts';
 import type { TokenConstraint } from '../util/constraint.ts';
 import { popcount32 } from '../util/bitset.ts';
-import { Automaton, Bound, Env, Frame, Thread, WORD, INF, type PdaState, type Dispatch } from '../automaton/pda.ts';
+import { Automaton, AutomatonInstance, Env, Frame, Thread, WORD, INF, type PdaState, type Dispatch } from '../automaton/pda.ts';
 import type { Vocabulary, TokenTrie } from '../vocab/index.ts';
 import { buildClassTables, MAX_LE, wMinAccept, wStep, type ClassTables } from './precompute.ts';
 
@@ -216,7 +216,7 @@ export class MaskEngine {
   }
 }
 
-/** The TokenConstraint implementation. Scratch buffers make `fillMask` allocation-light. */
+/** The TokenConstraint implementation. Scratch buffers make `writeAllowed` allocation-light. */
 export class MaskConstraint implements TokenConstraint<MaskState> {
   readonly vocabSize: number;
   readonly eosIds: readonly number[];
@@ -238,10 +238,10 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
   private collect: number[] | null = null;
   private readonly useLocal: boolean;
 
-  constructor(readonly engine: MaskEngine, readonly bound: Bound) {
+  constructor(readonly engine: MaskEngine, readonly pda: AutomatonInstance) {
     this.vocabSize = engine.vocab.vocabSize;
     this.eosIds = engine.vocab.eosIds;
-    this.useLocal = !bound.automaton.rtn.terminals.some((t) => t.kind === 'newvar' || t.kind === 'boundvar');
+    this.useLocal = !pda.automaton.rtn.terminals.some((t) => t.kind === 'newvar' || t.kind === 'boundvar');
   }
 
   private recordPop(x: number): void {
@@ -332,7 +332,7 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
       const bits = new Uint32Array(nWords);
       this.mask = bits;
       this.popSink = new Set();
-      this.orInside(tables, d, INF - this.bound.betweenDist(n, null, SENTINEL), false);
+      this.orInside(tables, d, INF - this.pda.betweenDist(n, null, SENTINEL), false);
       const ex = tables.exits[d];
       for (let i = 0; i < ex.length; i++) this.walkBetween(ex[i], end, false);
       const popsLex = Uint32Array.from([...this.popSink].sort((p, q) => p - q));
@@ -360,7 +360,7 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
   /** Computes every local mask now (otherwise each is computed on first use). Returns the count. */
   prepare(): number {
     if (!this.useLocal) return 0;
-    const a = this.bound.automaton;
+    const a = this.pda.automaton;
     const nodes = new Set<number>([a.startNode]);
     for (let o = 0; o < a.optTarget.length; o++) {
       nodes.add(a.optTarget[o]);
@@ -371,11 +371,11 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
   }
 
   start(): MaskState {
-    return this.bound.start;
+    return this.pda.start;
   }
 
   isComplete(state: MaskState): boolean {
-    return state.ended === true || this.bound.isComplete(state);
+    return state.ended === true || this.pda.isComplete(state);
   }
 
   viable(state: MaskState): boolean {
@@ -389,7 +389,7 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
 
   /** Shortest completion of the state in bytes (an achievable upper bound). */
   shortestBytes(state: MaskState): number {
-    return state.ended ? 0 : this.bound.shortestCompletion(state);
+    return state.ended ? 0 : this.pda.shortestCompletion(state);
   }
 
   /**
@@ -397,40 +397,40 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
    * tokens + 1. This is the bound the budget uses.
    */
   tokensToComplete(state: MaskState): number {
-    return state.ended ? 0 : this.bound.shortestCompletion(state) + 1;
+    return state.ended ? 0 : this.pda.shortestCompletion(state) + 1;
   }
 
   advance(state: MaskState, id: number): MaskState {
     const v = this.engine.vocab;
     if (state.ended) throw new MaskError(`token ${id} after the end of sequence; expected nothing more`);
     if (this.eosIds.includes(id)) {
-      if (!this.bound.isComplete(state)) throw new MaskError(`end of sequence (token ${id}) before the program is complete`);
+      if (!this.pda.isComplete(state)) throw new MaskError(`end of sequence (token ${id}) before the program is complete`);
       return { threads: state.threads, prevWord: state.prevWord, prev: state, ended: true };
     }
     if (!v.isNormal(id)) throw new MaskError(`token ${id} is ${id < 0 || id >= v.vocabSize ? 'out of range' : 'special or absent'}; never allowed as program text`);
-    const next = this.bound.advanceBytes(state, v.bytesOf(id));
+    const next = this.pda.advanceBytes(state, v.bytesOf(id));
     if (next.threads.length === 0) throw new MaskError(`token ${id} (${JSON.stringify(v.text(id))}) is not allowed here: the text would not be a prefix of any program`);
     return next;
   }
 
   /** Advances by raw bytes (no token); a dead state when not viable. */
   advanceBytes(state: MaskState, bytes: Uint8Array): MaskState {
-    return this.bound.advanceBytes(state, bytes);
+    return this.pda.advanceBytes(state, bytes);
   }
 
-  fillMask(state: MaskState, budget: number, mask: Uint32Array): void {
+  writeAllowed(state: MaskState, budget: number, mask: Uint32Array): void {
     mask.fill(0);
     if (state.ended || budget < 1) return;
     this.mask = mask;
     this.lim = budget === Infinity ? INF : budget - 2;
     this.rootPrevWord = state.prevWord;
-    const bound = this.bound;
+    const pda = this.pda;
     if (budget >= 2) for (const th of state.threads) this.maskThread(th);
-    if (bound.isComplete(state)) for (const id of this.eosIds) mask[id >>> 5] |= 1 << (id & 31);
+    if (pda.isComplete(state)) for (const id of this.eosIds) mask[id >>> 5] |= 1 << (id & 31);
   }
 
   /** Reference implementation: tries every token with the same automaton (the naive baseline). */
-  fillMaskNaive(state: MaskState, budget: number, mask: Uint32Array): void {
+  writeAllowedNaive(state: MaskState, budget: number, mask: Uint32Array): void {
     mask.fill(0);
     if (state.ended || budget < 1) return;
     const v = this.engine.vocab;
@@ -438,11 +438,11 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
     if (budget >= 2) {
       for (let id = 0; id < v.vocabSize; id++) {
         if (!v.isNormal(id)) continue;
-        const next = this.bound.advanceBytes(state, v.bytesOf(id));
-        if (next.threads.length !== 0 && this.bound.shortestCompletion(next) <= lim) mask[id >>> 5] |= 1 << (id & 31);
+        const next = this.pda.advanceBytes(state, v.bytesOf(id));
+        if (next.threads.length !== 0 && this.pda.shortestCompletion(next) <= lim) mask[id >>> 5] |= 1 << (id & 31);
       }
     }
-    if (this.bound.isComplete(state)) for (const id of this.eosIds) mask[id >>> 5] |= 1 << (id & 31);
+    if (this.pda.isComplete(state)) for (const id of this.eosIds) mask[id >>> 5] |= 1 << (id & 31);
   }
 
   // ---- mask internals ----
@@ -463,12 +463,12 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
   }
 
   private maskThread(th: Thread): void {
-    const bound = this.bound;
+    const pda = this.pda;
     if (th.term < 0) {
       this.maskBetweenRoot(th);
       return;
     }
-    const t = bound.automaton.rtn.terminals[th.term];
+    const t = pda.automaton.rtn.terminals[th.term];
     if (t.kind === 'class') {
       const tables = this.engine.classes[t.tokenClass]!;
       const d = th.lex;
@@ -486,7 +486,7 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
               if (x === 0) this.maskBetweenRoot(outer);
               else {
                 const fb = this.engine.firstByte[x];
-                if (this.rootPrevWord && WORD[fb] && !bound.automaton.rtn.space[fb]) continue;
+                if (this.rootPrevWord && WORD[fb] && !pda.automaton.rtn.space[fb]) continue;
                 this.walkBetween(x, outer, false);
               }
             }
@@ -494,8 +494,8 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
           return;
         }
       }
-      const end = bound.endLexeme(th);
-      const rest = bound.betweenDist(th.node, th.env, th.frames);
+      const end = pda.endLexeme(th);
+      const rest = pda.betweenDist(th.node, th.env, th.frames);
       this.orInside(tables, d, this.lim - rest, false);
       const ex = tables.exits[d];
       for (let i = 0; i < ex.length; i++) this.walkBetween(ex[i], end, false);
@@ -504,16 +504,16 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
     }
     // literals, names, variables: the end of the lexeme here is a BETWEEN mask at the root;
     // continuing the lexeme is a (short) walk.
-    if (bound.lexAccepting(th)) this.maskBetweenRoot(bound.endLexeme(th));
+    if (pda.lexAccepting(th)) this.maskBetweenRoot(pda.endLexeme(th));
     if (t.kind === 'lit' || t.kind === 'names') {
-      this.walkLex(0, th, th.lex, bound.betweenDist(th.node, th.env, th.frames));
+      this.walkLex(0, th, th.lex, pda.betweenDist(th.node, th.env, th.frames));
       return;
     }
     const trie = this.engine.trie;
     for (let c = 1; c < trie.nodeCount; c = trie.end[c]) {
-      const t2 = bound.stepLex(th, trie.byte[c]);
+      const t2 = pda.stepLex(th, trie.byte[c]);
       if (t2 === null) continue;
-      this.markNode(c, bound.threadDist(t2, WORD[trie.byte[c]] === 1));
+      this.markNode(c, pda.threadDist(t2, WORD[trie.byte[c]] === 1));
       if (trie.end[c] > c + 1) this.walkGeneric(c, t2);
     }
   }
@@ -580,8 +580,8 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
 
   /** Mask of a BETWEEN thread at the trie root. */
   private maskBetweenRoot(th: Thread): void {
-    const bound = this.bound;
-    const a = bound.automaton;
+    const pda = this.pda;
+    const a = pda.automaton;
     const rtn = a.rtn;
     if (this.useLocal && this.popSink === null) {
       const local = this.localMask(th.node);
@@ -608,14 +608,14 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
     let frames = th.frames;
     let env = th.env;
     for (;;) {
-      const cls = bound.classOptions(node, env === null ? 0 : 1);
+      const cls = pda.classOptions(node, env === null ? 0 : 1);
       for (let i = 0; i < cls.length; i++) {
         const o = cls[i];
         const t = rtn.terminals[a.optTerm[o]];
         const tables = this.engine.classes[t.tokenClass]!;
-        const pushed = bound.pushFrames(o, frames, env);
+        const pushed = pda.pushFrames(o, frames, env);
         const target = a.optTarget[o];
-        const rest = bound.betweenDist(target, env, pushed);
+        const rest = pda.betweenDist(target, env, pushed);
         this.orInside(tables, tables.w0, this.lim - rest, this.rootPrevWord);
         const ex = tables.exits[tables.w0];
         if (ex.length > 0) {
@@ -645,10 +645,10 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
    * child (word rule applies) and every "spaces + byte" node.
    */
   private walkBetweenRoot(th: Thread): void {
-    const bound = this.bound;
-    const a = bound.automaton;
+    const pda = this.pda;
+    const a = pda.automaton;
     const engine = this.engine;
-    const dist = bound.betweenDist(th.node, th.env, th.frames, false); // after a space
+    const dist = pda.betweenDist(th.node, th.env, th.frames, false); // after a space
     if (dist <= this.lim) {
       if (dist > this.maxSeen) this.maxSeen = dist;
       const ids = engine.wsTokenIds;
@@ -659,7 +659,7 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
     let frames = th.frames;
     let env = th.env;
     for (;;) {
-      const d = bound.dispatch(node, env === null ? 0 : 1, true);
+      const d = pda.dispatch(node, env === null ? 0 : 1, true);
       const bytes = d.bytes;
       for (let i = 0; i < bytes.length; i++) {
         const b = bytes[i];
@@ -683,24 +683,24 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
 
   /** Starts every option of dispatch entry i at trie node c (byte b) and walks below c. */
   private startTerminals(c: number, b: number, d: Dispatch, i: number, frames: Frame | null, env: Env | null): void {
-    const bound = this.bound;
-    const a = bound.automaton;
+    const pda = this.pda;
+    const a = pda.automaton;
     const rtn = a.rtn;
     const end = this.engine.trie.end;
     for (let k = d.off[i]; k < d.off[i + 1]; k++) {
       const o = d.opts[k];
       const term = a.optTerm[o];
-      const s = bound.startLex(term, b, env);
+      const s = pda.startLex(term, b, env);
       if (s === 0) continue;
       const t = rtn.terminals[term];
       const text = t.kind === 'newvar' || t.kind === 'boundvar' ? String.fromCharCode(b) : '';
-      const nt = new Thread(a.optTarget[o], term, s, text, bound.pushFrames(o, frames, env), env);
+      const nt = new Thread(a.optTarget[o], term, s, text, pda.pushFrames(o, frames, env), env);
       if (t.kind === 'lit' || t.kind === 'class' || t.kind === 'names') {
-        const rest = bound.betweenDist(nt.node, env, nt.frames);
-        this.markNode(c, bound.termDfa[term].minAccept[s] + rest);
+        const rest = pda.betweenDist(nt.node, env, nt.frames);
+        this.markNode(c, pda.termDfa[term].minAccept[s] + rest);
         if (end[c] > c + 1) this.walkLex(c, nt, s, rest);
       } else {
-        this.markNode(c, bound.threadDist(nt, WORD[b] === 1));
+        this.markNode(c, pda.threadDist(nt, WORD[b] === 1));
         if (end[c] > c + 1) this.walkGeneric(c, nt);
       }
     }
@@ -708,8 +708,8 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
 
   /** Walks the children of trie node x with BETWEEN thread th (skipping class terminals if asked). */
   private walkBetween(x: number, th: Thread, skipClasses: boolean): void {
-    const bound = this.bound;
-    const a = bound.automaton;
+    const pda = this.pda;
+    const a = pda.automaton;
     const engine = this.engine;
     if (x !== 0 && !skipClasses && this.useLocal && this.popSink === null && th.env === null) {
       // below a non-root trie node: the stack-independent part is kept per (RTN node, trie node)
@@ -730,7 +730,7 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
     const { byte, end } = engine.trie;
     const space = a.rtn.space;
     const pw = x === 0 ? this.rootPrevWord : WORD[byte[x]] === 1;
-    const dist = bound.betweenDist(th.node, th.env, th.frames, false); // after a space
+    const dist = pda.betweenDist(th.node, th.env, th.frames, false); // after a space
     if (engine.wide[x] >= 0) {
       // wide node: look up the few bytes that can begin a terminal
       const sp = engine.spaceBytes;
@@ -744,7 +744,7 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
       let frames = th.frames;
       let env = th.env;
       for (;;) {
-        const d = bound.dispatch(node, env === null ? 0 : 1, skipClasses);
+        const d = pda.dispatch(node, env === null ? 0 : 1, skipClasses);
         const bytes = d.bytes;
         for (let i = 0; i < bytes.length; i++) {
           const b = bytes[i];
@@ -776,7 +776,7 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
       let frames = th.frames;
       let env = th.env;
       for (;;) {
-        const d = bound.dispatch(node, env === null ? 0 : 1, skipClasses);
+        const d = pda.dispatch(node, env === null ? 0 : 1, skipClasses);
         const i = d.index[b];
         if (i >= 0) this.startTerminals(c, b, d, i, frames, env);
         if (!a.canPop[node] || frames === null) break;
@@ -793,11 +793,11 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
 
   /** Walks below x with a lit/class LEX thread in DFA state s; `rest` = completion after the lexeme. */
   private walkLex(x: number, th: Thread, s: number, rest: number): void {
-    const t = this.bound.automaton.rtn.terminals[th.term];
-    const dfa = this.bound.termDfa[th.term];
+    const t = this.pda.automaton.rtn.terminals[th.term];
+    const dfa = this.pda.termDfa[th.term];
     const trie = this.engine.trie;
     const { byte, end } = trie;
-    if (x !== 0 && dfa.accept[s] && end[x] > x + 1) this.walkBetween(x, this.bound.endLexeme(th), false);
+    if (x !== 0 && dfa.accept[s] && end[x] > x + 1) this.walkBetween(x, this.pda.endLexeme(th), false);
     const base = s * 256;
     if (t.kind !== 'class' && this.engine.wide[x] >= 0) {
       // literals and names continue with few bytes: look them up
@@ -821,18 +821,18 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
 
   /** Walks below x with any thread, stepping it byte by byte (names, variables). */
   private walkGeneric(x: number, th: Thread): void {
-    const bound = this.bound;
+    const pda = this.pda;
     const trie = this.engine.trie;
     const { byte, end } = trie;
     const pw = x === 0 ? this.rootPrevWord : WORD[byte[x]] === 1;
     const scratch = this.scratch;
     for (let c = x + 1, stop = end[x]; c < stop; c = end[c]) {
       const base = scratch.length;
-      bound.stepThread(th, byte[c], pw, scratch);
+      pda.stepThread(th, byte[c], pw, scratch);
       const top = scratch.length;
       for (let i = base; i < top; i++) {
         const t2 = scratch[i];
-        this.markNode(c, bound.threadDist(t2, WORD[byte[c]] === 1));
+        this.markNode(c, pda.threadDist(t2, WORD[byte[c]] === 1));
         if (end[c] > c + 1) this.walkGeneric(c, t2);
       }
       scratch.length = base;

@@ -7,7 +7,7 @@
  *   const engine = compileMasks(loadGrammar('grammars/sql/sql.twg'), loadVocabulary(tok));
  *   const c = engine.bind({ Table: ['orchard'], Column: ['variety', 'yield_kg'] });
  *   let s = c.start(); const mask = new Uint32Array(Math.ceil(c.vocabSize / 32));
- *   c.fillMask(s, 64, mask);              // bit id set ⇔ token id keeps the output a program prefix
+ *   c.writeAllowed(s, 64, mask);              // bit id set ⇔ token id keeps the output a program prefix
  *   s = c.advance(s, id);                 // persistent: the old s is still valid (beams, rollback)
  *
  * Design (DEVELOPERS.md, "Token masks"): per token-class DFA state, precomputed bitsets of the

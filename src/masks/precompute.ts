@@ -46,7 +46,7 @@ export function wStep(t: ClassTables, s: number, b: number): number {
 
 /**
  * Bytes to finish the lexeme from state s. W0 is reached only after at least one space, so the
- * lexeme needs no separating space (keep in sync with Bound.betweenDist in automaton/pda.ts).
+ * lexeme needs no separating space (keep in sync with AutomatonInstance.betweenDist in automaton/pda.ts).
  */
 export function wMinAccept(t: ClassTables, s: number): number {
   return s === t.w0 ? t.dfa.minAccept[t.dfa.start] : t.dfa.minAccept[s];

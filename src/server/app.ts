@@ -329,7 +329,7 @@ export async function buildServer(registry: Registry, limits: ServerLimits = {})
       const state = c.advanceBytes(c.start(), new TextEncoder().encode(body.prefix));
       const viable = c.viable(state);
       const mask = new Uint32Array((c.vocabSize + 31) >>> 5);
-      if (viable) c.fillMask(state, Infinity, mask);
+      if (viable) c.writeAllowed(state, Infinity, mask);
       let count = 0;
       const allowed: { id: number; text: string }[] = [];
       for (let id = 0; id < c.vocabSize; id++) {

@@ -73,7 +73,7 @@ export function replaySteps(
     let allowed: boolean | null = null;
     let viable: boolean | null = null;
     if (state !== null) {
-      constraint.fillMask(state, maxTokens - i, mask);
+      constraint.writeAllowed(state, maxTokens - i, mask);
       count = popcount(mask);
       const id = tokens[i];
       allowed = id < constraint.vocabSize && (mask[id >>> 5] & (1 << (id & 31))) !== 0;
@@ -93,7 +93,7 @@ export function replaySteps(
   }
   let final: number | null = null;
   if (state !== null) {
-    constraint.fillMask(state, Math.max(0, maxTokens - tokens.length), mask);
+    constraint.writeAllowed(state, Math.max(0, maxTokens - tokens.length), mask);
     final = popcount(mask);
   }
   return { steps, final_allowed_count: final, left_grammar_at: left, over_budget_at: overBudget };

@@ -19,7 +19,7 @@ export interface TokenConstraint<S = unknown> {
    * included (EOS counts as one); tokens after which the shortest completion cannot fit are not
    * allowed. Allocation-free on the hot path.
    */
-  fillMask(state: S, budget: number, mask: Uint32Array): void;
+  writeAllowed(state: S, budget: number, mask: Uint32Array): void;
   /** The state after emitting token `id`; throws if `id` is not allowed in `state`. */
   advance(state: S, id: number): S;
   /** True when the text emitted so far is a complete program (so an EOS id is allowed). */

@@ -13,15 +13,15 @@ import { createParser, createSampler, printTree } from '../../src/tree/index.ts'
 import { GRAMMARS, grammar, namesFor, rng, ROOT } from '../masks/helpers.ts';
 
 const utf8 = new TextEncoder();
-const bound = (name: (typeof GRAMMARS)[number]) => new Automaton(grammar(name)).bind(namesFor(name));
-const run = (b: ReturnType<typeof bound>, text: string) => b.advanceBytes(b.start, utf8.encode(text));
+const instantiate = (name: (typeof GRAMMARS)[number]) => new Automaton(grammar(name)).bind(namesFor(name));
+const run = (b: ReturnType<typeof instantiate>, text: string) => b.advanceBytes(b.start, utf8.encode(text));
 
 describe('sample files (grammars/*/samples)', () => {
   for (const name of GRAMMARS) {
     const dir = join(ROOT, 'grammars', name, 'samples');
     const valid = readdirSync(dir).find((f) => f.startsWith('valid.'))!;
     it(`${name}: every program of ${valid} is complete, every prefix viable`, () => {
-      const b = bound(name);
+      const b = instantiate(name);
       const lines = readFileSync(join(dir, valid), 'utf8').split('\n').filter((l) => l.trim() !== '' && !l.startsWith('#'));
       expect(lines.length).toBeGreaterThan(3);
       for (const line of lines) {
@@ -34,7 +34,7 @@ describe('sample files (grammars/*/samples)', () => {
       }
     }, 60_000);
     it(`${name}: no file of samples/invalid is a complete program`, () => {
-      const b = bound(name);
+      const b = instantiate(name);
       const files = readdirSync(join(dir, 'invalid')).filter((f) => !f.endsWith('.expected'));
       expect(files.length).toBeGreaterThan(2);
       for (const f of files) {
@@ -58,7 +58,7 @@ describe('agreement with the ohm-js parser (src/tree/parse.ts) on damaged sample
     it(name, () => {
       const g = grammar(name);
       const names = namesFor(name);
-      const b = bound(name);
+      const b = instantiate(name);
       const parser = createParser(g);
       const sampler = createSampler(g, { seed: 1234, names });
       const rand = rng(99);
@@ -90,7 +90,7 @@ describe('agreement with the ohm-js parser (src/tree/parse.ts) on damaged sample
 
 describe('states', () => {
   it('are persistent: advancing never changes the old state; prev is the rollback', () => {
-    const b = bound('json');
+    const b = instantiate('json');
     const s1 = run(b, '[1, ');
     const s2 = b.advanceBytes(s1, utf8.encode('2]'));
     const s3 = b.advanceBytes(s1, utf8.encode('"a"]'));
@@ -103,7 +103,7 @@ describe('states', () => {
 
   it('shortest completion is achievable: appending the bytes it counts completes the program', () => {
     // completion strings written by hand; the bound may exceed them only by the spaces it reserves
-    const b = bound('json');
+    const b = instantiate('json');
     const cases: Array<[string, string]> = [['[1, ', '0]'], ['{"a', '":0}'], ['"\\u00', 'aa"'], ['[[[', ']]]']];
     for (const [prefix, completion] of cases) {
       const s = run(b, prefix);
@@ -116,7 +116,7 @@ describe('states', () => {
 });
 
 describe('variable scoping (lf `new` / `bound`)', () => {
-  const b = bound('lf');
+  const b = instantiate('lf');
   it('a variable is usable only inside its binder', () => {
     expect(b.isComplete(run(b, 'lambda $x. orchard($x)'))).toBe(true);
     expect(b.viable(run(b, 'lambda $x. orchard($y'))).toBe(false);

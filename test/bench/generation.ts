@@ -12,7 +12,7 @@
  * Questions file: JSON lines with a "question" (or "input" / "source") field. One warm-up question
  * per mode is not counted. Figures: output tokens/s (tokens of the returned output, EOS included,
  * over total decoding time), median and p90 latency per question, ms per decoder step (a beam step
- * decodes all live hypotheses in one call), and the share of time in masks (fillMask, applying the
+ * decodes all live hypotheses in one call), and the share of time in masks (writeAllowed, applying the
  * mask, advancing states). One run; the machine may be shared.
  */
 import { readFileSync } from 'node:fs';

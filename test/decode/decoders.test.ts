@@ -62,7 +62,7 @@ function enumerate(c: FiniteSetConstraint, budget: number): number[][] {
   const out: number[][] = [];
   const walk = (s: ToyState, path: number[]) => {
     const mask = new Uint32Array((c.vocabSize + 31) >>> 5);
-    c.fillMask(s, budget - path.length, mask);
+    c.writeAllowed(s, budget - path.length, mask);
     for (let id = 0; id < c.vocabSize; id++) {
       if ((mask[id >>> 5] & (1 << (id & 31))) === 0) continue;
       if (c.eosIds.includes(id)) out.push(path);

@@ -1,7 +1,7 @@
 /**
  * A small, honest TokenConstraint for decoder tests that do not depend on the grammar mask engine:
  * the output text (concatenated token bytes) must be exactly one of a finite list of strings.
- * States are immutable { prefix, alive targets }; fillMask enforces the budget with the fewest
+ * States are immutable { prefix, alive targets }; writeAllowed enforces the budget with the fewest
  * tokens that can spell each target's remainder (a DP over the vocabulary), so a sequence is only
  * allowed to continue when a completion plus EOS still fits.
  */
@@ -50,7 +50,7 @@ export class FiniteSetConstraint implements TokenConstraint<ToyState> {
   }
 
   /** token ids allowed after `state` with `budget` tokens left (EOS included) */
-  fillMask(state: ToyState, budget: number, mask: Uint32Array): void {
+  writeAllowed(state: ToyState, budget: number, mask: Uint32Array): void {
     mask.fill(0);
     if (budget < 1) return;
     if (this.isComplete(state)) for (const e of this.eosIds) mask[e >>> 5] |= 1 << (e & 31);

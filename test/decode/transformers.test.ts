@@ -117,7 +117,7 @@ describe('the hook called directly', () => {
       return ids;
     };
     const start = new Uint32Array((V + 31) >>> 5);
-    c.fillMask(c.start(), 10, start);
+    c.writeAllowed(c.start(), 10, start);
     const startIds = [...Array(V).keys()].filter((i) => (start[i >>> 5] & (1 << (i & 31))) !== 0);
     const rows = [[5n, 6n, 7n], [5n, 6n, 7n]];
     const first = hook(rows, new Tensor('float32', new Float32Array(2 * V), [2, V])) as Tensor;
@@ -128,7 +128,7 @@ describe('the hook called directly', () => {
     rows[1].push(BigInt(pick));
     const second = hook(rows, new Tensor('float32', new Float32Array(2 * V), [2, V])) as Tensor;
     const after = new Uint32Array((V + 31) >>> 5);
-    c.fillMask(c.advance(c.start(), pick), 9, after);
+    c.writeAllowed(c.advance(c.start(), pick), 9, after);
     expect(allowed(second, 1)).toEqual([...Array(V).keys()].filter((i) => (after[i >>> 5] & (1 << (i & 31))) !== 0));
     // a new generation whose prompt happens to be one token longer: new arrays, so a fresh start
     const fresh = hook([[1n, 2n, 3n, 4n, 5n], [1n, 2n, 3n, 4n, 5n]], new Tensor('float32', new Float32Array(2 * V), [2, V])) as Tensor;
@@ -161,7 +161,7 @@ describe('the hook on a decoder-only model (transformers.js AutoModelForCausalLM
         const t = new Tensor('int64', BigInt64Array.from(ids.map(BigInt)), [1, ids.length]);
         const { logits } = await lm({ input_ids: t, attention_mask: new Tensor('int64', BigInt64Array.from(ids.map(() => 1n)), [1, ids.length]) });
         const row = Float32Array.from((logits.data as Float32Array).subarray((ids.length - 1) * V, ids.length * V));
-        c.fillMask(state, budget - step, mask);
+        c.writeAllowed(state, budget - step, mask);
         applyMask(row, 0, V, mask);
         const id = argmax(row, 0, V);
         want.push(id);

@@ -35,7 +35,7 @@ describe('kept regression inputs', () => {
       const s = c.advanceBytes(c.start(), utf8.encode(k.prefix));
       expect(c.viable(s)).toBe(true);
       const mask = new Uint32Array((v.vocabSize + 31) >>> 5);
-      c.fillMask(s, k.budget ?? Infinity, mask);
+      c.writeAllowed(s, k.budget ?? Infinity, mask);
       const id = (text: string) => {
         const ids = v.idsOf(text);
         expect(ids.length, `llama3 has a token ${JSON.stringify(text)}`).toBeGreaterThan(0);

@@ -109,8 +109,8 @@ describe('the cache', () => {
     const mb = new Uint32Array(ma.length);
     for (const prefix of ['', '{"a', '{"a": [1, tr', '"x\\u00', '[1, 2', '{"a": 1} ']) {
       for (const budget of [Infinity, 6, 3]) {
-        a.fillMask(a.advanceBytes(a.start(), utf8.encode(prefix)), budget, ma);
-        b.fillMask(b.advanceBytes(b.start(), utf8.encode(prefix)), budget, mb);
+        a.writeAllowed(a.advanceBytes(a.start(), utf8.encode(prefix)), budget, ma);
+        b.writeAllowed(b.advanceBytes(b.start(), utf8.encode(prefix)), budget, mb);
         expect(Array.from(mb), `${prefix} / ${budget}`).toEqual(Array.from(ma));
       }
     }
@@ -140,7 +140,7 @@ describe('the cache and changed token classes', () => {
     const digitAfterNine = (r: ReturnType<typeof loadOrCompile>) => {
       const c = r.engine.bind({ Func: ['max'] });
       const m = new Uint32Array((c.vocabSize + 31) >>> 5);
-      c.fillMask(c.advanceBytes(c.start(), utf8.encode('123456789')), Infinity, m);
+      c.writeAllowed(c.advanceBytes(c.start(), utf8.encode('123456789')), Infinity, m);
       return ((m[zero >>> 5] >>> (zero & 31)) & 1) === 1;
     };
     expect(digitAfterNine(old)).toBe(true);
@@ -170,7 +170,7 @@ describe('treewright mask (CLI contract)', () => {
     const { engine } = loadOrCompile(jsonGrammar, jsonText, tinyPath, false);
     const c = engine.bind({});
     const m = new Uint32Array((c.vocabSize + 31) >>> 5);
-    c.fillMask(c.advanceBytes(c.start(), utf8.encode('[1')), Infinity, m);
+    c.writeAllowed(c.advanceBytes(c.start(), utf8.encode('[1')), Infinity, m);
     const ids: number[] = [];
     for (let i = 0; i < c.vocabSize; i++) if ((m[i >>> 5] >>> (i & 31)) & 1) ids.push(i);
     expect(r.allowed_ids).toEqual(ids);

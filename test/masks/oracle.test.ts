@@ -85,7 +85,7 @@ describe('mask equals brute force over the nearley oracle', () => {
         let text = '';
         const steps = 1 + Math.floor(rand() * 12);
         for (let k = 0; k < steps; k++) {
-          c.fillMask(s, Infinity, mask);
+          c.writeAllowed(s, Infinity, mask);
           const allowed: number[] = [];
           for (let id = 0; id < small.vocabSize; id++) if (has(mask, id) && id !== eos) allowed.push(id);
           if (allowed.length === 0) break;
@@ -101,7 +101,7 @@ describe('mask equals brute force over the nearley oracle', () => {
         const o = oracle.check(prefix);
         expect(c.viable(s), JSON.stringify(prefix)).toBe(o.viable);
         if (!o.viable) continue;
-        c.fillMask(s, Infinity, mask);
+        c.writeAllowed(s, Infinity, mask);
         const expected = oracle.viableAfter(prefix, texts);
         const wrong: string[] = [];
         for (let id = 0; id < texts.length; id++) if (has(mask, id) !== expected[id]) wrong.push(`${has(mask, id) ? '+' : '-'}${JSON.stringify(texts[id])}`);

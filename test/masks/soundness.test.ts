@@ -37,13 +37,13 @@ describe.each(TOKENIZERS)('%s', (tok) => {
         expect(spelled === text || spelled === text.normalize('NFC'), `${JSON.stringify(text)} spelled ${JSON.stringify(spelled)}`).toBe(true);
         let s = c.start();
         for (const id of ids) {
-          c.fillMask(s, Infinity, mask);
+          c.writeAllowed(s, Infinity, mask);
           if (!has(mask, id)) expect.fail(`${tok}/${name}: token ${id} ${JSON.stringify(v.text(id))} not allowed in ${JSON.stringify(spelled)}`);
           expect(has(mask, eos)).toBe(c.isComplete(s));
           s = c.advance(s, id);
           steps++;
         }
-        c.fillMask(s, Infinity, mask);
+        c.writeAllowed(s, Infinity, mask);
         expect(has(mask, eos), spelled).toBe(true);
         expect(c.isComplete(s)).toBe(true);
       }
@@ -77,12 +77,12 @@ describe('the demo tokenizer (models/coop/tokenizer.json: SentencePiece Unigram,
         expect(spelled, text).toBe(v.stripsFirstSpace ? ' ' + text : text);
         let s = c.start();
         for (const id of ids) {
-          c.fillMask(s, Infinity, mask);
+          c.writeAllowed(s, Infinity, mask);
           if (!has(mask, id)) expect.fail(`coop/${name}: token ${id} ${JSON.stringify(v.text(id))} not allowed in ${JSON.stringify(spelled)}`);
           expect(has(mask, eos)).toBe(c.isComplete(s));
           s = c.advance(s, id);
         }
-        c.fillMask(s, Infinity, mask);
+        c.writeAllowed(s, Infinity, mask);
         expect(has(mask, eos), spelled).toBe(true);
         checked++;
       }

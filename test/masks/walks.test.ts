@@ -31,7 +31,7 @@ describe.each([...TOKENIZERS, 'coop' as const])('%s', (tok) => {
         const bytes: number[] = [];
         let ended = false;
         for (let step = 0; step < maxLen; step++) {
-          c.fillMask(s, maxLen - step, mask);
+          c.writeAllowed(s, maxLen - step, mask);
           let n = 0;
           for (let word = 0; word < mask.length; word++) {
             let bits = mask[word];
@@ -94,7 +94,7 @@ describe.each([...TOKENIZERS, 'coop' as const])('%s: digit-preferring walks', (t
           const bytes: number[] = [];
           let ended = false;
           for (let step = 0; step < maxLen; step++) {
-            c.fillMask(s, maxLen - step, mask);
+            c.writeAllowed(s, maxLen - step, mask);
             let n = 0;
             let k = 0;
             for (let word = 0; word < mask.length; word++) {
@@ -154,12 +154,12 @@ describe('length budget: the fast mask equals the per-token reference of the sam
         for (let k = 0; k <= steps; k++) {
           const need = c.tokensToComplete(s);
           for (const budget of [need - 1, need, need + 1, need + 3, Infinity]) {
-            c.fillMask(s, budget, fast);
-            c.fillMaskNaive(s, budget, slow);
+            c.writeAllowed(s, budget, fast);
+            c.writeAllowedNaive(s, budget, slow);
             expect(Array.from(fast), `budget ${budget}`).toEqual(Array.from(slow));
             compared++;
           }
-          c.fillMask(s, Infinity, fast);
+          c.writeAllowed(s, Infinity, fast);
           const ids: number[] = [];
           for (let id = 0; id < small.vocabSize - 1; id++) if ((fast[id >>> 5] >>> (id & 31)) & 1) ids.push(id);
           if (ids.length === 0) break;

@@ -88,7 +88,7 @@ function replayPaths(grammar: Grammar, tokenizerPath: string, replay: Replay, ca
       let s = c.start();
       for (let i = 0; i < ids.length; i++) {
         const t0 = performance.now();
-        c.fillMask(s, replay.maxLen - i, mask);
+        c.writeAllowed(s, replay.maxLen - i, mask);
         if (measure) measure.push((performance.now() - t0) * 1000);
         s = c.advance(s, ids[i]);
       }
@@ -112,7 +112,7 @@ function replayPaths(grammar: Grammar, tokenizerPath: string, replay: Replay, ca
   for (let k = 0; k < naiveSteps; k++) {
     const { s, i } = states[Math.floor((k * states.length) / naiveSteps)];
     const t0 = performance.now();
-    c.fillMaskNaive(s, replay.maxLen - i, mask);
+    c.writeAllowedNaive(s, replay.maxLen - i, mask);
     naive.push((performance.now() - t0) * 1000);
   }
   naive.sort((a, b) => a - b);

@@ -49,7 +49,7 @@ export const register: RegisterCommand = (program: Command, setExit) => {
         const viable = c.viable(state);
         const complete = viable && c.isComplete(state);
         const mask = new Uint32Array((c.vocabSize + 31) >>> 5);
-        if (viable) c.fillMask(state, Infinity, mask);
+        if (viable) c.writeAllowed(state, Infinity, mask);
         const ids: number[] = [];
         for (let w = 0; w < mask.length; w++) {
           let bits = mask[w];
