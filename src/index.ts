@@ -1,7 +1,7 @@
 /**
  * treewright's library entry: the public API of every pipeline stage, in pipeline order.
  *
- *   import { loadGrammar, loadVocabulary, compileMasks, ConstraintLogitsProcessor } from 'treewright';
+ *   import { loadGrammar, loadVocabulary, compileMasks, TreewrightMaskHook } from 'treewright';
  *   const grammar = loadGrammar('grammars/sql/sql.twg');
  *   const engine = compileMasks(grammar, loadVocabulary('my-model/tokenizer.json'));
  *   const constraint = engine.bind({ Table: ['orchards'], Column: ['name', 'hectares'] });

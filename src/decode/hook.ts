@@ -3,7 +3,7 @@
  * TokenConstraint's masks, so a model the user already runs through transformers.js — seq2seq or
  * decoder-only — only emits token sequences the constraint accepts.
  *
- *   const guard = new ConstraintLogitsProcessor(constraint, { maxNewTokens: 64 });
+ *   const guard = new TreewrightMaskHook(constraint, { maxNewTokens: 64 });
  *   const out = await model.generate({ ...inputs, max_new_tokens: 64, logits_processor: [guard] });
  *
  * How it follows the rows: transformers.js calls the processor once per step with every row's ids
@@ -30,7 +30,7 @@ export interface HookOptions {
   maxNewTokens?: number;
 }
 
-export class ConstraintLogitsProcessor extends LogitsProcessor {
+export class TreewrightMaskHook extends LogitsProcessor {
   private readonly constraint: TokenConstraint<unknown>;
   private readonly maxNewTokens: number;
   private readonly mask: Uint32Array;
@@ -49,7 +49,7 @@ export class ConstraintLogitsProcessor extends LogitsProcessor {
     this.constraint = constraint;
     this.maxNewTokens = options.maxNewTokens ?? 512;
     if (!Number.isInteger(this.maxNewTokens) || this.maxNewTokens < 1) {
-      throw new RangeError(`ConstraintLogitsProcessor maxNewTokens: found ${this.maxNewTokens}; expected an integer ≥ 1`);
+      throw new RangeError(`TreewrightMaskHook maxNewTokens: found ${this.maxNewTokens}; expected an integer ≥ 1`);
     }
     this.mask = new Uint32Array((constraint.vocabSize + 31) >>> 5);
     this.eos = new Uint8Array(constraint.vocabSize);
@@ -79,7 +79,7 @@ export class ConstraintLogitsProcessor extends LogitsProcessor {
     const V = c.vocabSize;
     const width = logits.dims[logits.dims.length - 1];
     if (width < V) {
-      throw new RangeError(`ConstraintLogitsProcessor: the logits have ${width} entries but the constraint covers ${V} token ids; expected at least ${V} (a constraint built from this model's tokenizer)`);
+      throw new RangeError(`TreewrightMaskHook: the logits have ${width} entries but the constraint covers ${V} token ids; expected at least ${V} (a constraint built from this model's tokenizer)`);
     }
     const data = logits.data as Float32Array;
     if (this.continues(inputIds)) {

@@ -33,7 +33,7 @@ import { decode } from './search.ts';
 import type { DecodeOptions, DecodeResult } from './types.ts';
 
 export { decode, decodeStream, textOf } from './search.ts';
-export { ConstraintLogitsProcessor, type HookOptions } from './hook.ts';
+export { TreewrightMaskHook, type HookOptions } from './hook.ts';
 export type { DecodeOptions, DecodeResult, StreamToken, Strategy } from './types.ts';
 
 export interface GenerateOptions extends DecodeOptions {

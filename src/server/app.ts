@@ -23,7 +23,7 @@ import { replaySteps, treeView } from './steps.ts';
 export interface ServerLimits {
   /** largest request body in bytes (default 1 MiB) */
   readonly bodyLimit?: number;
-  /** wall-clock limit of one generate request in ms (default 30 000) */
+  /** wall-clock limit of one decode request in ms (default 30 000) */
   readonly timeLimitMs?: number;
   /** model/executor requests running at once (default 2) */
   readonly maxActive?: number;
@@ -43,8 +43,8 @@ class Stopped extends Error {}
 
 /** Counters a server keeps (`app.treewrightStats`): for operators and tests. */
 export interface ServerStats {
-  /** generate requests answered (any status) */
-  generated: number;
+  /** decode requests answered (any status) */
+  decoded: number;
   /** decodes stopped because the client closed the connection */
   stoppedGone: number;
   /** decodes stopped at the time limit */
@@ -144,7 +144,7 @@ export async function buildServer(registry: Registry, limits: ServerLimits = {})
     ajv: { customOptions: { coerceTypes: false, removeAdditional: false, useDefaults: true, allErrors: false } },
   });
   const stats: ServerStats = {
-    generated: 0,
+    decoded: 0,
     stoppedGone: 0,
     stoppedTime: 0,
     refused: 0,
@@ -378,7 +378,7 @@ export async function buildServer(registry: Registry, limits: ServerLimits = {})
     return { ok: true, value: r.value, tree, text };
   });
 
-  app.post('/api/generate', { schema: S.generateSchema }, async (req) => {
+  app.post('/api/decode', { schema: S.decodeSchema }, async (req) => {
     const b = req.body as {
       question: string; grammar: string; model?: string; constrained: boolean; beam?: number; sample?: boolean;
       temperature?: number; top_p?: number; seed?: number; max_tokens?: number; prefix?: string;
@@ -403,7 +403,7 @@ export async function buildServer(registry: Registry, limits: ServerLimits = {})
       throw badField('$.question', `${inputTokens} tokens (with the prefix ${JSON.stringify(prefix)})`, `at most ${m.model.config.maxPositions} tokens for model ${m.id}`);
     }
     const strategy = b.beam !== undefined ? 'beam' : b.sample ? 'sample' : 'greedy';
-    stats.generated++;
+    stats.decoded++;
     return withSlot(async () => {
       const deadline = Date.now() + timeLimitMs;
       let timedOut = false;

@@ -4,7 +4,7 @@
  * Produces `startServer(options)` → a listening fastify instance (and `buildServer(registry,
  * limits)` for tests, which never listen). Routes (OpenAPI 3.1 document at GET /api/openapi.json):
  *   POST /api/check     description text → located diagnostics; a clean one gets a grammar id
- *   POST /api/generate  question → program (constrained or not; greedy, beam, sampling), optional
+ *   POST /api/decode  question → program (constrained or not; greedy, beam, sampling), optional
  *                       per-step view (chosen token, allowed-token count, text so far, tree view)
  *                       and executed answer
  *   POST /api/parse     program text → JSON tree          POST /api/print  tree → canonical text
@@ -14,11 +14,11 @@
  *
  * Example:
  *   const app = await startServer({ port: 8080, models: ['models/coop'] });
- *   // curl -s localhost:8080/api/generate -H 'content-type: application/json' \
+ *   // curl -s localhost:8080/api/decode -H 'content-type: application/json' \
  *   //   -d '{"question":"which orchards grow elstar?","grammar":"lf","steps":true,"execute":true}'
  *   await app.close();
  *
- * Limits: request body (default 1 MiB → 413), a wall-clock limit per generate request (default
+ * Limits: request body (default 1 MiB → 413), a wall-clock limit per decode request (default
  * 30 s, checked before every decoder step → 504), at most `maxActive` model/executor requests at
  * once with `maxQueued` waiting (defaults 2 and 64) — beyond that 503 at once, never an unbounded
  * queue. Every error is JSON `{error: {code, message, location?}}`, the location a `file:line:col`
@@ -30,7 +30,7 @@
  * pair (measured: 0.06–0.7 s per pair for the demo model's 1,100 tokens on the shared machine),
  * and builds the demo database when no --db is given.
  *
- * Worst-case cost: a generate request costs what decode/ costs (model steps × mask fills), plus
+ * Worst-case cost: a decode request costs what decode/ costs (model steps × mask fills), plus
  * with `steps` one more mask fill per token; the other routes are linear in their input (parse is
  * ohm's O(n · rules)). Decoding runs on the main thread between onnxruntime calls, so at most about
  * one request per core makes progress; the gate keeps the rest waiting in a bounded queue.

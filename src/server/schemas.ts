@@ -106,7 +106,7 @@ const answer = {
   properties: { ok: { type: 'boolean' }, value: {}, error: { type: 'string' } },
 };
 
-export const generateSchema = {
+export const decodeSchema = {
   summary: 'Answer a question with a model, constrained to programs of a grammar (or not)',
   body: {
     type: 'object',

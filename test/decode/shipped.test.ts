@@ -8,7 +8,7 @@ import { AutoModelForSeq2SeqLM, AutoTokenizer, env, type PreTrainedModel, type P
 import { afterAll, beforeAll, describe, expect, it, vi } from 'vitest';
 import { loadGrammar } from '../../src/description/index.ts';
 import type { Grammar, NameBindings } from '../../src/description/ir.ts';
-import { ConstraintLogitsProcessor, generate, maskEngine } from '../../src/decode/index.ts';
+import { TreewrightMaskHook, generate, maskEngine } from '../../src/decode/index.ts';
 import { buildCoop } from '../../src/exec/coop.ts';
 import { factNames } from '../../src/exec/facts.ts';
 import { loadModel, type Seq2SeqModel } from '../../src/model/index.ts';
@@ -53,7 +53,7 @@ beforeAll(async () => {
 });
 afterAll(() => rmSync(scratch, { recursive: true, force: true }));
 
-async function reference(question: string, processor: ConstraintLogitsProcessor | null): Promise<number[]> {
+async function reference(question: string, processor: TreewrightMaskHook | null): Promise<number[]> {
   const out = (await theirs.generate({
     ...tokenizer(question),
     max_new_tokens: MAX,
@@ -76,8 +76,8 @@ describe('the shipped model', () => {
 
   it('constrained greedy with the hook inside transformers.js equals our constrained greedy; outputs are well-typed', async () => {
     const hooks = {
-      sql: new ConstraintLogitsProcessor(maskEngine(ours, grammars.sql).bind(names.sql), { maxNewTokens: MAX }),
-      lf: new ConstraintLogitsProcessor(maskEngine(ours, grammars.lf).bind(names.lf), { maxNewTokens: MAX }),
+      sql: new TreewrightMaskHook(maskEngine(ours, grammars.sql).bind(names.sql), { maxNewTokens: MAX }),
+      lf: new TreewrightMaskHook(maskEngine(ours, grammars.lf).bind(names.lf), { maxNewTokens: MAX }),
     };
     for (const c of cases) {
       const r = await generate(ours, c.question, { grammar: grammars[c.target], names: names[c.target], maxTokens: MAX });

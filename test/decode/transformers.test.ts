@@ -5,7 +5,7 @@ import { AutoModelForCausalLM, AutoModelForSeq2SeqLM, AutoTokenizer, env, Tensor
 import { beforeAll, describe, expect, it, vi } from 'vitest';
 import { loadModel, type Seq2SeqModel } from '../../src/model/index.ts';
 import { decode } from '../../src/decode/search.ts';
-import { ConstraintLogitsProcessor } from '../../src/decode/hook.ts';
+import { TreewrightMaskHook } from '../../src/decode/hook.ts';
 import { applyMask, argmax } from '../../src/decode/logits.ts';
 import { FiniteSetConstraint } from './toy-constraint.ts';
 
@@ -43,7 +43,7 @@ beforeAll(async () => {
 });
 
 /** transformers.js greedy generate(); returns the ids after the decoder start token, EOS removed. */
-async function reference(question: string, maxNewTokens: number, processor: ConstraintLogitsProcessor | null): Promise<number[]> {
+async function reference(question: string, maxNewTokens: number, processor: TreewrightMaskHook | null): Promise<number[]> {
   const inputs = tokenizer(question);
   const out = (await theirs.generate({
     ...inputs,
@@ -72,7 +72,7 @@ describe('against transformers.js generate()', () => {
 
   it('with the hook, constrained greedy output equals our constrained greedy', async () => {
     const c = new FiniteSetConstraint(ours.vocabulary, TARGETS);
-    const hook = new ConstraintLogitsProcessor(c, { maxNewTokens: 40 });
+    const hook = new TreewrightMaskHook(c, { maxNewTokens: 40 });
     for (const q of QUESTIONS) {
       const mine = await decode(ours, q, { constraint: c, maxTokens: 40 });
       expect(mine.finished).toBe('eos');
@@ -84,7 +84,7 @@ describe('against transformers.js generate()', () => {
 
   it('with the hook, transformers.js sampling only produces allowed programs', async () => {
     const c = new FiniteSetConstraint(ours.vocabulary, TARGETS);
-    const hook = new ConstraintLogitsProcessor(c, { maxNewTokens: 40 });
+    const hook = new TreewrightMaskHook(c, { maxNewTokens: 40 });
     for (const q of QUESTIONS.slice(0, 4)) {
       const out = (await theirs.generate({ ...tokenizer(q), max_new_tokens: 40, do_sample: true, top_k: 0, temperature: 1.5, logits_processor: [hook] as never })) as Tensor;
       const ids = (out.tolist() as bigint[][])[0].map(Number).slice(1);
@@ -96,7 +96,7 @@ describe('against transformers.js generate()', () => {
   it('the hook keeps the token budget of max_new_tokens', async () => {
     const c = new FiniteSetConstraint(ours.vocabulary, TARGETS);
     const fewest = Math.min(...TARGETS.map((_, i) => c.fewestTokens(i)));
-    const hook = new ConstraintLogitsProcessor(c, { maxNewTokens: fewest + 1 });
+    const hook = new TreewrightMaskHook(c, { maxNewTokens: fewest + 1 });
     for (const q of QUESTIONS.slice(0, 3)) {
       const ids = await reference(q, fewest + 1, hook);
       expect(ids).toEqual((await decode(ours, q, { constraint: c, maxTokens: fewest + 1 })).tokens);
@@ -108,7 +108,7 @@ describe('against transformers.js generate()', () => {
 describe('the hook called directly', () => {
   it('tracks rows across calls and starts over on new row arrays, even one token longer', () => {
     const c = new FiniteSetConstraint(ours.vocabulary, [' value: 7']);
-    const hook = new ConstraintLogitsProcessor(c, { maxNewTokens: 10 });
+    const hook = new TreewrightMaskHook(c, { maxNewTokens: 10 });
     const V = c.vocabSize;
     const allowed = (t: Tensor, row: number) => {
       const d = t.data as Float32Array;
@@ -146,7 +146,7 @@ describe('the hook on a decoder-only model (transformers.js AutoModelForCausalLM
     const lm = await AutoModelForCausalLM.from_pretrained(dir, { local_files_only: true, dtype: 'fp32', session_options: { intraOpNumThreads: 1 } });
     const c = new FiniteSetConstraint(ours.vocabulary, TARGETS);
     const budget = 40;
-    const hook = new ConstraintLogitsProcessor(c, { maxNewTokens: budget });
+    const hook = new TreewrightMaskHook(c, { maxNewTokens: budget });
     const V = c.vocabSize;
     const mask = new Uint32Array((V + 31) >>> 5);
     for (const prompt of ['question: which orchards does chen li own? answer:', 'question: is elstar stored in shed a? answer:']) {

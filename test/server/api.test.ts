@@ -56,7 +56,7 @@ describe('GET /api/openapi.json', () => {
     const routes = Object.entries(openapi.paths).flatMap(([p, ops]) => Object.keys(ops).map((m) => `${m.toUpperCase()} ${p}`)).sort();
     expect(routes).toEqual([
       'GET /api/grammars', 'GET /api/models', 'GET /api/openapi.json',
-      'POST /api/check', 'POST /api/execute', 'POST /api/generate', 'POST /api/mask', 'POST /api/parse', 'POST /api/print',
+      'POST /api/check', 'POST /api/decode', 'POST /api/execute', 'POST /api/mask', 'POST /api/parse', 'POST /api/print',
     ]);
     // every POST route documents its JSON body and its error responses
     for (const [p, ops] of Object.entries(openapi.paths)) {
@@ -302,11 +302,11 @@ describe('POST /api/execute', () => {
   });
 });
 
-describe('POST /api/generate', () => {
+describe('POST /api/decode', () => {
   const q = 'which orchards above 300 m grow elstar?';
 
   it('constrained: a well-typed program, every step allowed, steps rebuild the text', async () => {
-    const r = (await post('/api/generate', { question: q, grammar: 'lf', steps: true, execute: true, max_tokens: 48 })).json();
+    const r = (await post('/api/decode', { question: q, grammar: 'lf', steps: true, execute: true, max_tokens: 48 })).json();
     expect(r).toMatchObject({ question: `to lf: ${q}`, parses: true, well_typed: true, constrained: true, strategy: 'greedy', model: 'tiny-seq2seq', left_grammar_at: null, over_budget_at: null });
     expect(r.steps.every((s: { viable: boolean }) => s.viable === true)).toBe(true);
     expect(r.steps.length).toBe(r.tokens.length);
@@ -321,7 +321,7 @@ describe('POST /api/generate', () => {
   });
 
   it('unconstrained: the step where the automaton says the text left the grammar holds the parser\'s first bad character', async () => {
-    const r = (await post('/api/generate', { question: q, grammar: 'lf', constrained: false, steps: true, max_tokens: 24 })).json();
+    const r = (await post('/api/decode', { question: q, grammar: 'lf', constrained: false, steps: true, max_tokens: 24 })).json();
     expect(r.parses).toBe(false);
     expect(r.answer).toBeNull();
     // two implementations agree: the ohm parser's error offset and the automaton's first refused token
@@ -334,10 +334,10 @@ describe('POST /api/generate', () => {
   });
 
   it('beam search and seeded sampling; the same seed gives the same output', async () => {
-    const beam = (await post('/api/generate', { question: q, grammar: 'sql', beam: 3, max_tokens: 40 })).json();
+    const beam = (await post('/api/decode', { question: q, grammar: 'sql', beam: 3, max_tokens: 40 })).json();
     expect(beam).toMatchObject({ strategy: 'beam', well_typed: true });
-    const s1 = (await post('/api/generate', { question: q, grammar: 'arith', sample: true, seed: 7, temperature: 1.3, max_tokens: 30 })).json();
-    const s2 = (await post('/api/generate', { question: q, grammar: 'arith', sample: true, seed: 7, temperature: 1.3, max_tokens: 30 })).json();
+    const s1 = (await post('/api/decode', { question: q, grammar: 'arith', sample: true, seed: 7, temperature: 1.3, max_tokens: 30 })).json();
+    const s2 = (await post('/api/decode', { question: q, grammar: 'arith', sample: true, seed: 7, temperature: 1.3, max_tokens: 30 })).json();
     expect(s1.strategy).toBe('sample');
     expect(s1.well_typed).toBe(true);
     expect(s2.text).toBe(s1.text);
@@ -354,15 +354,15 @@ describe('POST /api/generate', () => {
       [{ question: q, grammar: 'lf', model: 'big' }, '$.model', 404],
     ];
     for (const [body, location, status] of cases) {
-      const res = await post('/api/generate', body);
+      const res = await post('/api/decode', body);
       expect(res.statusCode, JSON.stringify(body)).toBe(status);
       expect(res.json().error.location, JSON.stringify(body)).toBe(location);
       expect(res.json().error.message.startsWith(`${location}: `)).toBe(true);
     }
-    expect((await post('/api/generate', { question: q, grammar: 'lf', max_tokens: 500 })).json().error.message).toBe('$.max_tokens: found 500; expected at most 127 for model tiny-seq2seq');
+    expect((await post('/api/decode', { question: q, grammar: 'lf', max_tokens: 500 })).json().error.message).toBe('$.max_tokens: found 500; expected at most 127 for model tiny-seq2seq');
     // a question longer than the encoder's positions (config.json: max_position_embeddings)
     const config = JSON.parse(readFileSync(`${FIXTURE}/config.json`, 'utf8'));
-    const long = await post('/api/generate', { question: 'pears '.repeat(config.max_position_embeddings), grammar: 'lf' });
+    const long = await post('/api/decode', { question: 'pears '.repeat(config.max_position_embeddings), grammar: 'lf' });
     expect(long.statusCode).toBe(400);
     expect(long.json().error.message).toMatch(new RegExp(`^\\$\\.question: found \\d+ tokens \\(with the prefix "to lf: "\\); expected at most ${config.max_position_embeddings} tokens for model tiny-seq2seq$`));
   });
@@ -396,7 +396,7 @@ describe('limits and malformed requests', () => {
       expect(big.statusCode).toBe(413);
       expect(big.json()).toEqual({ error: { code: 'body_too_large', message: 'request body is larger than 1000 bytes; expected at most 1000', location: '$' } });
       const body = { question: 'how many lots?', grammar: 'lf', max_tokens: 40 };
-      const all = await Promise.all([1, 2, 3].map(() => small.inject({ method: 'POST', url: '/api/generate', payload: body })));
+      const all = await Promise.all([1, 2, 3].map(() => small.inject({ method: 'POST', url: '/api/decode', payload: body })));
       expect(all.map((r) => r.statusCode).sort()).toEqual([200, 503, 503]);
       expect(small.treewrightStats.refused).toBe(2);
       const refused = all.find((r) => r.statusCode === 503)!;
@@ -404,13 +404,13 @@ describe('limits and malformed requests', () => {
       // RFC 9110 §10.2.3: Retry-After tells the client when to try again
       expect(refused.headers['retry-after']).toBe('1');
       // the gate is free again afterwards
-      expect((await small.inject({ method: 'POST', url: '/api/generate', payload: body })).statusCode).toBe(200);
+      expect((await small.inject({ method: 'POST', url: '/api/decode', payload: body })).statusCode).toBe(200);
     } finally {
       await small.close();
     }
     const slow = await buildServer(await Registry.open({ models: [FIXTURE], threads: 1, grammars: ['lf'] }), { timeLimitMs: 1 });
     try {
-      const res = await slow.inject({ method: 'POST', url: '/api/generate', payload: { question: 'how many lots?', grammar: 'lf', constrained: false, max_tokens: 100 } });
+      const res = await slow.inject({ method: 'POST', url: '/api/decode', payload: { question: 'how many lots?', grammar: 'lf', constrained: false, max_tokens: 100 } });
       expect(res.statusCode).toBe(504);
       expect(res.json().error).toEqual({ code: 'time_limit', message: 'the request ran longer than its time limit of 1 ms and was stopped' });
     } finally {
@@ -424,7 +424,7 @@ describe('a client that goes away', () => {
     const one = await buildServer(await Registry.open({ models: [FIXTURE], threads: 1, grammars: ['lf'] }), { maxActive: 1, maxQueued: 0 });
     try {
       await one.listen({ host: '127.0.0.1', port: 0 });
-      const url = `http://127.0.0.1:${(one.server.address() as { port: number }).port}/api/generate`;
+      const url = `http://127.0.0.1:${(one.server.address() as { port: number }).port}/api/decode`;
       const long = { question: 'how many lots?', grammar: 'lf', constrained: false, max_tokens: 127 };
       const ctrl = new AbortController();
       const gone = fetch(url, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify(long), signal: ctrl.signal }).catch((e: Error) => e.name);
@@ -434,7 +434,7 @@ describe('a client that goes away', () => {
       expect(await gone).toBe('AbortError');
       while (stats.active !== 0) await new Promise((r) => setTimeout(r, 5));
       // the decode ended by noticing the closed connection, not by running to its end
-      expect(stats).toMatchObject({ generated: 1, stoppedGone: 1, stoppedTime: 0 });
+      expect(stats).toMatchObject({ decoded: 1, stoppedGone: 1, stoppedTime: 0 });
       const next = await fetch(url, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify({ ...long, max_tokens: 1 }) });
       expect(next.status).toBe(200);
     } finally {

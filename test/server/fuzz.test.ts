@@ -31,7 +31,7 @@ const FIELDS: Record<string, Record<string, [fc.Arbitrary<unknown>, boolean]>> =
   '/api/print': { grammar: [fc.constantFrom(...GRAMMARS), true], tree: [trees, true] },
   '/api/mask': { grammar: [fc.constantFrom(...GRAMMARS), true], model: [fc.constant('tiny-seq2seq'), false], prefix: [texts, true], sample: [fc.integer({ min: 0, max: 30 }), false], names: [names, false] },
   '/api/execute': { grammar: [fc.constantFrom(...GRAMMARS), true], text: [texts, false], tree: [trees, false] },
-  '/api/generate': {
+  '/api/decode': {
     question: [fc.string({ minLength: 1, maxLength: 40 }), true],
     grammar: [fc.constantFrom(...GRAMMARS), true],
     model: [fc.constant('tiny-seq2seq'), false],
@@ -64,7 +64,7 @@ describe('POST routes under arbitrary JSON bodies', () => {
     it(`${route} answers JSON with a documented status`, async () => {
       await fc.assert(
         fc.asyncProperty(body(route), async (payload: unknown) => {
-          if (route === '/api/generate' && payload !== null && typeof payload === 'object' && !Array.isArray(payload)) {
+          if (route === '/api/decode' && payload !== null && typeof payload === 'object' && !Array.isArray(payload)) {
             // contradictory strategy options are refused (api.test.ts); here mostly decode something
             const p = payload as Record<string, unknown>;
             if (p.sample !== true) for (const k of ['temperature', 'top_p', 'seed']) delete p[k];
@@ -82,7 +82,7 @@ describe('POST routes under arbitrary JSON bodies', () => {
             }
           }
         }),
-        { numRuns: route === '/api/generate' ? 60 : 150, seed: 20261202 },
+        { numRuns: route === '/api/decode' ? 60 : 150, seed: 20261202 },
       );
     });
   }

@@ -45,7 +45,7 @@ export const register: RegisterCommand = (program: Command, setExit) => {
     .option('--names <file>', 'JSON bindings of open name sets, merged over the defaults')
     .option('--threads <n>', 'onnxruntime threads per model session')
     .option('--body-limit <bytes>', 'largest request body (default 1048576)')
-    .option('--time-limit <ms>', 'wall-clock limit of one generate request (default 30000)')
+    .option('--time-limit <ms>', 'wall-clock limit of one decode request (default 30000)')
     .option('--max-active <n>', 'model and executor requests running at once (default 2)')
     .option('--max-queued <n>', 'requests waiting for a slot before answering 503 (default 64)')
     .action(async (f: Flags) => {

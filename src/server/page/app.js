@@ -91,7 +91,7 @@ async function decodeBoth(ev) {
   $('#go').disabled = true;
   setStatus('#ask-status', 'decoding…');
   try {
-    const [u, c] = await Promise.all([api('/api/generate', request(false)), api('/api/generate', request(true))]);
+    const [u, c] = await Promise.all([api('/api/decode', request(false)), api('/api/decode', request(true))]);
     state.runs = { u, c };
     const m = (state.models || []).find((x) => x.id === c.model);
     state.vocab = m ? m.vocab_size : 1;

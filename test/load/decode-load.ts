@@ -1,10 +1,10 @@
 /**
  * Load script (not a unit test): starts `treewright serve` as a second process on 127.0.0.1 and
- * sends POST /api/generate requests from this process at a fixed concurrency, then reports
+ * sends POST /api/decode requests from this process at a fixed concurrency, then reports
  * latency percentiles, errors by HTTP status and the server's resident memory (VmRSS from
  * /proc/PID/status) before, during and after.
  *
- *   npx tsx test/load/generate-load.ts [--requests 2000] [--concurrency 32] [--max-seconds 900]
+ *   npx tsx test/load/decode-load.ts [--requests 2000] [--concurrency 32] [--max-seconds 900]
  *                                      [--model DIR] [--max-tokens 64] [--json FILE]
  *
  * The model defaults to the demo model models/coop when it holds an ONNX export, else the test
@@ -82,7 +82,7 @@ const body = (i: number) => ({
 async function one(i: number): Promise<{ ms: number; status: number; decodeMs: number | null; wellTyped: boolean }> {
   const t0 = performance.now();
   try {
-    const res = await fetch(`${base}api/generate`, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify(body(i)) });
+    const res = await fetch(`${base}api/decode`, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify(body(i)) });
     const json = (await res.json()) as { total_ms?: number; well_typed?: boolean };
     return { ms: performance.now() - t0, status: res.status, decodeMs: json.total_ms ?? null, wellTyped: json.well_typed === true };
   } catch {
