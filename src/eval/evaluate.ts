@@ -9,7 +9,7 @@ import { join } from 'node:path';
 import { ResultsLog, rowKey } from './log.ts';
 import { computeMetrics, computeTaxonomy, type Metrics } from './metrics.ts';
 import { writeReport } from './report.ts';
-import { MODES, runEvaluation, type DecodeFn, type EvalItem, type EvalRow, type Scorer } from './run.ts';
+import { checkRow, MODES, runEvaluation, type DecodeFn, type EvalItem, type EvalRow, type Scorer } from './run.ts';
 
 export interface LoadItemsOptions {
   /** the field holding the gold program (default: the grammar's name, e.g. "sql" or "lf") */
@@ -76,7 +76,7 @@ export interface EvaluateResult {
 
 export async function evaluate(opts: EvaluateOptions): Promise<EvaluateResult> {
   mkdirSync(opts.outDir, { recursive: true });
-  const log = new ResultsLog<EvalRow>(join(opts.outDir, 'results.jsonl'));
+  const log = new ResultsLog<EvalRow>(join(opts.outDir, 'results.jsonl'), checkRow);
   const keys = new Set(opts.items.flatMap((it) => MODES.map((mode) => rowKey({ id: it.id, mode }))));
   const resumed = log.rows.filter((r) => keys.has(rowKey(r))).length;
   opts.onStart?.(resumed, keys.size);

@@ -7,6 +7,8 @@
  * row, without its newline). Opening the log truncates such a torn line away; the row it held is
  * produced again. Rows are keyed by `id` + `mode`; a key already in the file is never written again.
  * An unparsable line anywhere but at the end is an error (the file was edited), naming the line.
+ * The owner may pass a row check (e.g. the evaluation's, which refuses rows written under older
+ * field names); its error is prefixed with `file:line:1: `.
  */
 import { closeSync, existsSync, fsyncSync, openSync, readFileSync, truncateSync, writeSync } from 'node:fs';
 
@@ -19,6 +21,9 @@ export function rowKey(row: KeyedRow): string {
   return `${row.id}\u0000${row.mode}`;
 }
 
+/** Checks one parsed row; throws an Error whose message says what is wrong (the log adds where). */
+export type RowCheck = (row: Readonly<Record<string, unknown>>) => void;
+
 export class ResultsLog<Row extends KeyedRow> {
   readonly path: string;
   readonly rows: Row[] = [];
@@ -27,7 +32,7 @@ export class ResultsLog<Row extends KeyedRow> {
   readonly repairedBytes: number;
   private fd: number;
 
-  constructor(path: string) {
+  constructor(path: string, check?: RowCheck) {
     this.path = path;
     let repaired = 0;
     if (existsSync(path)) {
@@ -51,6 +56,13 @@ export class ResultsLog<Row extends KeyedRow> {
         }
         if (typeof row !== 'object' || row === null || typeof row.id !== 'string' || typeof row.mode !== 'string') {
           throw new Error(`${path}:${i + 1}:1: expected an object with string "id" and "mode"`);
+        }
+        if (check) {
+          try {
+            check(row as unknown as Record<string, unknown>);
+          } catch (err) {
+            throw new Error(`${path}:${i + 1}:1: ${(err as Error).message}`);
+          }
         }
         const key = rowKey(row);
         if (this.keys.has(key)) throw new Error(`${path}:${i + 1}:1: row for id ${JSON.stringify(row.id)} mode ${row.mode} appears twice`);

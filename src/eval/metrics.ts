@@ -10,13 +10,13 @@
  *     "mcnemar_p": { "exact_match": p, "execution_accuracy": p } } }
  * ```
  * where R = `{ "rate", "ci_low", "ci_high", "n" }` (95% percentile bootstrap, see stats.ts).
- * valid = the output parses; well_typed = it also passes the tree check with the bound names;
+ * valid = the output is a program of the grammar; well_typed = it also passes the tree check with the bound names;
  * executable = it ran without error; exact_match = tree equal to gold; execution_accuracy = its
  * answer equals the gold answer. `mcnemar_p` compares the two modes on the items decoded in both
  * (exact two-sided test on discordant pairs); null when a mode has no rows.
  */
 import { bootstrapRate, mcnemarPaired, quantile, type RateCI } from './stats.ts';
-import type { EvalRow, Mode } from './run.ts';
+import { MEASURES, type EvalRow, type Mode } from './run.ts';
 
 export interface ModeMetrics {
   readonly valid: RateCI;
@@ -36,17 +36,12 @@ export interface SplitMetrics {
 
 export type Metrics = Record<string, SplitMetrics>;
 
-export const RATE_METRICS = ['valid', 'well_typed', 'executable', 'exact_match', 'execution_accuracy'] as const;
+/** The five measures; each is a boolean field of the same name in every row of results.jsonl. */
+export const RATE_METRICS = MEASURES;
 export type RateMetric = (typeof RATE_METRICS)[number];
 
 function outcome(row: EvalRow, metric: RateMetric): boolean {
-  switch (metric) {
-    case 'valid': return row.parses;
-    case 'well_typed': return row.well_typed;
-    case 'executable': return row.executes;
-    case 'exact_match': return row.exact_match;
-    case 'execution_accuracy': return row.denotation_match;
-  }
+  return row[metric];
 }
 
 function modeMetrics(rows: readonly EvalRow[]): ModeMetrics {

@@ -41,12 +41,13 @@ export interface ReportInput {
   readonly examples?: number;
 }
 
-export const METRIC_LABELS: Record<RateMetric, string> = {
-  valid: 'parses',
-  well_typed: 'well-typed',
-  executable: 'executes',
-  exact_match: 'exact match',
-  execution_accuracy: 'execution accuracy',
+/** What each measure means, shown as the tooltip of its row (the row shows the measure's own name). */
+export const METRIC_MEANINGS: Record<RateMetric, string> = {
+  valid: 'the output is a program of the grammar',
+  well_typed: 'it also passes the tree check with the bound names (known names, variables in scope)',
+  executable: 'it ran without error',
+  exact_match: 'its tree equals the gold tree',
+  execution_accuracy: 'its answer equals the gold answer',
 };
 
 const MODES: readonly Mode[] = ['unconstrained', 'constrained'];
@@ -81,7 +82,7 @@ function splitTable(split: string, m: Metrics[string]): string {
     const p = metric === 'exact_match' || metric === 'execution_accuracy'
       ? `<td class="p" data-key="${esc(split)}.mcnemar_p.${metric}">${pval(m.mcnemar_p[metric])}</td>`
       : '<td class="p"></td>';
-    return `<tr><th scope="row">${METRIC_LABELS[metric]}</th>${cells}${p}</tr>`;
+    return `<tr><th scope="row" title="${esc(METRIC_MEANINGS[metric])}"><code>${metric}</code></th>${cells}${p}</tr>`;
   });
   const lat = (q: 'latency_ms_p50' | 'latency_ms_p95', label: string) =>
     `<tr><th scope="row">${label}</th>${MODES.map((mode) => `<td><span class="num" data-key="${esc(split)}.${mode}.${q}">${ms(m[mode][q])}</span></td>`).join('')}<td class="p"></td></tr>`;
@@ -159,10 +160,10 @@ export function markText(text: string, offset: number | null, tokens: readonly s
 }
 
 function verdict(r: EvalRow): string {
-  if (!r.parses) return '<span class="bad">does not parse</span>';
+  if (!r.valid) return '<span class="bad">does not parse</span>';
   if (!r.well_typed) return '<span class="bad">ill-typed</span>';
-  if (!r.executes) return '<span class="bad">runtime error</span>';
-  if (r.denotation_match) return r.exact_match ? '<span class="good">exact</span>' : '<span class="good">right answer</span>';
+  if (!r.executable) return '<span class="bad">runtime error</span>';
+  if (r.execution_accuracy) return r.exact_match ? '<span class="good">exact</span>' : '<span class="good">right answer</span>';
   return '<span class="warn">wrong answer</span>';
 }
 
@@ -176,11 +177,11 @@ function pickExamples(rows: readonly EvalRow[], max: number): [EvalRow, EvalRow]
   }
   const pairs = [...byId.values()].filter((e) => e.u && e.c).map((e) => [e.u!, e.c!] as [EvalRow, EvalRow]);
   const groups: [EvalRow, EvalRow][][] = [
-    pairs.filter(([u, c]) => !u.parses && c.denotation_match),
-    pairs.filter(([u]) => !u.parses),
-    pairs.filter(([u]) => u.parses && !u.executes),
-    pairs.filter(([, c]) => !c.denotation_match),
-    pairs.filter(([u, c]) => u.denotation_match && c.denotation_match),
+    pairs.filter(([u, c]) => !u.valid && c.execution_accuracy),
+    pairs.filter(([u]) => !u.valid),
+    pairs.filter(([u]) => u.valid && !u.executable),
+    pairs.filter(([, c]) => !c.execution_accuracy),
+    pairs.filter(([u, c]) => u.execution_accuracy && c.execution_accuracy),
   ];
   const chosen: [EvalRow, EvalRow][] = [];
   const seen = new Set<string>();
@@ -199,7 +200,7 @@ function pickExamples(rows: readonly EvalRow[], max: number): [EvalRow, EvalRow]
 function card([u, c]: [EvalRow, EvalRow]): string {
   const line = (label: string, cls: string, r: EvalRow) => `<div class="out ${cls}">
   <div class="label">${label} ${verdict(r)}</div>
-  <pre>${markText(r.text, r.parses ? null : r.failure?.offset ?? null, r.token_texts ?? null)}</pre>
+  <pre>${markText(r.text, r.valid ? null : r.failure?.offset ?? null, r.token_texts ?? null)}</pre>
   ${r.failure ? `<div class="why">${esc(r.failure.category)}${r.failure.detail !== r.failure.category ? ` — ${esc(r.failure.detail)}` : ''}</div>` : ''}
   <div class="answer">answer: ${esc(formatAnswer(r.answer))}</div>
 </div>`;
@@ -268,7 +269,7 @@ export function renderReport(input: ReportInput): string {
     splits,
     metrics: input.metrics,
     metricNames: RATE_METRICS,
-    metricLabels: RATE_METRICS.map((m) => METRIC_LABELS[m]),
+    metricLabels: RATE_METRICS,
     latency: {
       edges: Array.from({ length: bins }, (_, i) => lo + ((hi - lo) * i) / bins),
       width: (hi - lo) / bins,

@@ -2,18 +2,22 @@
  * The evaluation loop: decode every item twice (unconstrained, then constrained), score each
  * output, and append one row per item and mode to the results log as soon as it is produced.
  *
- * Scoring an output (all in the grammar's own terms, see Scorer):
- * - parses: the text is a program of the grammar (the parser accepts it);
+ * Scoring an output (all in the grammar's own terms, see Scorer). The five measures carry the same
+ * names in every row of results.jsonl, in metrics.json, in the report and in README:
+ * - valid: the text is a program of the grammar (the parser accepts it);
  * - well_typed: its tree also passes the tree check with the bound names (known names, bound
  *   variables);
- * - executes: the executor ran the tree without error;
+ * - executable: the executor ran the tree without error;
  * - exact_match: the tree equals the gold tree (JSON equality of trees, not of strings);
- * - denotation_match: the executed answer equals the gold program's answer (Scorer.sameAnswer).
+ * - execution_accuracy: the executed answer equals the gold program's answer (Scorer.sameAnswer).
  * The first thing that went wrong is kept as `failure` (a category for the taxonomy, the detail,
  * and the offset of the first bad character in the text when there is one).
  *
  * Resuming: rows already in the log (key id + mode) are skipped, so a killed run started again
- * produces exactly the missing rows. Gold programs are parsed and executed once per item.
+ * produces exactly the missing rows. Gold programs are parsed and executed once per item. A log
+ * written before the measures got their present names (`parses`, `executes`, `denotation_match`)
+ * is refused by checkRow rather than read: continuing it would leave one file with two names for
+ * each measure.
  */
 import { performance } from 'node:perf_hooks';
 import type { ExecResult, Tree } from '../exec/types.ts';
@@ -54,11 +58,12 @@ export interface Failure {
 }
 
 export interface Analysis {
-  readonly parses: boolean;
+  /** the text is a program of the grammar */
+  readonly valid: boolean;
   readonly well_typed: boolean;
   /** the tree when the text parses (even when it is not well-typed) */
   readonly tree: Tree | null;
-  /** null exactly when parses and well_typed */
+  /** null exactly when valid and well_typed */
   readonly failure: Failure | null;
 }
 
@@ -87,11 +92,11 @@ export interface EvalRow {
   readonly truncated: boolean;
   /** the generated tokens' texts, or null when the decoder did not give them */
   readonly token_texts: readonly string[] | null;
-  readonly parses: boolean;
+  readonly valid: boolean;
   readonly well_typed: boolean;
-  readonly executes: boolean;
+  readonly executable: boolean;
   readonly exact_match: boolean;
-  readonly denotation_match: boolean;
+  readonly execution_accuracy: boolean;
   readonly failure: Failure | null;
   readonly answer: unknown;
   readonly gold_answer: unknown;
@@ -107,6 +112,31 @@ export interface RunOptions {
   readonly modes?: readonly Mode[];
   /** called after each row is written (progress display) */
   readonly onRow?: (row: EvalRow, done: number, total: number) => void;
+}
+
+/** Names of the five measures in rows, metrics.json, the report and README. */
+export const MEASURES = ['valid', 'well_typed', 'executable', 'exact_match', 'execution_accuracy'] as const;
+
+/** Fields of rows written by earlier versions, with their present names. */
+const RENAMED: Readonly<Record<string, string>> = { parses: 'valid', executes: 'executable', denotation_match: 'execution_accuracy' };
+
+/**
+ * Checks a row read back from results.jsonl before a run continues it: no field under an old
+ * name, and every measure true or false. Throws an Error naming the field (a JSON path).
+ */
+export function checkRow(row: Readonly<Record<string, unknown>>): void {
+  for (const [old, now] of Object.entries(RENAMED)) {
+    if (Object.prototype.hasOwnProperty.call(row, old)) {
+      throw new Error(
+        `$.${old}: the old name of the measure ${JSON.stringify(now)} (this file was written by an earlier treewright); ` +
+          `expected the fields ${MEASURES.slice(0, -1).join(', ')} and ${MEASURES[MEASURES.length - 1]}. Evaluate into a new --out folder, ` +
+          `or rename the fields in this file (${Object.entries(RENAMED).map(([o, n]) => `${o} → ${n}`).join(', ')}) and run again`,
+      );
+    }
+  }
+  for (const m of MEASURES) {
+    if (typeof row[m] !== 'boolean') throw new Error(`$.${m}: expected true or false, found ${JSON.stringify(row[m]) ?? 'nothing'}`);
+  }
 }
 
 /** JSON equality of two trees (field order ignored). */
@@ -169,7 +199,7 @@ export async function runEvaluation(opts: RunOptions): Promise<number> {
 
 async function scoreGold(scorer: Scorer, item: EvalItem): Promise<GoldInfo> {
   const a = scorer.analyse(item.gold, false);
-  if (!a.parses || !a.well_typed || a.tree === null) {
+  if (!a.valid || !a.well_typed || a.tree === null) {
     return { tree: a.tree, answer: null, error: `the gold program of ${item.id} is not valid: ${a.failure?.detail ?? 'unknown problem'}` };
   }
   const r = await scorer.execute(a.tree);
@@ -182,20 +212,20 @@ async function scoreOne(opts: RunOptions, item: EvalItem, mode: Mode, gold: Gold
   const out = await opts.decode(item, mode);
   const latency = performance.now() - t0;
   const a = opts.scorer.analyse(out.text, out.truncated);
-  let executes = false;
+  let executable = false;
   let answer: unknown = null;
   let failure = a.failure;
-  if (a.parses && a.well_typed && a.tree !== null) {
+  if (a.valid && a.well_typed && a.tree !== null) {
     const r = await opts.scorer.execute(a.tree);
     if (r.ok) {
-      executes = true;
+      executable = true;
       answer = r.value;
     } else {
       failure = { category: runtimeCategory(r.error), detail: r.error, offset: null };
     }
   }
   const exact = a.tree !== null && gold.tree !== null && a.well_typed && sameTree(a.tree, gold.tree);
-  const denot = executes && gold.error === null && gold.tree !== null && opts.scorer.sameAnswer(gold.answer, answer, gold.tree);
+  const accurate = executable && gold.error === null && gold.tree !== null && opts.scorer.sameAnswer(gold.answer, answer, gold.tree);
   return {
     id: item.id,
     split: item.split,
@@ -210,11 +240,11 @@ async function scoreOne(opts: RunOptions, item: EvalItem, mode: Mode, gold: Gold
     mask_share: latency > 0 ? round3(out.mask_ms / latency) : 0,
     truncated: out.truncated,
     token_texts: out.token_texts ?? null,
-    parses: a.parses,
-    well_typed: a.parses && a.well_typed,
-    executes,
+    valid: a.valid,
+    well_typed: a.valid && a.well_typed,
+    executable,
     exact_match: exact,
-    denotation_match: denot,
+    execution_accuracy: accurate,
     failure,
     answer,
     gold_answer: gold.answer,

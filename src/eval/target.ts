@@ -52,13 +52,13 @@ export function createScorer(opts: ScorerOptions): Scorer {
             : message.startsWith('unbound variable') ? 'unbound variable'
             : message.endsWith('(out of range)') ? 'value out of range'
             : message;
-          return { parses: true, well_typed: false, tree: null, failure: { category, detail: message, offset: err.offset } };
+          return { valid: true, well_typed: false, tree: null, failure: { category, detail: message, offset: err.offset } };
         }
         const atEnd = err.offset >= text.trimEnd().length;
         const category = atEnd ? (truncated ? 'truncated at max length' : `ended early, ${message}`) : message;
-        return { parses: false, well_typed: false, tree: null, failure: { category, detail: message, offset: err.offset } };
+        return { valid: false, well_typed: false, tree: null, failure: { category, detail: message, offset: err.offset } };
       }
-      return { parses: true, well_typed: true, tree, failure: null };
+      return { valid: true, well_typed: true, tree, failure: null };
     },
     execute(tree: Tree) {
       return opts.execute(tree, context);

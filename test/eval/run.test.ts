@@ -1,10 +1,11 @@
 import { afterAll, describe, expect, it } from 'vitest';
-import { mkdtempSync, readFileSync, rmSync, writeFileSync, appendFileSync } from 'node:fs';
+import { appendFileSync, existsSync, mkdirSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
+import { evaluate } from '../../src/eval/evaluate.ts';
 import { ResultsLog } from '../../src/eval/log.ts';
 import { computeMetrics, computeTaxonomy } from '../../src/eval/metrics.ts';
-import { runEvaluation, runtimeCategory, sameTree, type EvalRow } from '../../src/eval/run.ts';
+import { checkRow, runEvaluation, runtimeCategory, sameTree, type EvalRow } from '../../src/eval/run.ts';
 import { mcnemarExact } from '../../src/eval/stats.ts';
 import { jsonScorer, makeItems, replayDecoder } from './fixtures/json-scorer.ts';
 
@@ -22,7 +23,7 @@ describe('runEvaluation', () => {
     const rows = readFileSync(path, 'utf8').trim().split('\n').map((l) => JSON.parse(l) as EvalRow);
     expect(rows.map((r) => `${r.id}/${r.mode}`).slice(0, 4)).toEqual(['test-0/unconstrained', 'test-0/constrained', 'test-1/unconstrained', 'test-1/constrained']);
     const un = rows.filter((r) => r.mode === 'unconstrained');
-    expect(un.map((r) => [r.parses, r.well_typed, r.executes, r.exact_match, r.denotation_match]).slice(0, 5)).toEqual([
+    expect(un.map((r) => [r.valid, r.well_typed, r.executable, r.exact_match, r.execution_accuracy]).slice(0, 5)).toEqual([
       [true, true, true, true, true], // right
       [false, false, false, false, false], // truncated
       [true, true, true, false, true], // 1 + i: another tree, same answer
@@ -76,6 +77,52 @@ describe('runEvaluation', () => {
     const path = join(dir, 'c.jsonl');
     writeFileSync(path, '{"id":"a","mode":"constrained"}\nnot json\n{"id":"b","mode":"constrained"}\n');
     expect(() => new ResultsLog<EvalRow>(path)).toThrow(/c\.jsonl:2:1: expected a JSON object per line/);
+  });
+});
+
+describe('a results.jsonl written under the old field names', () => {
+  // decided: refused, not read. Continuing it would leave rows with two names for each measure in
+  // one file; the message names the file, the line and the field, and says how to go on.
+  it('is refused with the file, line and old field named', async () => {
+    const out = join(dir, 'old');
+    const log = new ResultsLog<EvalRow>(join(dir, 'fresh.jsonl'));
+    await runEvaluation({ items: makeItems(2), decode: replayDecoder(), scorer: jsonScorer, log });
+    log.close();
+    // the rows as an earlier treewright wrote them
+    const old = log.rows.map((r) => {
+      const { valid, executable, execution_accuracy, ...rest } = r;
+      return JSON.stringify({ ...rest, parses: valid, executes: executable, denotation_match: execution_accuracy });
+    });
+    rmSync(out, { recursive: true, force: true });
+    mkdirSync(out);
+    writeFileSync(join(out, 'results.jsonl'), old.join('\n') + '\n');
+    const before = readFileSync(join(out, 'results.jsonl'), 'utf8');
+    await expect(evaluate({ items: makeItems(3), decode: replayDecoder(), scorer: jsonScorer, outDir: out, meta: {} })).rejects.toThrow(
+      `${join(out, 'results.jsonl')}:1:1: $.parses: the old name of the measure "valid" (this file was written by an earlier treewright); ` +
+        'expected the fields valid, well_typed, executable, exact_match and execution_accuracy. Evaluate into a new --out folder, ' +
+        'or rename the fields in this file (parses → valid, executes → executable, denotation_match → execution_accuracy) and run again',
+    );
+    // nothing was written or truncated
+    expect(readFileSync(join(out, 'results.jsonl'), 'utf8')).toBe(before);
+    expect(existsSync(join(out, 'metrics.json'))).toBe(false);
+  });
+
+  it('renamed as the message says, the same file is continued', async () => {
+    const out = join(dir, 'old');
+    const text = readFileSync(join(out, 'results.jsonl'), 'utf8')
+      .replaceAll('"parses":', '"valid":')
+      .replaceAll('"executes":', '"executable":')
+      .replaceAll('"denotation_match":', '"execution_accuracy":');
+    writeFileSync(join(out, 'results.jsonl'), text);
+    const r = await evaluate({ items: makeItems(3), decode: replayDecoder(), scorer: jsonScorer, outDir: out, meta: {} });
+    expect([r.resumed, r.written]).toEqual([4, 2]);
+    expect(r.metrics.test.unconstrained.valid.n).toBe(3);
+  });
+
+  it('a row missing a measure is refused, naming the line and field', () => {
+    const path = join(dir, 'd.jsonl');
+    writeFileSync(path, '{"id":"a","mode":"constrained","valid":true,"well_typed":true,"executable":true,"exact_match":false,"execution_accuracy":true}\n{"id":"b","mode":"constrained","valid":true}\n');
+    expect(() => new ResultsLog<EvalRow>(path, checkRow)).toThrow(`${path}:2:1: $.well_typed: expected true or false, found nothing`);
   });
 });
 

@@ -48,9 +48,9 @@ describe('LF scorer', () => {
     expect(lf.analyse(cut, true).failure?.category).toBe('truncated at max length');
     expect(lf.analyse(cut, false).failure?.category).toMatch(/^ended early, expected /);
     const unk = lf.analyse('lambda $x. banana($x)', false);
-    expect([unk.parses, unk.well_typed, unk.failure?.category, unk.failure?.offset]).toEqual([true, false, 'unknown name', 11]);
+    expect([unk.valid, unk.well_typed, unk.failure?.category, unk.failure?.offset]).toEqual([true, false, 'unknown name', 11]);
     const unb = lf.analyse('lambda $x. grower($y)', false);
-    expect([unb.parses, unb.well_typed, unb.failure?.category]).toEqual([true, false, 'unbound variable']);
+    expect([unb.valid, unb.well_typed, unb.failure?.category]).toEqual([true, false, 'unbound variable']);
   });
 });
 

@@ -2,7 +2,7 @@
  * `treewright evaluate --model DIR --grammar G --data FILE.jsonl --out DIR [--beam K] [--limit N]
  * [--split NAME] [--db FILE] [--names FILE] [--executor MODULE] [--max-tokens N] [--prefix TEXT]`:
  * decodes every item of the data file(s) (--data may be repeated; --limit applies per file) twice (unconstrained, constrained), scores each output
- * (parses, well-typed, executes, exact match, execution accuracy, tokens, latency, mask-time
+ * (valid, well_typed, executable, exact_match, execution_accuracy, tokens, latency, mask-time
  * share) and writes to --out: results.jsonl (appended row by row; a killed run started again
  * continues where it stopped), metrics.json, taxonomy.json and report.html.
  *
@@ -74,7 +74,7 @@ export const register: RegisterCommand = (program: Command, setExit) => {
     .requiredOption('--data <file>', 'JSONL rows {id, split, question, <grammar name>: gold program}; may be given more than once', (v: string, prev: string[]) => [...prev, v], [] as string[])
     .requiredOption('--out <dir>', 'output folder: results.jsonl, metrics.json, taxonomy.json, report.html')
     .option('--beam <k>', 'beam search with k hypotheses (default greedy)')
-    .option('--limit <n>', 'evaluate only the first n items (after --split)')
+    .option('--limit <n>', 'evaluate only the first n items of each --data file (counted after --split)')
     .option('--split <name>', 'evaluate only the items of this split')
     .option('--db <file>', 'SQLite database (or a .sql script, built into .cache/db/): runs SQL, feeds the LF fact base, binds names')
     .option('--names <file>', 'JSON bindings of the open name sets (instead of those from --db)')
@@ -188,8 +188,8 @@ export const register: RegisterCommand = (program: Command, setExit) => {
           for (const mode of ['unconstrained', 'constrained'] as const) {
             const mm = m[mode];
             process.stderr.write(
-              `  ${split} ${mode.padEnd(13)} valid ${p(mm.valid.rate)} · well-typed ${p(mm.well_typed.rate)} · executes ${p(mm.executable.rate)} · ` +
-                `exact ${p(mm.exact_match.rate)} · execution ${p(mm.execution_accuracy.rate)} · p50 ${mm.latency_ms_p50?.toFixed(1) ?? '–'} ms\n`,
+              `  ${split} ${mode.padEnd(13)} valid ${p(mm.valid.rate)} · well_typed ${p(mm.well_typed.rate)} · executable ${p(mm.executable.rate)} · ` +
+                `exact_match ${p(mm.exact_match.rate)} · execution_accuracy ${p(mm.execution_accuracy.rate)} · p50 ${mm.latency_ms_p50?.toFixed(1) ?? '–'} ms\n`,
             );
           }
         }
