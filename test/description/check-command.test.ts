@@ -120,5 +120,5 @@ describe('treewright check', () => {
     vi.restoreAllMocks();
     const stdout = execFileSync(process.execPath, ['src/cli/treewright.mjs', 'check', 'grammars/lf/lf.twg'], { encoding: 'utf8' });
     expect(stdout.split('\n').slice(0, 2)).toEqual(['grammar      lf (grammars/lf/lf.twg)', 'start        Query']);
-  });
+  }, 60_000); // a fresh Node process loading tsx: seconds on a loaded 2-core machine
 });
