@@ -19,4 +19,4 @@ export { loadModel, Seq2SeqModel, ModelError } from './model/index.ts';
 export * from './decode/index.ts';
 export { SqlRunner, checkSelectTree, sqlExecutor, evaluateLf, lfExecutor, makeFactBase, factNames, buildCoop, factsFromDatabase, buildSqliteFile, buildSqliteFileFrom, loadExecutor } from './exec/index.ts';
 export type { ExecContext, ExecResult, ExecuteFn, LfAnswer, FactBase } from './exec/index.ts';
-export { evaluate, loadItems, computeMetrics, computeTaxonomy, mcnemarExact, bootstrapRate, writeReport } from './eval/index.ts';
+export { evaluate, loadItems, computeMetrics, computeTaxonomy, mcnemarExact, wilsonInterval, pairedBootstrapDifferences, writeReport } from './eval/index.ts';

@@ -1,8 +1,8 @@
 /**
  * eval/ — measures what the validity guarantee buys and costs: decodes every item of a data file
  * twice (unconstrained, constrained), scores each output in the grammar's own terms, and writes
- * results.jsonl (resumable), metrics.json (rates with 95% bootstrap intervals, latency p50/p95,
- * McNemar's exact test), taxonomy.json (where invalid outputs first went wrong) and report.html
+ * results.jsonl (resumable), metrics.json (rates with 95% Wilson score intervals, differences
+ * between the modes with 95% paired-bootstrap intervals, McNemar's exact test, latency p50/p95), taxonomy.json (where invalid outputs first went wrong) and report.html
  * (self-contained, charts inlined).
  *
  * Example:
@@ -14,16 +14,17 @@
  *
  * Worst-case cost: per item two decodes (the model's time dominates), two parses (ohm, a few ms)
  * and up to three executions (gold once, each output once; bounded by the executors' limits);
- * one fsync per row. Metrics: 2000 bootstrap resamples × n draws per rate (10 rates per split),
- * well under a second for a few thousand items. The report is ~250 KB plus ~1 KB per example.
+ * one fsync per row. Metrics: 2000 bootstrap resamples × n draws per split (the five differences
+ * share the resamples), well under a second for a few thousand items. The report is ~250 KB plus ~1 KB per example.
  * Limits: one decode at a time (no batching); the latency recorded is the wall-clock time of the
  * decode call on a machine that may be shared; the taxonomy keys on the parser's first error, so
  * an output with several faults is counted once, where it first went wrong.
  */
-export { runEvaluation, sameTree, runtimeCategory, MODES, type DecodeFn, type DecodeOutput, type EvalItem, type EvalRow, type Failure, type Mode, type Scorer, type Analysis } from './run.ts';
+export { runEvaluation, sameTree, runtimeCategory, checkRow, MEASURES, MODES, type DecodeFn, type DecodeOutput, type EvalItem, type EvalRow, type Failure, type Mode, type Scorer, type Analysis } from './run.ts';
 export { ResultsLog, rowKey } from './log.ts';
 export { computeMetrics, computeTaxonomy, RATE_METRICS, type Metrics, type ModeMetrics, type SplitMetrics, type TaxonomyEntry } from './metrics.ts';
-export { bootstrapRate, mcnemarExact, mcnemarPaired, quantile, BOOTSTRAP_RESAMPLES, BOOTSTRAP_SEED, type RateCI } from './stats.ts';
+export { wilsonInterval, wilsonRate, pairedBootstrapDifferences, mcnemarExact, mcnemarPaired, quantile, BOOTSTRAP_RESAMPLES, BOOTSTRAP_SEED, Z_95, type RateCI, type DifferenceCI } from './stats.ts';
 export { renderReport, writeReport, type ReportInput } from './report.ts';
+export { resultsTable, type TableInput } from './table.ts';
 export { createScorer, sameAnswer, type ScorerOptions } from './target.ts';
 export { evaluate, loadItems, type EvaluateOptions, type EvaluateResult, type LoadItemsOptions } from './evaluate.ts';

@@ -7,15 +7,23 @@
  *     "unconstrained": { "valid": R, "well_typed": R, "executable": R, "exact_match": R,
  *                        "execution_accuracy": R, "latency_ms_p50": ms, "latency_ms_p95": ms },
  *     "constrained":   { …the same… },
- *     "mcnemar_p": { "exact_match": p, "execution_accuracy": p } } }
+ *     "difference": { "valid": D, "well_typed": D, …the five measures },
+ *     "mcnemar_p":  { "valid": p, "well_typed": p, …the five measures } } }
  * ```
- * where R = `{ "rate", "ci_low", "ci_high", "n" }` (95% percentile bootstrap, see stats.ts).
- * valid = the output is a program of the grammar; well_typed = it also passes the tree check with the bound names;
- * executable = it ran without error; exact_match = tree equal to gold; execution_accuracy = its
- * answer equals the gold answer. `mcnemar_p` compares the two modes on the items decoded in both
- * (exact two-sided test on discordant pairs); null when a mode has no rows.
+ * R = `{ "rate", "ci_low", "ci_high", "n", "ci_method": "wilson-score" }`: the share of items
+ * with the measure true and its 95% Wilson score interval (see stats.ts).
+ * D = `{ "estimate", "ci_low", "ci_high", "n", "discordant", "ci_method":
+ * "paired-percentile-bootstrap", "resamples", "seed" }`: constrained rate − unconstrained rate on
+ * the n items decoded in both modes, with a 95% paired percentile-bootstrap interval; the bounds
+ * are null when no item differs between the modes (`discordant` = 0; the bootstrap then has no
+ * spread to measure).
+ * Every interval names its method in `ci_method`.
+ * valid = the output is a program of the grammar; well_typed = it also passes the tree check with
+ * the bound names; executable = it ran without error; exact_match = tree equal to gold;
+ * execution_accuracy = its answer equals the gold answer. `mcnemar_p` compares the two modes on the
+ * items decoded in both (exact two-sided test on discordant pairs); null when a mode has no rows.
  */
-import { bootstrapRate, mcnemarPaired, quantile, type RateCI } from './stats.ts';
+import { mcnemarPaired, pairedBootstrapDifferences, quantile, wilsonRate, type DifferenceCI, type RateCI } from './stats.ts';
 import { MEASURES, type EvalRow, type Mode } from './run.ts';
 
 export interface ModeMetrics {
@@ -31,7 +39,9 @@ export interface ModeMetrics {
 export interface SplitMetrics {
   readonly unconstrained: ModeMetrics;
   readonly constrained: ModeMetrics;
-  readonly mcnemar_p: { readonly exact_match: number | null; readonly execution_accuracy: number | null };
+  /** constrained − unconstrained, per measure, on the items decoded in both modes */
+  readonly difference: Readonly<Record<RateMetric, DifferenceCI>>;
+  readonly mcnemar_p: Readonly<Record<RateMetric, number | null>>;
 }
 
 export type Metrics = Record<string, SplitMetrics>;
@@ -46,7 +56,7 @@ function outcome(row: EvalRow, metric: RateMetric): boolean {
 
 function modeMetrics(rows: readonly EvalRow[]): ModeMetrics {
   const lat = rows.map((r) => r.latency_ms);
-  const rate = (m: RateMetric) => bootstrapRate(rows.map((r) => outcome(r, m)));
+  const rate = (m: RateMetric) => wilsonRate(rows.map((r) => outcome(r, m)));
   return {
     valid: rate('valid'),
     well_typed: rate('well_typed'),
@@ -56,6 +66,10 @@ function modeMetrics(rows: readonly EvalRow[]): ModeMetrics {
     latency_ms_p50: round(quantile(lat, 0.5)),
     latency_ms_p95: round(quantile(lat, 0.95)),
   };
+}
+
+function byMeasure<T>(f: (m: RateMetric, i: number) => T): Record<RateMetric, T> {
+  return Object.fromEntries(RATE_METRICS.map((m, i) => [m, f(m, i)])) as Record<RateMetric, T>;
 }
 
 function round(x: number | null): number | null {
@@ -78,10 +92,15 @@ export function computeMetrics(rows: readonly EvalRow[]): Metrics {
     const pairs = un.filter((r) => coById.has(r.id)).map((r) => [r, coById.get(r.id)!] as const);
     const p = (metric: RateMetric) =>
       pairs.length === 0 ? null : mcnemarPaired(pairs.map(([, c]) => outcome(c, metric)), pairs.map(([u]) => outcome(u, metric))).p;
+    const diffs = pairedBootstrapDifferences(
+      RATE_METRICS.map((m) => pairs.map(([u]) => outcome(u, m))),
+      RATE_METRICS.map((m) => pairs.map(([, c]) => outcome(c, m))),
+    );
     out[split] = {
       unconstrained: modeMetrics(un),
       constrained: modeMetrics(co),
-      mcnemar_p: { exact_match: p('exact_match'), execution_accuracy: p('execution_accuracy') },
+      difference: byMeasure((_m, i) => diffs[i]),
+      mcnemar_p: byMeasure((m) => p(m)),
     };
   }
   return out;

@@ -1,7 +1,8 @@
 /**
  * The evaluation report: one self-contained HTML file (no network: Chart.js and its error-bar
- * plugin are inlined from node_modules). It shows validity and accuracy per split and mode with
- * 95% confidence intervals, McNemar p-values, latency distributions, the failure taxonomy and
+ * plugin are inlined from node_modules). It shows the five measures per split and mode with 95%
+ * Wilson score intervals, the difference between the modes with its paired-bootstrap interval and
+ * McNemar's p, latency distributions, the failure taxonomy and
  * example cards (gold vs unconstrained vs constrained, the first bad token marked, the answers).
  *
  * Every number in the tables carries `data-key` (its path in metrics.json) so a reader — or a
@@ -14,7 +15,7 @@ import { createRequire } from 'node:module';
 import type { Metrics, ModeMetrics, RateMetric, TaxonomyEntry } from './metrics.ts';
 import { RATE_METRICS } from './metrics.ts';
 import type { EvalRow, Mode } from './run.ts';
-import type { RateCI } from './stats.ts';
+import type { DifferenceCI, RateCI } from './stats.ts';
 import { BOOTSTRAP_RESAMPLES } from './stats.ts';
 
 const require = createRequire(import.meta.url);
@@ -61,6 +62,16 @@ export function pct(x: number | null): string {
   return x === null ? '–' : `${(x * 100).toFixed(1)}%`;
 }
 
+/**
+ * A difference of rates in percentage points with its sign, one decimal: 0.0125 → "+1.3",
+ * −0.2 → "−20.0" (U+2212), anything that rounds to zero → "0.0".
+ */
+export function pp(x: number | null): string {
+  if (x === null) return '–';
+  const v = Math.abs(x * 100).toFixed(1);
+  return `${v === '0.0' ? '' : x > 0 ? '+' : '\u2212'}${v}`;
+}
+
 export function ms(x: number | null): string {
   return x === null ? '–' : `${x.toFixed(1)} ms`;
 }
@@ -76,19 +87,26 @@ function rateCell(key: string, r: RateCI): string {
     `<span class="n"> n=<span data-key="${esc(key)}.n">${r.n}</span></span></td>`;
 }
 
+function differenceCell(key: string, d: DifferenceCI): string {
+  const ci = d.ci_low === null || d.ci_high === null
+    ? `<span class="ci" title="the bootstrap has no spread to measure when the modes never disagree"> (no item differs)</span>`
+    : `<span class="ci"> [<span data-key="${esc(key)}.ci_low">${pp(d.ci_low)}</span> – <span data-key="${esc(key)}.ci_high">${pp(d.ci_high)}</span>]</span>`;
+  return `<td><span class="num" data-key="${esc(key)}.estimate">${pp(d.estimate)}</span>${ci}` +
+    `<span class="n"> <span data-key="${esc(key)}.discordant">${d.discordant}</span> differ</span></td>`;
+}
+
 function splitTable(split: string, m: Metrics[string]): string {
   const rows = RATE_METRICS.map((metric) => {
     const cells = MODES.map((mode) => rateCell(`${split}.${mode}.${metric}`, (m[mode] as ModeMetrics)[metric])).join('');
-    const p = metric === 'exact_match' || metric === 'execution_accuracy'
-      ? `<td class="p" data-key="${esc(split)}.mcnemar_p.${metric}">${pval(m.mcnemar_p[metric])}</td>`
-      : '<td class="p"></td>';
-    return `<tr><th scope="row" title="${esc(METRIC_MEANINGS[metric])}"><code>${metric}</code></th>${cells}${p}</tr>`;
+    const diff = differenceCell(`${split}.difference.${metric}`, m.difference[metric]);
+    const p = `<td class="p" data-key="${esc(split)}.mcnemar_p.${metric}">${pval(m.mcnemar_p[metric])}</td>`;
+    return `<tr><th scope="row" title="${esc(METRIC_MEANINGS[metric])}"><code>${metric}</code></th>${cells}${diff}${p}</tr>`;
   });
   const lat = (q: 'latency_ms_p50' | 'latency_ms_p95', label: string) =>
-    `<tr><th scope="row">${label}</th>${MODES.map((mode) => `<td><span class="num" data-key="${esc(split)}.${mode}.${q}">${ms(m[mode][q])}</span></td>`).join('')}<td class="p"></td></tr>`;
+    `<tr><th scope="row">${label}</th>${MODES.map((mode) => `<td><span class="num" data-key="${esc(split)}.${mode}.${q}">${ms(m[mode][q])}</span></td>`).join('')}<td></td><td class="p"></td></tr>`;
   return `<table class="metrics">
 <caption>split <b>${esc(split)}</b></caption>
-<thead><tr><th></th><th class="mode-u">unconstrained</th><th class="mode-c">constrained</th><th>McNemar p</th></tr></thead>
+<thead><tr><th></th><th class="mode-u">unconstrained</th><th class="mode-c">constrained</th><th>constrained − unconstrained, pp</th><th>McNemar p</th></tr></thead>
 <tbody>${rows.join('\n')}
 ${lat('latency_ms_p50', 'latency p50')}
 ${lat('latency_ms_p95', 'latency p95')}</tbody></table>`;
@@ -229,6 +247,8 @@ h1 { font-size: 26px; margin: 0 0 4px; font-weight: 650; letter-spacing: -0.01em
 h2 { font-size: 19px; margin: 36px 0 10px; padding-bottom: 4px; border-bottom: 2px solid var(--ink); }
 .meta { color: var(--quiet); font-size: 13px; }
 .meta span { margin-right: 14px; }
+.split { margin-bottom: 22px; } .split .chart { margin-top: 10px; }
+.metrics td { white-space: nowrap; }
 .grid { display: grid; grid-template-columns: repeat(auto-fit, minmax(480px, 1fr)); gap: 18px; }
 table { border-collapse: collapse; width: 100%; font-variant-numeric: tabular-nums; background: #fff; }
 caption { text-align: left; padding: 6px 0; }
@@ -295,11 +315,12 @@ export function renderReport(input: ReportInput): string {
 <div class="meta">${Object.entries(input.meta).map(([k, v]) => `<span>${esc(k)}: <b>${esc(v)}</b></span>`).join('')}<span>rows: <b>${input.rows.length}</b></span></div>
 
 <h2>Validity and accuracy</h2>
-<p class="note">Each rate with a 95% percentile-bootstrap interval (${BOOTSTRAP_RESAMPLES} resamples, fixed seed).
-McNemar p: exact two-sided test of constrained against unconstrained on the same items.</p>
-<div class="grid">
-${splits.map((s) => `<div>${splitTable(s, input.metrics[s])}</div><div class="chart"><canvas id="chart-rates-${esc(s)}" data-chart="rates" data-split="${esc(s)}"></canvas></div>`).join('\n')}
-</div>
+<p class="note">Each rate with its 95% Wilson score interval (meaningful at 0% and 100% too: 20 of 20 gives [83.9% – 100%]).
+The difference is constrained − unconstrained in percentage points on the items decoded in both modes, with a 95% paired
+percentile-bootstrap interval (${BOOTSTRAP_RESAMPLES} resamples, fixed seed) and the number of items on which the modes differ;
+with few such items the interval is too narrow, and with none there is no interval. McNemar p: exact two-sided test of
+constrained against unconstrained on the same items.</p>
+${splits.map((s) => `<div class="split">${splitTable(s, input.metrics[s])}<div class="chart"><canvas id="chart-rates-${esc(s)}" data-chart="rates" data-split="${esc(s)}"></canvas></div></div>`).join('\n')}
 
 <h2>Latency</h2>
 <p class="note">Wall-clock time per decoded item, all splits. Median share of that time spent computing token masks:
@@ -355,7 +376,7 @@ ${examples.map(card).join('\n')}
         { label: 'unconstrained', data: pctData(split, 'unconstrained'), backgroundColor: U, errorBarColor: '#1d2327', errorBarWhiskerColor: '#1d2327' },
         { label: 'constrained', data: pctData(split, 'constrained'), backgroundColor: C, errorBarColor: '#1d2327', errorBarWhiskerColor: '#1d2327' }
       ] },
-      options: { maintainAspectRatio: false, scales: { y: { min: 0, max: 100, title: { display: true, text: '% of items (95% CI)' } } },
+      options: { maintainAspectRatio: false, scales: { y: { min: 0, max: 100, title: { display: true, text: '% of items (95% Wilson interval)' } } },
         plugins: { title: { display: true, text: 'split ' + split } } }
     }));
   });

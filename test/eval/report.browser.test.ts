@@ -93,12 +93,18 @@ describe('report.html in headless Chromium', () => {
 
   it('shows the same numbers as metrics.json', async () => {
     const cells = await page.$$eval('[data-key]', (els) => els.map((e) => [e.getAttribute('data-key')!, e.textContent!.trim()] as const));
-    // 2 splits × (2 modes × (5 metrics × 4 numbers + 2 latencies) + 2 p-values)
-    expect(cells.length).toBe(2 * (2 * (5 * 4 + 2) + 2));
     const fromFile = JSON.parse(readFileSync(join(dir, 'metrics.json'), 'utf8'));
+    // per split: 2 modes × (5 measures × 4 numbers + 2 latencies) + 5 p-values + per measure a
+    // difference, its count of differing items and, when some differ, its two bounds
+    const withInterval = (s: string) => Object.values(fromFile[s].difference).filter((d) => (d as { ci_low: number | null }).ci_low !== null).length;
+    expect(withInterval('test')).toBeGreaterThan(0);
+    expect(cells.length).toBe(['test', 'compositional'].reduce((sum, s) => sum + 2 * (5 * 4 + 2) + 5 + 5 * 2 + 2 * withInterval(s), 0));
     for (const [key, text] of cells) {
       const want = at(fromFile, key) as number;
-      if (key.endsWith('.n')) expect(Number(text), key).toBe(want);
+      if (key.includes('.difference.') && !key.endsWith('.discordant')) {
+        // percentage points with a sign: "+60.0", "−5.0", "0.0"
+        expect(Math.abs(Number(text.replace('\u2212', '-')) / 100 - want), key).toBeLessThanOrEqual(0.0005 + 1e-12);
+      } else if (key.endsWith('.n') || key.endsWith('.discordant')) expect(Number(text), key).toBe(want);
       else if (text.endsWith('%')) expect(Math.abs(Number(text.slice(0, -1)) / 100 - want), key).toBeLessThanOrEqual(0.0005 + 1e-12);
       else if (text.endsWith(' ms')) expect(Math.abs(Number(text.slice(0, -3)) - want), key).toBeLessThanOrEqual(0.05 + 1e-9);
       else expect(Math.abs(Number(text) - want) / want, key).toBeLessThan(0.005);

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { formatAnswer, markText, pct, pval, tokenSpan } from '../../src/eval/report.ts';
+import { formatAnswer, markText, pct, pp, pval, tokenSpan } from '../../src/eval/report.ts';
 
 describe('report helpers', () => {
   it('finds the token that holds an offset, with the leading space the decoder dropped', () => {
@@ -22,6 +22,7 @@ describe('report helpers', () => {
   it('formats numbers and answers as the page shows them', () => {
     expect(pct(0.8345)).toBe('83.5%');
     expect(pct(null)).toBe('–');
+    expect([pp(0.193), pp(-0.005), pp(-0.2), pp(0), pp(0.0004), pp(null)]).toEqual(['+19.3', '\u22120.5', '\u221220.0', '0.0', '0.0', '–']);
     expect(pval(0.0078125)).toBe('0.00781');
     expect(formatAnswer({ type: 'set', members: ['a', 'b'] })).toBe('{a, b}');
     expect(formatAnswer({ type: 'truth', value: false })).toBe('no');

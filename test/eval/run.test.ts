@@ -44,6 +44,10 @@ describe('runEvaluation', () => {
     // execution accuracy: constrained-only right on i%5 ∈ {1,3}: b = 8; never unconstrained-only: c = 0
     expect(m.test.mcnemar_p.execution_accuracy).toBe(mcnemarExact(8, 0));
     expect(m.test.mcnemar_p.execution_accuracy).toBeCloseTo(2 / 256, 15);
+    // the same discordant pairs give the differences: constrained − unconstrained = (b − c) / n
+    expect(m.test.difference.exact_match).toMatchObject({ estimate: 12 / 20, n: 20, discordant: 12, ci_method: 'paired-percentile-bootstrap' });
+    expect(m.test.difference.execution_accuracy).toMatchObject({ estimate: 8 / 20, n: 20, discordant: 8 });
+    expect(m.test.unconstrained.valid.ci_method).toBe('wilson-score');
     const tax = computeTaxonomy(rows);
     expect(tax.unconstrained.map((t) => [t.category, t.count])).toEqual([
       ['expected num or add', 4],

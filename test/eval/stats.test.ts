@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
-import { bignumber, combinations, quantileSeq } from 'mathjs';
-import { bootstrapRate, mcnemarExact, mcnemarPaired, quantile } from '../../src/eval/stats.ts';
+import { bignumber, combinations, erf, quantileSeq } from 'mathjs';
+import { mcnemarExact, mcnemarPaired, pairedBootstrapDifferences, quantile, wilsonInterval, wilsonRate, Z_95 } from '../../src/eval/stats.ts';
 
 /** Exact two-sided McNemar p with arbitrary-precision binomial coefficients (mathjs BigNumber). */
 function referenceMcNemar(b: number, c: number): number {
@@ -55,30 +55,100 @@ describe('quantile', () => {
   });
 });
 
-describe('bootstrapRate', () => {
-  it('is deterministic for a seed and brackets the rate', () => {
-    const outcomes = Array.from({ length: 200 }, (_, i) => i % 10 < 7);
-    const a = bootstrapRate(outcomes);
-    const b = bootstrapRate(outcomes);
+describe('wilsonInterval', () => {
+  it('uses the two-sided 95% normal quantile: erf(z/√2) = 0.95 (mathjs)', () => {
+    // P(|Z| ≤ z) = erf(z/√2) for a standard normal Z (a fact of the trade, no source)
+    expect(erf(Z_95 / Math.SQRT2)).toBeCloseTo(0.95, 14);
+  });
+
+  it('20 of 20: lower bound 20/(20 + z²) ≈ 83.9%, upper 100% — not the collapsed [100%, 100%]', () => {
+    // closed form of the Wilson bound at k = n (algebra on the score interval, no source): n/(n + z²)
+    const ci = wilsonInterval(20, 20)!;
+    expect(ci.low).toBeCloseTo(20 / (20 + Z_95 * Z_95), 15);
+    expect(ci.low.toFixed(4)).toBe('0.8389');
+    expect(ci.high).toBe(1);
+    // and the mirror image, 0 of 20
+    const zero = wilsonInterval(0, 20)!;
+    expect(zero.low).toBe(0);
+    expect(zero.high).toBeCloseTo(1 - ci.low, 15);
+  });
+
+  it("matches the published worked examples of Newcombe (1998), Table I, method 3 (score, no continuity correction)", () => {
+    // Newcombe R.G. (1998), "Two-sided confidence intervals for the single proportion: comparison of
+    // seven methods", Statistics in Medicine 17:857–872, Table I. Values typed from memory; each
+    // agrees with the closed form to the 4 decimals printed there.
+    const published: [number, number, string, string][] = [
+      [81, 263, '0.2553', '0.3662'],
+      [15, 148, '0.0624', '0.1605'],
+      [0, 20, '0.0000', '0.1611'],
+      [1, 29, '0.0061', '0.1718'],
+    ];
+    for (const [k, n, low, high] of published) {
+      const ci = wilsonInterval(k, n)!;
+      expect([ci.low.toFixed(4), ci.high.toFixed(4)], `${k}/${n}`).toEqual([low, high]);
+    }
+  });
+
+  it('its bounds are where the score test statistic equals z', () => {
+    // the definition of the Wilson interval (Wilson 1927): |p̂ − p| = z·sqrt(p(1 − p)/n) at both bounds
+    for (const [k, n] of [[3, 17], [12, 40], [399, 400], [1, 2], [250, 440]]) {
+      const ci = wilsonInterval(k, n)!;
+      for (const p of [ci.low, ci.high]) {
+        expect(Math.abs(k / n - p) / Math.sqrt((p * (1 - p)) / n), `${k}/${n} at ${p}`).toBeCloseTo(Z_95, 9);
+      }
+    }
+  });
+
+  it('is null for no items and refuses impossible counts', () => {
+    expect(wilsonInterval(0, 0)).toBeNull();
+    expect(() => wilsonInterval(5, 4)).toThrow('wilsonInterval: expected whole numbers 0 ≤ successes ≤ n, found 5 of 4');
+    expect(() => wilsonInterval(1.5, 4)).toThrow('found 1.5 of 4');
+  });
+
+  it('wilsonRate counts the outcomes and names its method', () => {
+    const ci = wilsonInterval(3, 4)!;
+    expect(wilsonRate([true, false, true, true])).toEqual({ rate: 0.75, ci_low: ci.low, ci_high: ci.high, n: 4, ci_method: 'wilson-score' });
+    expect(wilsonRate([])).toEqual({ rate: null, ci_low: null, ci_high: null, n: 0, ci_method: 'wilson-score' });
+  });
+});
+
+describe('pairedBootstrapDifferences', () => {
+  const n = 400;
+  // unconstrained right on 80% of items; constrained also right on 30 of the items it got wrong,
+  // and wrong on 6 it got right: b = 6, c = 30 discordant pairs
+  const first = Array.from({ length: n }, (_, i) => i % 5 !== 0);
+  const second = first.map((x, i) => (x ? !(i % 5 === 1 && i < 30) : i < 150));
+
+  it('is deterministic for a seed, and its estimate is the difference of the rates', () => {
+    const [a] = pairedBootstrapDifferences([first], [second]);
+    const [b] = pairedBootstrapDifferences([first], [second]);
     expect(a).toEqual(b);
-    expect(a.rate).toBe(0.7);
-    expect(a.n).toBe(200);
-    expect(a.ci_low!).toBeLessThan(0.7);
-    expect(a.ci_high!).toBeGreaterThan(0.7);
+    const rate = (xs: boolean[]) => xs.filter(Boolean).length / xs.length;
+    expect(a.estimate).toBeCloseTo(rate(second) - rate(first), 15);
+    expect(a.estimate).toBeCloseTo(24 / 400, 15);
+    expect(a).toMatchObject({ n, discordant: 36, ci_method: 'paired-percentile-bootstrap', resamples: 2000, seed: 20261201 });
+    expect(a.ci_low!).toBeLessThan(a.estimate!);
+    expect(a.ci_high!).toBeGreaterThan(a.estimate!);
   });
 
-  it('has about the normal-approximation width for a large sample', () => {
-    // common practice, no source: for a proportion the bootstrap percentile interval is close to
-    // p ± 1.96·sqrt(p(1−p)/n) when n is large and p is away from 0 and 1
-    const n = 400;
-    const outcomes = Array.from({ length: n }, (_, i) => i % 5 !== 0); // p = 0.8
-    const r = bootstrapRate(outcomes);
-    const half = 1.96 * Math.sqrt((0.8 * 0.2) / n);
-    expect(Math.abs(r.ci_high! - r.ci_low! - 2 * half)).toBeLessThan(0.25 * 2 * half);
+  it('has about the normal-approximation width of a paired difference', () => {
+    // common practice, no source: the variance of the mean paired difference is
+    // ((b + c) − (c − b)²/n) / n², and a percentile interval is close to ±1.96 of its root for large n
+    const [d] = pairedBootstrapDifferences([first], [second]);
+    const [b, c] = [6, 30];
+    const se = Math.sqrt(b + c - (c - b) ** 2 / n) / n;
+    expect(Math.abs(d.ci_high! - d.ci_low! - 2 * 1.96 * se)).toBeLessThan(0.15 * 2 * 1.96 * se);
   });
 
-  it('gives a zero-width interval when every outcome is the same, and nulls for no data', () => {
-    expect(bootstrapRate([true, true, true])).toEqual({ rate: 1, ci_low: 1, ci_high: 1, n: 3 });
-    expect(bootstrapRate([])).toEqual({ rate: null, ci_low: null, ci_high: null, n: 0 });
+  it('gives no interval when no item differs, and nulls for no items', () => {
+    const same = Array.from({ length: 50 }, (_, i) => i % 3 === 0);
+    expect(pairedBootstrapDifferences([same], [same])[0]).toMatchObject({ estimate: 0, ci_low: null, ci_high: null, n: 50, discordant: 0 });
+    expect(pairedBootstrapDifferences([[]], [[]])[0]).toMatchObject({ estimate: null, ci_low: null, ci_high: null, n: 0, discordant: 0 });
+  });
+
+  it('uses one set of resamples for every measure of a call', () => {
+    const [x, y] = pairedBootstrapDifferences([first, first], [second, second]);
+    expect(x).toEqual(y);
+    expect(() => pairedBootstrapDifferences([first], [second.slice(1)])).toThrow('paired differences need 400 pairs per measure, got 400 and 399');
   });
 });
