@@ -32,7 +32,7 @@ export { SqlRunner, checkSelectTree, sqlExecutor, type SqlRunnerOptions } from '
 export { evaluateLf, lfExecutor, DEFAULT_STEP_LIMIT, type LfAnswer, type LfOptions } from './lf.ts';
 export { makeFactBase, factNames, type FactBase, type FactsInput } from './facts.ts';
 export { buildCoop, factsFromDatabase, lfAgreesWithSql } from './coop.ts';
-export { buildSqliteFile, buildSqliteFileFrom } from './database.ts';
+export { buildSqliteFile, buildSqliteFileFrom, databaseKind, openDatabaseFile, runSqlScript, type DatabaseFile } from './database.ts';
 
 /** Loads a user's executor module; the error names the file and what it must export. */
 export async function loadExecutor(path: string): Promise<ExecuteFn> {

@@ -5,21 +5,20 @@
  * read from the same file).
  */
 import { createHash } from 'node:crypto';
-import { existsSync, mkdtempSync, readFileSync, rmSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { existsSync, readFileSync } from 'node:fs';
 import { basename, dirname, join, resolve } from 'node:path';
-import { fileURLToPath } from 'node:url';
 import { maskEngine } from '../decode/index.ts';
 import { compileDescription, type Diagnostic } from '../description/index.ts';
 import type { Grammar, NameBindings } from '../description/ir.ts';
-import { buildSqliteFileFrom, factNames, factsFromDatabase, lfExecutor, SqlRunner, sqlExecutor, type ExecuteFn } from '../exec/index.ts';
+import { factNames, factsFromDatabase, lfExecutor, openDatabaseFile, SqlRunner, sqlExecutor, type DatabaseFile, type ExecuteFn } from '../exec/index.ts';
 import type { FactBase } from '../exec/facts.ts';
 import { loadModel, type Seq2SeqModel } from '../model/index.ts';
 import { checkNames, loadNames, namesFromDatabase } from '../tree/index.ts';
+import { grammarFile, PACKAGE_ROOT } from '../util/package.ts';
 import { lineColumn } from '../util/source.ts';
 import { Checker } from './checker.ts';
 
-export const REPO = resolve(dirname(fileURLToPath(import.meta.url)), '..', '..');
+export const REPO = resolve(PACKAGE_ROOT);
 export const SHIPPED = ['sql', 'lf', 'arith', 'json'] as const;
 
 export interface GrammarEntry {
@@ -66,7 +65,8 @@ export interface RegistryOptions {
   readonly grammars?: readonly string[];
   /** --model folders; default models/coop when it holds an ONNX export */
   readonly models?: readonly string[];
-  /** SQLite file for SQL, LF facts and names; default: the demo cooperative built in a temp dir */
+  /** SQLite file or .sql script (built into a private temporary database) for SQL, LF facts and
+   * names; default: the demo cooperative, built from grammars/sql/coop.sql */
   readonly db?: string;
   /** JSON names file merged over the defaults (each grammar takes the sets it declares) */
   readonly names?: string;
@@ -82,9 +82,9 @@ export interface RegistryOptions {
   readonly checkedLimit?: number;
 }
 
+/** A --grammar value as a description file: an existing file, else a shipped name (see src/util/package.ts). */
 export function shippedPath(g: string): string {
-  if ((SHIPPED as readonly string[]).includes(g) && !existsSync(g)) return join(REPO, 'grammars', g, `${g}.twg`);
-  return resolve(g);
+  return resolve(grammarFile(g) ?? g);
 }
 
 function defaultModels(): string[] {
@@ -105,33 +105,36 @@ export class Registry {
   private readonly checkedLimit: number;
   private readonly extraNames: NameBindings;
   private runner: SqlRunner | null = null;
-  private tempDir: string | null = null;
+  private database: DatabaseFile | null;
   readonly dbPath: string;
   readonly facts: FactBase;
   private readonly checker: Checker;
 
-  private constructor(opts: RegistryOptions, dbPath: string, tempDir: string | null) {
-    this.dbPath = dbPath;
-    this.tempDir = tempDir;
-    this.facts = factsFromDatabase(dbPath);
+  private constructor(opts: RegistryOptions, database: DatabaseFile) {
+    this.database = database;
+    this.dbPath = resolve(database.path);
+    this.facts = factsFromDatabase(this.dbPath);
     this.checkedLimit = opts.checkedLimit ?? 64;
     this.extraNames = opts.names !== undefined ? loadNames(opts.names) : {};
-    this.runner = new SqlRunner(dbPath, { timeoutMs: opts.sqlTimeoutMs ?? 2000 });
+    this.runner = new SqlRunner(this.dbPath, { timeoutMs: opts.sqlTimeoutMs ?? 2000 });
     this.checker = new Checker(opts.checkTimeoutMs ?? 10_000);
   }
 
   /** Loads grammars and models; throws with a located message on any bad file. */
   static async open(opts: RegistryOptions = {}): Promise<Registry> {
-    let db = opts.db;
-    let temp: string | null = null;
-    if (db === undefined) {
-      temp = mkdtempSync(join(tmpdir(), 'treewright-serve-'));
-      db = join(temp, 'coop.sqlite');
-      buildSqliteFileFrom(join(REPO, 'grammars', 'sql', 'coop.sql'), db);
-    } else if (!existsSync(db)) {
-      throw new Error(`--db ${db}: no such file (expected a SQLite database)`);
+    let database: DatabaseFile;
+    try {
+      database = openDatabaseFile(opts.db ?? join(REPO, 'grammars', 'sql', 'coop.sql'));
+    } catch (e) {
+      throw new Error(`--db ${(e as Error).message}`);
     }
-    const reg = new Registry(opts, resolve(db), temp);
+    let reg: Registry;
+    try {
+      reg = new Registry(opts, database);
+    } catch (e) {
+      database.dispose();
+      throw e;
+    }
     try {
       for (const g of opts.grammars ?? SHIPPED) {
         const file = shippedPath(g);
@@ -260,8 +263,8 @@ export class Registry {
     this.runner = null;
     for (const m of this.models.values()) await m.model.dispose();
     this.models.clear();
-    if (this.tempDir !== null) rmSync(this.tempDir, { recursive: true, force: true });
-    this.tempDir = null;
+    this.database?.dispose();
+    this.database = null;
   }
 }
 

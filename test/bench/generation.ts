@@ -22,6 +22,7 @@ import { generate, maskEngine, type GenerateOptions } from '../../src/decode/ind
 import { loadModel } from '../../src/model/index.ts';
 import { loadNames, namesFromDatabase } from '../../src/tree/index.ts';
 import { factsFromDatabase } from '../../src/exec/coop.ts';
+import { openDatabaseFile } from '../../src/exec/database.ts';
 import { factNames } from '../../src/exec/facts.ts';
 import type { NameBindings } from '../../src/description/ir.ts';
 
@@ -58,7 +59,12 @@ const grammarPath = /^[a-z]+$/.test(a.grammar!) ? `grammars/${a.grammar}/${a.gra
 const grammar = loadGrammar(grammarPath);
 let names: NameBindings = {};
 if (a.names) names = loadNames(a.names);
-else if (a.db) names = grammar.name === 'lf' ? factNames(factsFromDatabase(a.db)) : namesFromDatabase(a.db);
+else if (a.db) {
+  // a SQLite file or a .sql script, as every --db of the CLI
+  const db = openDatabaseFile(a.db);
+  names = grammar.name === 'lf' ? factNames(factsFromDatabase(db.path)) : namesFromDatabase(db.path);
+  db.dispose();
+}
 else if (grammarPath.endsWith('lf/lf.twg')) names = loadNames('grammars/lf/samples/names.json');
 
 let questions = FIXTURE_QUESTIONS;

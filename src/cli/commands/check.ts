@@ -6,8 +6,10 @@
 import { readFileSync } from 'node:fs';
 import type { Command } from 'commander';
 import { compileDescription, formatDiagnostic, type Diagnostic } from '../../description/index.ts';
+import { grammarFile } from '../../util/package.ts';
 import { lineColumn } from '../../util/source.ts';
-import type { RegisterCommand } from './index.ts';
+import type { RegisterCommand } from '../command.ts';
+import { opt } from '../options.ts';
 
 const WIDTH = 100;
 
@@ -46,9 +48,11 @@ export const register: RegisterCommand = (program: Command, setExit) => {
   program
     .command('check')
     .description('compile a grammar description (.twg) and report errors, warnings and a summary')
-    .argument('<grammar>', 'path of the .twg description')
-    .option('--json', 'print the result as JSON on stdout')
-    .action((path: string, opts: { json?: boolean }) => {
+    .argument('<grammar>', 'grammar description: a .twg file, or a shipped grammar by name (found in the package, from any folder)')
+    .addOption(opt.json('print {ok, grammar, sorts, constructors, tokens, name_sets, warnings, errors} on stdout'))
+    .action((value: string, opts: { json?: boolean }) => {
+      // an unreadable path is reported as a diagnostic of its own (below), so no argument parser here
+      const path = grammarFile(value) ?? value;
       let text: string | null = null;
       let diagnostics: Diagnostic[];
       let grammar = null;

@@ -16,7 +16,7 @@ import type { Grammar, NameBindings } from '../../description/ir.ts';
 import { generate, type GenerateResult } from '../../decode/index.ts';
 import { evaluateLf, factNames, factsFromDatabase, SqlRunner, sqlExecutor, type ExecResult, type FactBase } from '../../exec/index.ts';
 import { loadModel } from '../../model/index.ts';
-import type { DemoContext, DemoSection } from './demo.ts';
+import type { DemoContext, DemoSection } from './demo-context.ts';
 
 const ROOT = fileURLToPath(new URL('../../../', import.meta.url));
 const MODEL_DIR = 'models/coop';

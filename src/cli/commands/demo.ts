@@ -8,43 +8,25 @@
  * one invented program parsed to a tree, printed back and run, and a located error for a broken one.
  */
 import Database from 'better-sqlite3';
-import { mkdtempSync, readFileSync, rmSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
-import { fileURLToPath } from 'node:url';
 import type { Command } from 'commander';
 import { compileDescription } from '../../description/index.ts';
 import type { Grammar, NameBindings } from '../../description/ir.ts';
-import { buildSqliteFileFrom } from '../../exec/database.ts';
+import { openDatabaseFile } from '../../exec/database.ts';
 import { createParser, createSampler, loadNames, namesFromDatabase, printTree, sampleTree } from '../../tree/index.ts';
+import { PACKAGE_ROOT } from '../../util/package.ts';
+import type { RegisterCommand } from '../command.ts';
+import type { DemoContext, DemoSection } from './demo-context.ts';
 import { modelSection } from './demo-model.ts';
-import type { RegisterCommand } from './index.ts';
 
-/** What every section may use. Built once by runDemo. */
-export interface DemoContext {
-  /** the four shipped grammars by name (sql, lf, json, arith) */
-  readonly grammars: ReadonlyMap<string, Grammar>;
-  /** path of the demo database (built from grammars/sql/coop.sql into a temporary folder) */
-  readonly database: string;
-  /** names bound from the demo database: every table and every column */
-  readonly sqlNames: NameBindings;
-  /** table → its columns, for sampling with consistent names */
-  readonly schema: ReadonlyMap<string, readonly string[]>;
-  /** names for the other grammars (grammars/G/samples/names.json) */
-  readonly names: ReadonlyMap<string, NameBindings>;
-}
-
-export interface DemoSection {
-  readonly title: string;
-  run(ctx: DemoContext, out: (line: string) => void): void | Promise<void>;
-}
+export type { DemoContext, DemoSection } from './demo-context.ts';
 
 const GRAMMAR_NAMES = ['sql', 'lf', 'json', 'arith'] as const;
 
-/** The repository root: the demo reads the shipped grammars from here, wherever it is started. */
-const ROOT = fileURLToPath(new URL('../../../', import.meta.url));
-/** A path inside the repository, absolute (for reading) — messages show the relative form. */
-const inRepo = (relative: string) => join(ROOT, relative);
+/** A path inside the package, absolute (for reading) — messages show the relative form. The demo
+ * reads the shipped grammars from there, wherever it is started. */
+const inRepo = (relative: string) => join(PACKAGE_ROOT, relative);
 
 /** `key  text`, with continuation lines of `text` indented under it. */
 function labelled(label: string, text: string, width = 8): string {
@@ -190,10 +172,9 @@ export async function runDemo(out: (line: string) => void): Promise<number> {
     const { grammar } = compileDescription(readFileSync(inRepo(path), 'utf8'), path);
     if (grammar) grammars.set(name, grammar);
   }
-  const dir = mkdtempSync(join(tmpdir(), 'treewright-demo-'));
+  const built = openDatabaseFile(inRepo('grammars/sql/coop.sql'));
   try {
-    const database = join(dir, 'coop.db');
-    buildSqliteFileFrom(inRepo('grammars/sql/coop.sql'), database);
+    const database = built.path;
     const schema = new Map<string, string[]>();
     const db = new Database(database, { readonly: true });
     for (const t of db.prepare("SELECT name FROM sqlite_schema WHERE type = 'table' ORDER BY rowid").pluck().all() as string[]) {
@@ -219,7 +200,7 @@ export async function runDemo(out: (line: string) => void): Promise<number> {
     }
     return 0;
   } finally {
-    rmSync(dir, { recursive: true, force: true });
+    built.dispose();
   }
 }
 

@@ -13,195 +13,146 @@
  * model's config.json, else `to <grammar name>: ` (the shipped model's convention).
  * Exit code 0 when the run finished, 1 on an error (printed on stderr, naming the file).
  */
-import { existsSync, readFileSync } from 'node:fs';
-import { basename, join } from 'node:path';
-import type { Command } from 'commander';
-import type { NameBindings } from '../../description/ir.ts';
+import { Option, type Command } from 'commander';
 import type { ExecuteFn } from '../../exec/types.ts';
 import type { DecodeFn, EvalRow, Mode } from '../../eval/run.ts';
-import type { RegisterCommand } from './index.ts';
+import { runCommand, type RegisterCommand } from '../command.ts';
+import { bindNames, dbBindsNames, integer, loadGrammarFile, modelInput, openDatabase, opt } from '../options.ts';
 
 interface Flags {
   model: string;
   grammar: string;
   data: string[];
   out: string;
-  beam?: string;
-  limit?: string;
+  beam?: number;
+  limit?: number;
   split?: string;
   db?: string;
   names?: string;
   executor?: string;
-  maxTokens?: string;
+  maxTokens?: number;
   prefix?: string;
-}
-
-/**
- * The text put before each question: `treewright.prefixes[<grammar name>]` in the model's
- * config.json when it has one, else `to <grammar name>: ` (the shipped model's convention, see
- * models/src/train.py).
- */
-function modelPrefix(modelDir: string, grammarName: string): string {
-  try {
-    const config = JSON.parse(readFileSync(join(modelDir, 'config.json'), 'utf8')) as { treewright?: { prefixes?: Record<string, unknown> } };
-    const p = config.treewright?.prefixes?.[grammarName];
-    if (typeof p === 'string') return p;
-  } catch {
-    // a missing or unreadable config is reported by loadModel, with its path
-  }
-  return `to ${grammarName}: `;
-}
-
-/** `--grammar sql` names a shipped grammar (grammars/sql/sql.twg); anything else is a path. */
-function grammarPath(g: string): string {
-  if (/^[a-z][a-z0-9_-]*$/.test(g) && !existsSync(g)) return `grammars/${g}/${g}.twg`;
-  return g;
-}
-
-function positiveInt(flag: string, value: string | undefined): number | undefined {
-  if (value === undefined) return undefined;
-  const n = Number(value);
-  if (value.trim() === '' || !Number.isInteger(n) || n < 1) throw new Error(`--${flag}: found ${JSON.stringify(value)}; expected a positive integer`);
-  return n;
 }
 
 export const register: RegisterCommand = (program: Command, setExit) => {
   program
     .command('evaluate')
     .description('measure a model on a data file, unconstrained and constrained: validity, accuracy, latency, and an HTML report')
-    .requiredOption('--model <dir>', 'model folder (config.json, tokenizer.json, onnx/...)')
-    .requiredOption('--grammar <g>', 'grammar description (.twg path, or a shipped grammar: sql, lf)')
+    .addOption(opt.model())
+    .addOption(opt.grammar())
     .requiredOption('--data <file>', 'JSONL rows {id, split, question, <grammar name>: gold program}; may be given more than once', (v: string, prev: string[]) => [...prev, v], [] as string[])
     .requiredOption('--out <dir>', 'output folder: results.jsonl, metrics.json, taxonomy.json, report.html')
-    .option('--beam <k>', 'beam search with k hypotheses (default greedy)')
-    .option('--limit <n>', 'evaluate only the first n items of each --data file (counted after --split)')
+    .addOption(opt.beam())
+    .addOption(new Option('--limit <n>', 'evaluate only the first n items of each --data file (counted after --split)').argParser(integer(1)))
     .option('--split <name>', 'evaluate only the items of this split')
-    .option('--db <file>', 'SQLite database (or a .sql script, built into .cache/db/): runs SQL, feeds the LF fact base, binds names')
-    .option('--names <file>', 'JSON bindings of the open name sets (instead of those from --db)')
+    .addOption(opt.db())
+    .addOption(opt.names())
     .option('--executor <module>', 'your own executor: an ES module exporting execute(tree, context)')
-    .option('--max-tokens <n>', 'most tokens generated per output, end of sequence included (default 128)')
-    .option('--prefix <text>', 'text put before each question (default: the model config\'s treewright.prefixes, else "to <grammar name>: ")')
-    .action(async (f: Flags) => {
-      let closeRunner: (() => void) | null = null;
-      try {
-        // loaded here so that other commands start without onnxruntime and the mask engine
-        const { loadGrammar } = await import('../../description/index.ts');
-        const { generate, maskEngine } = await import('../../decode/index.ts');
-        const { loadModel } = await import('../../model/index.ts');
-        const { checkNames, loadNames, namesFromDatabase } = await import('../../tree/index.ts');
-        const { SqlRunner, sqlExecutor, lfExecutor, factsFromDatabase, factNames, loadExecutor } = await import('../../exec/index.ts');
-        const { evaluate, loadItems } = await import('../../eval/evaluate.ts');
-        const { createScorer } = await import('../../eval/target.ts');
-
-        const beam = positiveInt('beam', f.beam);
-        const limit = positiveInt('limit', f.limit);
-        const maxTokens = positiveInt('max-tokens', f.maxTokens);
-        const gPath = grammarPath(f.grammar);
-        const grammar = loadGrammar(gPath);
-        if (f.db !== undefined && !existsSync(f.db)) throw new Error(`--db ${f.db}: no such file (expected a SQLite database or a .sql script)`);
-        if (f.db !== undefined && f.db.endsWith('.sql')) {
-          // a SQL script (e.g. grammars/sql/coop.sql): built afresh into a SQLite file under .cache/
-          const { buildSqliteFileFrom } = await import('../../exec/database.ts');
-          const built = join('.cache', 'db', `${basename(f.db, '.sql')}.sqlite`);
-          buildSqliteFileFrom(f.db, built);
-          f.db = built;
-        }
-
-        let names: NameBindings = {};
-        let namesSource = '';
-        let execute: ExecuteFn;
-        if (f.executor !== undefined) {
-          execute = await loadExecutor(f.executor);
-          if (f.db !== undefined && grammar.name === 'sql') [names, namesSource] = [namesFromDatabase(f.db), f.db];
-        } else if (grammar.name === 'sql') {
-          if (f.db === undefined) throw new Error(`--db: missing; expected the SQLite database the ${gPath} programs run on`);
-          const runner = new SqlRunner(f.db);
-          closeRunner = () => runner.close();
-          execute = sqlExecutor(runner, grammar);
-          [names, namesSource] = [namesFromDatabase(f.db), f.db];
-        } else if (grammar.name === 'lf') {
-          if (f.db === undefined) throw new Error(`--db: missing; expected the SQLite database the ${gPath} fact base is read from`);
-          const facts = factsFromDatabase(f.db);
-          execute = lfExecutor(facts);
-          [names, namesSource] = [factNames(facts), f.db];
-        } else {
-          throw new Error(`--executor: missing; expected an executor module for grammar ${grammar.name} (${gPath}); the shipped executors cover sql and lf`);
-        }
-        if (f.names !== undefined) [names, namesSource] = [loadNames(f.names), f.names];
-        if (namesSource !== '') checkNames(grammar, names, namesSource);
-
-        const items = f.data.flatMap((file) => {
-          const got = loadItems(file, { goldField: grammar.name, split: f.split, limit });
-          if (got.length === 0) throw new Error(`${file}: no items${f.split !== undefined ? ` in split ${JSON.stringify(f.split)}` : ''}; expected at least one row`);
-          return got;
-        });
-        const ids = new Set<string>();
-        for (const it of items) {
-          if (ids.has(it.id)) throw new Error(`--data: the id ${JSON.stringify(it.id)} occurs in more than one file; expected unique ids`);
-          ids.add(it.id);
-        }
-        const model = await loadModel(f.model);
-        const prefix = f.prefix ?? modelPrefix(f.model, grammar.name);
-        const decode: DecodeFn = async (item, mode: Mode) => {
-          const r = await generate(model, prefix + item.question, {
-            grammar,
-            names,
-            unconstrained: mode === 'unconstrained',
-            strategy: beam !== undefined ? 'beam' : 'greedy',
-            beamWidth: beam,
-            maxTokens,
-          });
-          return { text: r.text, tokens: r.tokens.length, model_ms: r.model_ms, mask_ms: r.mask_ms, truncated: r.finished === 'length', token_texts: r.tokenTexts };
-        };
-        // warm-up outside the timed loop: compile the grammar's masks for this vocabulary (or load
-        // them from the cache) and run both modes once, so the first item's latency is not the set-up
-        maskEngine(model, grammar);
-        for (const unconstrained of [true, false]) await generate(model, prefix + items[0].question, { grammar, names, unconstrained, maxTokens: 4 });
-        const scorer = createScorer({ grammar, names, execute, context: { grammar, db: f.db } });
-
-        const progress = await makeProgress();
-        const result = await evaluate({
-          items,
-          decode,
-          scorer,
-          outDir: f.out,
-          meta: {
-            model: f.model,
-            grammar: gPath,
-            data: f.data.join(', ') + (f.split !== undefined ? ` (split ${f.split})` : '') + (limit !== undefined ? ` (first ${limit} per file)` : ''),
-            decoding: beam !== undefined ? `beam ${beam}` : 'greedy',
-            prefix: JSON.stringify(prefix),
-          },
-          onStart: progress.start,
-          onRow: progress.row,
-        });
-        progress.stop();
-        const warnGold = new Set(result.rows.filter((r) => r.gold_error !== null).map((r) => r.gold_error));
-        for (const w of warnGold) process.stderr.write(`warning: ${w}\n`);
-        process.stderr.write(
-          `evaluate: ${result.written} rows written, ${result.resumed} kept from an earlier run` +
-            (result.repairedBytes > 0 ? `, a torn last line of ${result.repairedBytes} bytes dropped` : '') +
-            `; wrote ${f.out}/results.jsonl, metrics.json, taxonomy.json, report.html\n`,
-        );
-        for (const [split, m] of Object.entries(result.metrics)) {
-          const p = (x: number | null) => (x === null ? '–' : `${(x * 100).toFixed(1)}%`);
-          for (const mode of ['unconstrained', 'constrained'] as const) {
-            const mm = m[mode];
-            process.stderr.write(
-              `  ${split} ${mode.padEnd(13)} valid ${p(mm.valid.rate)} · well_typed ${p(mm.well_typed.rate)} · executable ${p(mm.executable.rate)} · ` +
-                `exact_match ${p(mm.exact_match.rate)} · execution_accuracy ${p(mm.execution_accuracy.rate)} · p50 ${mm.latency_ms_p50?.toFixed(1) ?? '–'} ms\n`,
-            );
-          }
-        }
-        setExit(0);
-      } catch (err) {
-        process.stderr.write(`treewright evaluate: ${(err as Error).message}\n`);
-        setExit(1);
-      } finally {
-        closeRunner?.();
-      }
-    });
+    .addOption(opt.maxTokens())
+    .addOption(opt.inputPrefix())
+    .action((f: Flags) => runCommand(setExit, () => evaluateCommand(f), 'treewright evaluate'));
 };
+
+async function evaluateCommand(f: Flags): Promise<void> {
+  // loaded here so that other commands start without onnxruntime and the mask engine
+  const { generate, maskEngine } = await import('../../decode/index.ts');
+  const { loadModel } = await import('../../model/index.ts');
+  const { SqlRunner, sqlExecutor, lfExecutor, factsFromDatabase, loadExecutor } = await import('../../exec/index.ts');
+  const { evaluate, loadItems } = await import('../../eval/evaluate.ts');
+  const { createScorer } = await import('../../eval/target.ts');
+
+  const { beam, limit, maxTokens } = f;
+  const grammar = loadGrammarFile(f.grammar);
+  const gPath = f.grammar;
+  const db = f.db === undefined ? null : openDatabase(f.db);
+  let closeRunner: (() => void) | null = null;
+  try {
+    let execute: ExecuteFn;
+    if (f.executor !== undefined) execute = await loadExecutor(f.executor);
+    else if (grammar.name === 'sql') {
+      if (db === null) throw new Error(`--db: missing; expected the SQLite database (or .sql script) the ${gPath} programs run on`);
+      const runner = new SqlRunner(db.path);
+      closeRunner = () => runner.close();
+      execute = sqlExecutor(runner, grammar);
+    } else if (grammar.name === 'lf') {
+      if (db === null) throw new Error(`--db: missing; expected the SQLite database (or .sql script) the ${gPath} fact base is read from`);
+      execute = lfExecutor(factsFromDatabase(db.path));
+    } else {
+      throw new Error(`--executor: missing; expected an executor module for grammar ${grammar.name} (${gPath}); the shipped executors cover sql and lf`);
+    }
+    // with your own executor, --db may serve the executor alone: names come from it only when the
+    // grammar declares sets it can bind
+    const names = (await bindNames(grammar, f, db !== null && dbBindsNames(grammar) ? db : null)) ?? {};
+
+    const items = f.data.flatMap((file) => {
+      const got = loadItems(file, { goldField: grammar.name, split: f.split, limit });
+      if (got.length === 0) throw new Error(`${file}: no items${f.split !== undefined ? ` in split ${JSON.stringify(f.split)}` : ''}; expected at least one row`);
+      return got;
+    });
+    const ids = new Set<string>();
+    for (const it of items) {
+      if (ids.has(it.id)) throw new Error(`--data: the id ${JSON.stringify(it.id)} occurs in more than one file; expected unique ids`);
+      ids.add(it.id);
+    }
+    const model = await loadModel(f.model);
+    const prefix = f.prefix ?? model.prefixFor(grammar.name);
+    const decode: DecodeFn = async (item, mode: Mode) => {
+      const r = await generate(model, modelInput(prefix, item.question), {
+        grammar,
+        names,
+        unconstrained: mode === 'unconstrained',
+        strategy: beam !== undefined ? 'beam' : 'greedy',
+        beamWidth: beam,
+        maxTokens,
+      });
+      return { text: r.text, tokens: r.tokens.length, model_ms: r.model_ms, mask_ms: r.mask_ms, truncated: r.finished === 'length', token_texts: r.tokenTexts };
+    };
+    // warm-up outside the timed loop: compile the grammar's masks for this vocabulary (or load
+    // them from the cache) and run both modes once, so the first item's latency is not the set-up
+    maskEngine(model, grammar);
+    for (const unconstrained of [true, false]) await generate(model, modelInput(prefix, items[0].question), { grammar, names, unconstrained, maxTokens: 4 });
+    const scorer = createScorer({ grammar, names, execute, context: { grammar, db: db?.path } });
+
+    const progress = await makeProgress();
+    const result = await evaluate({
+      items,
+      decode,
+      scorer,
+      outDir: f.out,
+      meta: {
+        model: f.model,
+        grammar: gPath,
+        data: f.data.join(', ') + (f.split !== undefined ? ` (split ${f.split})` : '') + (limit !== undefined ? ` (first ${limit} per file)` : ''),
+        decoding: beam !== undefined ? `beam ${beam}` : 'greedy',
+        prefix: JSON.stringify(prefix),
+      },
+      onStart: progress.start,
+      onRow: progress.row,
+    });
+    progress.stop();
+    const warnGold = new Set(result.rows.filter((r) => r.gold_error !== null).map((r) => r.gold_error));
+    for (const w of warnGold) process.stderr.write(`warning: ${w}\n`);
+    process.stderr.write(
+      `evaluate: ${result.written} rows written, ${result.resumed} kept from an earlier run` +
+        (result.repairedBytes > 0 ? `, a torn last line of ${result.repairedBytes} bytes dropped` : '') +
+        `; wrote ${f.out}/results.jsonl, metrics.json, taxonomy.json, report.html\n`,
+    );
+    for (const [split, m] of Object.entries(result.metrics)) {
+      const p = (x: number | null) => (x === null ? '–' : `${(x * 100).toFixed(1)}%`);
+      for (const mode of ['unconstrained', 'constrained'] as const) {
+        const mm = m[mode];
+        process.stderr.write(
+          `  ${split} ${mode.padEnd(13)} valid ${p(mm.valid.rate)} · well_typed ${p(mm.well_typed.rate)} · executable ${p(mm.executable.rate)} · ` +
+            `exact_match ${p(mm.exact_match.rate)} · execution_accuracy ${p(mm.execution_accuracy.rate)} · p50 ${mm.latency_ms_p50?.toFixed(1) ?? '–'} ms\n`,
+        );
+      }
+    }
+    await model.dispose();
+  } finally {
+    closeRunner?.();
+    db?.dispose();
+  }
+}
 
 interface Progress {
   start(done: number, total: number): void;

@@ -1,8 +1,8 @@
 /**
- * The command registry. Each command file exports a `register(program, setExit)` function;
- * add a line here to make it part of the CLI.
+ * The command registry. Each command file exports `register: RegisterCommand` (../command.ts);
+ * add a line here to make it part of the CLI. Shared options come from ../options.ts.
  */
-import type { Command } from 'commander';
+import type { RegisterCommand } from '../command.ts';
 import { register as bench } from './bench.ts';
 import { register as check } from './check.ts';
 import { register as evaluate } from './evaluate.ts';
@@ -14,9 +14,6 @@ import { register as print } from './print.ts';
 import { register as sample } from './sample.ts';
 import { register as schema } from './schema.ts';
 import { register as serve } from './serve.ts';
-
-/** Adds one subcommand to the program. `setExit` records the process exit code. */
-export type RegisterCommand = (program: Command, setExit: (code: number) => void) => void;
 
 export const COMMANDS: RegisterCommand[] = [
   bench,

@@ -3,83 +3,69 @@
  * token mask after a text prefix. Prints whether the prefix is viable and complete, the number of
  * allowed token ids and a sample of allowed token strings; with `--json` one object
  * `{"viable", "complete", "allowed_count", "allowed_ids"}` (all ids, EOS included when complete).
- * Uses the mask cache (`--cache DIR`, default os.tmpdir()/treewright-cache; `--no-cache`).
+ * Uses the mask cache (`--cache DIR`; `--no-cache`).
  * Exit 1 with a message on stderr for bad input (grammar, tokenizer, names, cache directory).
  */
 import { readFileSync } from 'node:fs';
 import type { Command } from 'commander';
-import { BindError, AutomatonError } from '../../automaton/index.ts';
-import { CacheError, defaultCacheDir, loadOrCompile, MaskError } from '../../masks/index.ts';
-import { VocabularyError } from '../../vocab/index.ts';
-import type { RegisterCommand } from './index.ts';
-import { namesOption, resolveGrammar, runReporting, UsageError } from './parse.ts';
-
-/** Errors of the mask stages become UsageError (message on stderr, exit 1). */
-export function reportingMaskErrors<T>(body: () => T): T {
-  try {
-    return body();
-  } catch (e) {
-    if (e instanceof VocabularyError || e instanceof BindError || e instanceof AutomatonError || e instanceof MaskError || e instanceof CacheError) {
-      throw new UsageError(e.message);
-    }
-    throw e;
-  }
-}
+import { loadOrCompile } from '../../masks/index.ts';
+import { runCommand, type RegisterCommand } from '../command.ts';
+import { maskCacheDir, opt, withInputs } from '../options.ts';
 
 export const register: RegisterCommand = (program: Command, setExit) => {
   program
     .command('mask')
     .description('print the tokens a model may emit after a text prefix (the token mask)')
-    .requiredOption('--grammar <g>', 'grammar description (.twg path, or a shipped grammar: sql, lf, arith, json)')
-    .requiredOption('--tokenizer <file>', 'Hugging Face tokenizer.json')
+    .addOption(opt.grammar())
+    .addOption(opt.tokenizer())
     .option('--prefix <text>', 'text emitted so far', '')
-    .option('--names <file>', 'JSON file binding open name sets: {"Set": ["a", "b"]}')
-    .option('--db <file>', 'SQLite database whose table and column names bind Table and Column')
-    .option('--json', 'print {"viable", "complete", "allowed_count", "allowed_ids"} on stdout')
-    .option('--cache <dir>', 'mask cache directory', defaultCacheDir())
-    .option('--no-cache', 'do not read or write the mask cache')
-    .action((opts: { grammar: string; tokenizer: string; prefix: string; names?: string; db?: string; json?: boolean; cache: string | false }) => {
-      runReporting(setExit, () => {
-        const grammar = resolveGrammar(opts.grammar);
-        const names = namesOption(grammar, opts) ?? {};
-        const { engine, warning } = reportingMaskErrors(() => loadOrCompile(grammar, readFileSync(grammar.file, 'utf8'), opts.tokenizer, opts.cache));
-        if (warning) process.stderr.write(`warning: ${warning}\n`);
-        const c = reportingMaskErrors(() => engine.bind(names));
-        const state = c.advanceBytes(c.start(), new TextEncoder().encode(opts.prefix));
-        const viable = c.viable(state);
-        const complete = viable && c.isComplete(state);
-        const mask = new Uint32Array((c.vocabSize + 31) >>> 5);
-        if (viable) c.writeAllowed(state, Infinity, mask);
-        const ids: number[] = [];
-        for (let w = 0; w < mask.length; w++) {
-          let bits = mask[w];
-          while (bits !== 0) {
-            const low = bits & -bits;
-            ids.push((w << 5) + (31 - Math.clz32(low)));
-            bits ^= low;
+    .addOption(opt.names())
+    .addOption(opt.db())
+    .addOption(opt.json('print {"viable", "complete", "allowed_count", "allowed_ids"} on stdout'))
+    .addOption(opt.cache())
+    .addOption(opt.noCache())
+    .action((opts: { grammar: string; tokenizer: string; prefix: string; names?: string; db?: string; json?: boolean; cache?: string | false }) =>
+      runCommand(setExit, () =>
+        withInputs(opts, async ({ grammar, names }) => {
+          const { engine, warning } = loadOrCompile(grammar, readFileSync(grammar.file, 'utf8'), opts.tokenizer, await maskCacheDir(opts.cache));
+          if (warning) process.stderr.write(`warning: ${warning}\n`);
+          const c = engine.bind(names ?? {});
+          const state = c.advanceBytes(c.start(), new TextEncoder().encode(opts.prefix));
+          const viable = c.viable(state);
+          const complete = viable && c.isComplete(state);
+          const mask = new Uint32Array((c.vocabSize + 31) >>> 5);
+          if (viable) c.writeAllowed(state, Infinity, mask);
+          const ids: number[] = [];
+          for (let w = 0; w < mask.length; w++) {
+            let bits = mask[w];
+            while (bits !== 0) {
+              const low = bits & -bits;
+              ids.push((w << 5) + (31 - Math.clz32(low)));
+              bits ^= low;
+            }
           }
-        }
-        if (opts.json) {
-          process.stdout.write(JSON.stringify({ viable, complete, allowed_count: ids.length, allowed_ids: ids }) + '\n');
-          return;
-        }
-        const v = engine.vocab;
-        const lines = [
-          `prefix:   ${JSON.stringify(opts.prefix)}`,
-          `viable:   ${viable ? 'yes' : 'no — no program of ' + grammar.name + ' starts with this text'}`,
-          `complete: ${complete ? 'yes (end of sequence allowed)' : 'no'}`,
-          `allowed:  ${ids.length} of ${v.vocabSize} token ids`,
-        ];
-        if (ids.length > 0) {
-          const step = Math.max(1, Math.floor(ids.length / 24));
-          const sample: string[] = [];
-          for (let i = 0; i < ids.length && sample.length < 24; i += step) {
-            const id = ids[i];
-            sample.push(`${id}:${v.eosIds.includes(id) ? '<end of sequence>' : JSON.stringify(v.text(id))}`);
+          if (opts.json) {
+            process.stdout.write(JSON.stringify({ viable, complete, allowed_count: ids.length, allowed_ids: ids }) + '\n');
+            return;
           }
-          lines.push(`sample:   ${sample.join('  ')}`);
-        }
-        process.stdout.write(lines.join('\n') + '\n');
-      });
-    });
+          const v = engine.vocab;
+          const lines = [
+            `prefix:   ${JSON.stringify(opts.prefix)}`,
+            `viable:   ${viable ? 'yes' : 'no — no program of ' + grammar.name + ' starts with this text'}`,
+            `complete: ${complete ? 'yes (end of sequence allowed)' : 'no'}`,
+            `allowed:  ${ids.length} of ${v.vocabSize} token ids`,
+          ];
+          if (ids.length > 0) {
+            const step = Math.max(1, Math.floor(ids.length / 24));
+            const sample: string[] = [];
+            for (let i = 0; i < ids.length && sample.length < 24; i += step) {
+              const id = ids[i];
+              sample.push(`${id}:${v.eosIds.includes(id) ? '<end of sequence>' : JSON.stringify(v.text(id))}`);
+            }
+            lines.push(`sample:   ${sample.join('  ')}`);
+          }
+          process.stdout.write(lines.join('\n') + '\n');
+        }),
+      ),
+    );
 };

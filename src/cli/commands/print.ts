@@ -6,8 +6,8 @@
 import type { Command } from 'commander';
 import type { Grammar, NameBindings } from '../../description/ir.ts';
 import { printTree, validateTree } from '../../tree/index.ts';
-import { namesOption, readInput, resolveGrammar, runReporting, UsageError } from './parse.ts';
-import type { RegisterCommand } from './index.ts';
+import { runCommand, UsageError, type RegisterCommand } from '../command.ts';
+import { opt, readInput, withInputs } from '../options.ts';
 
 function printOne(grammar: Grammar, value: unknown, where: string, names: NameBindings | undefined): string {
   const issue = validateTree(grammar, value, { names });
@@ -19,39 +19,39 @@ export const register: RegisterCommand = (program: Command, setExit) => {
   program
     .command('print')
     .description('print a JSON tree (or JSON Lines of trees) as canonical code')
-    .requiredOption('--grammar <g>', 'grammar description (.twg path, or a shipped grammar: sql, lf, arith, json)')
     .argument('[tree]', 'JSON tree file, or - for standard input', '-')
-    .option('--names <file>', 'JSON file binding open name sets; names outside them are errors')
-    .option('--db <file>', 'SQLite database whose table and column names bind Table and Column')
-    .action((file: string, opts: { grammar: string; names?: string; db?: string }) => {
-      runReporting(setExit, () => {
-        const grammar = resolveGrammar(opts.grammar);
-        const names = namesOption(grammar, opts);
-        const { text, name } = readInput(file);
-        let whole: unknown;
-        let wholeError: Error | null = null;
-        try {
-          whole = JSON.parse(text);
-        } catch (e) {
-          wholeError = e as Error;
-        }
-        const out: string[] = [];
-        if (wholeError === null) out.push(printOne(grammar, whole, name, names));
-        else {
-          const lines = text.split('\n');
-          if (lines.filter((l) => l.trim() !== '').length < 2) throw new UsageError(`${name}: not JSON: ${wholeError.message}`);
-          lines.forEach((line, i) => {
-            if (line.trim() === '') return;
-            let v: unknown;
-            try {
-              v = JSON.parse(line);
-            } catch (e) {
-              throw new UsageError(`${name}:${i + 1}: not JSON: ${(e as Error).message}`);
-            }
-            out.push(printOne(grammar, v, `${name}:${i + 1}`, names));
-          });
-        }
-        process.stdout.write(out.join('\n') + '\n');
-      });
-    });
+    .addOption(opt.grammar())
+    .addOption(opt.names())
+    .addOption(opt.db())
+    .action((file: string, opts: { grammar: string; names?: string; db?: string }) =>
+      runCommand(setExit, () =>
+        withInputs(opts, ({ grammar, names }) => {
+          const { text, name } = readInput(file);
+          let whole: unknown;
+          let wholeError: Error | null = null;
+          try {
+            whole = JSON.parse(text);
+          } catch (e) {
+            wholeError = e as Error;
+          }
+          const out: string[] = [];
+          if (wholeError === null) out.push(printOne(grammar, whole, name, names));
+          else {
+            const lines = text.split('\n');
+            if (lines.filter((l) => l.trim() !== '').length < 2) throw new UsageError(`${name}: not JSON: ${wholeError.message}`);
+            lines.forEach((line, i) => {
+              if (line.trim() === '') return;
+              let v: unknown;
+              try {
+                v = JSON.parse(line);
+              } catch (e) {
+                throw new UsageError(`${name}:${i + 1}: not JSON: ${(e as Error).message}`);
+              }
+              out.push(printOne(grammar, v, `${name}:${i + 1}`, names));
+            });
+          }
+          process.stdout.write(out.join('\n') + '\n');
+        }),
+      ),
+    );
 };
