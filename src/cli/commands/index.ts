@@ -6,6 +6,7 @@ import type { RegisterCommand } from '../command.ts';
 import { register as bench } from './bench.ts';
 import { register as check } from './check.ts';
 import { register as evaluate } from './evaluate.ts';
+import { register as fromSchema } from './from-schema.ts';
 import { register as demo } from './demo.ts';
 import { register as generate } from './generate.ts';
 import { register as mask } from './mask.ts';
@@ -20,6 +21,7 @@ export const COMMANDS: RegisterCommand[] = [
   check,
   evaluate,
   demo,
+  fromSchema,
   generate,
   mask,
   parse,
