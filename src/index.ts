@@ -9,6 +9,7 @@
  * The package ships TypeScript sources (run through tsx or a TypeScript-aware bundler). Each
  * stage's own index.ts documents what it produces, its costs and its limits.
  */
+export { fromSchema, SchemaError, formatSchemaDiagnostic, formatSchemaDiagnostics, type FromSchemaOptions, type FromSchemaResult, type SchemaDiagnostic } from './from-schema/index.ts';
 export * from './description/index.ts';
 export type * from './description/ir.ts';
 export type { TokenConstraint } from './util/constraint.ts';

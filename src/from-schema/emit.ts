@@ -88,7 +88,7 @@ export class Emitter {
   private readonly building = new Set<Sem>();
   private readonly refCounts = new Map<Sem, number>();
   private readonly noted = new Set<string>();
-  private shared: { json?: string; bool?: string; nul?: string } = {};
+  private shared: { json?: string; member?: string; bool?: string; nul?: string } = {};
 
   constructor(
     private readonly reader: Reader,
@@ -102,7 +102,8 @@ export class Emitter {
     const rootHint: Hint = { type: pascal(this.grammarName) || 'Document', ctor: snake(this.grammarName) || 'document' };
     const use = this.named.get(root) ?? this.namedUse(root, rootHint);
     if (use.kind === 'never') {
-      this.diagnostics.push(E.acceptsNothing('#', root.loc.span));
+      // a specific error (a cycle, a bound that cannot be written) already says why
+      if (!this.diagnostics.some((d) => d.severity === 'error')) this.diagnostics.push(E.acceptsNothing('#', root.loc.span));
       return null;
     }
     let start: string;
@@ -175,7 +176,7 @@ export class Emitter {
     let s = sem;
     while (s.k === 'ref') {
       if (seen.includes(s.target)) {
-        this.note(E.refCycle(sem.loc.path + '/$ref', sem.loc.span, [...seen, s.target].join(' → ')));
+        this.note(E.refCycle(sem.loc.path + '/$ref', sem.loc.keys.get('$ref') ?? sem.loc.span, [...seen, s.target].join(' → ')));
         return null;
       }
       seen.push(s.target);
@@ -254,6 +255,7 @@ export class Emitter {
       case 'typed': {
         const types = effectiveTypes(sem);
         if (types === null) return { kind: 'type', name: this.jsonSort() };
+        this.noteInferred(sem);
         if (types.length === 1) {
           const t = types[0]!;
           if (t === 'string' || t === 'integer' || t === 'number') {
@@ -296,7 +298,7 @@ export class Emitter {
       case 'false':
         return [];
       case 'true':
-        return allowed === null ? [this.wrapper(hint.ctor, this.jsonSort())] : this.alternatives({ k: 'typed', loc: sem.loc, types: allowed, inferred: null, obj: { props: [], required: [], closed: false }, arr: { prefix: [], items: null, min: 0, max: null }, str: { min: 0, max: null, format: null }, num: { minimum: null, exclusiveMinimum: null, maximum: null, exclusiveMaximum: null } }, hint, null);
+        return allowed === null ? [this.wrapper(hint.ctor, this.jsonSort())] : this.anyValueOf(allowed, hint);
       case 'ref': {
         const t = this.deref(sem);
         if (t === null) return [];
@@ -311,8 +313,9 @@ export class Emitter {
         const strings = values.filter((v): v is string => typeof v === 'string');
         const numbers = values.filter((v): v is number => typeof v === 'number');
         const out: Ctor[] = [];
-        if (strings.length > 0) out.push(this.wrapper(`${hint.ctor}_string`, this.stringEnumToken(strings, hint, sem.loc.path)));
-        if (numbers.length > 0) out.push(this.wrapper(`${hint.ctor}_number`, this.numberEnumToken(numbers, hint, sem.loc.path)));
+        const mixed = strings.length < values.length;
+        if (strings.length > 0) out.push(this.wrapper(mixed ? `${hint.ctor}_string` : hint.ctor, this.stringEnumToken(strings, mixed ? { type: `${hint.type}String`, ctor: hint.ctor } : hint, sem.loc.path)));
+        if (numbers.length > 0) out.push(this.wrapper(numbers.length < values.length ? `${hint.ctor}_number` : hint.ctor, this.numberEnumToken(numbers, numbers.length < values.length ? { type: `${hint.type}Number`, ctor: hint.ctor } : hint, sem.loc.path)));
         for (const v of values) {
           if (typeof v === 'string' || typeof v === 'number') continue;
           out.push({ name: this.uniqueCtor(`${hint.ctor}_${valueWord(v)}`), fields: [], lines: [valueItems(v, false)] });
@@ -331,8 +334,9 @@ export class Emitter {
       }
       case 'typed': {
         const own = effectiveTypes(sem);
-        if (own === null && allowed === null) return [this.wrapper(hint.ctor, this.jsonSort())];
-        let types: TypeName[] = own === null ? [...allowed!] : own;
+        if (own !== null) this.noteInferred(sem);
+        if (own === null) return allowed === null ? [this.wrapper(hint.ctor, this.jsonSort())] : this.anyValueOf(allowed, hint);
+        let types: TypeName[] = own;
         if (own !== null && allowed !== null) types = types.filter((t) => allowed.includes(t) || (t === 'integer' && allowed.includes('number')) || (t === 'number' && allowed.includes('integer')));
         if (allowed !== null && types.includes('number') && !allowed.includes('number')) types = types.map((t) => (t === 'number' ? 'integer' : t));
         const many = types.length > 1;
@@ -367,6 +371,46 @@ export class Emitter {
     }
   }
 
+  /** Any value of the given types (a schema without keywords under a `type` beside anyOf/oneOf). */
+  private anyValueOf(types: readonly TypeName[], hint: Hint): Ctor[] {
+    const json = this.jsonSort();
+    const member = this.shared.member!;
+    const out: Ctor[] = [];
+    const many = types.length > 1;
+    for (const t of types) {
+      const base = many ? `${hint.ctor}_${t}` : hint.ctor;
+      switch (t) {
+        case 'null':
+          out.push({ name: this.uniqueCtor(base), fields: [], lines: [['"null"']] });
+          break;
+        case 'boolean':
+          out.push({ name: this.uniqueCtor(`${hint.ctor}_true`), fields: [], lines: [['"true"']] });
+          out.push({ name: this.uniqueCtor(`${hint.ctor}_false`), fields: [], lines: [['"false"']] });
+          break;
+        case 'object':
+          out.push({ name: this.uniqueCtor(base), fields: [`members: ${member}*`], lines: [['"{"', '~members', 'sep', '~","', '~"}"']] });
+          break;
+        case 'array':
+          out.push({ name: this.uniqueCtor(base), fields: [`items: ${json}*`], lines: [['"["', '~items', 'sep', '~","', '~"]"']] });
+          break;
+        case 'string':
+          out.push(this.wrapper(base, this.token(stringRegex(0, Infinity), 'u', 'json-string', 'Text', 'any string (code points)')));
+          break;
+        case 'number':
+          out.push(this.wrapper(base, this.token(JSON_NUMBER, '', 'text', 'JsonNumber', 'any JSON number (RFC 8259 §6), kept as its lexeme')));
+          break;
+        case 'integer':
+          out.push(this.wrapper(base, this.scalarToken(ANY_INTEGER, 'integer', hint)!));
+          break;
+      }
+    }
+    return out;
+  }
+
+  private noteInferred(sem: Typed): void {
+    if (sem.types === null && sem.inferred !== null) this.note(E.typeInferred(sem.loc.path, sem.loc.span, sem.inferred, sem.inferredFrom));
+  }
+
   private wrapper(base: string, type: string): Ctor {
     return { name: this.uniqueCtor(base), fields: [`value: ${type}`], lines: [['value']] };
   }
@@ -377,7 +421,7 @@ export class Emitter {
       for (let j = 0; j < bs.length; j++) {
         if (i === j) continue;
         if (!provablyDisjoint(this.reader, bs[i]!, bs[j]!)) {
-          this.note(E.oneOfOverlap(`${sem.loc.path}/oneOf`, sem.loc.span, Math.min(i, j), Math.max(i, j)));
+          this.note(E.oneOfOverlap(`${sem.loc.path}/oneOf`, sem.loc.keys.get('oneOf') ?? sem.loc.span, Math.min(i, j), Math.max(i, j)));
           return;
         }
       }
@@ -390,7 +434,7 @@ export class Emitter {
     if (!obj.closed) this.note(E.closedByPolicy(sem.loc.path, sem.loc.span));
     for (const r of obj.required) {
       if (!obj.props.some((p) => p.key === r)) {
-        this.note(E.requiredNotDeclared(`${sem.loc.path}/required`, sem.loc.span, r));
+        this.note(E.requiredNotDeclared(`${sem.loc.path}/required`, sem.loc.keys.get('required') ?? sem.loc.span, r));
         return [];
       }
     }
@@ -471,7 +515,7 @@ export class Emitter {
     // positions that can never hold a value end the array there
     const unrolled = Math.max(min, Math.min(max, P + 1));
     if (unrolled > LIMITS.positions) {
-      this.note(E.tooLarge(sem.loc.path, sem.loc.span, `${unrolled} array positions to write out (the notation has no counted repetition)`, LIMITS.positions));
+      this.note(E.tooLarge(`${sem.loc.path}/minItems`, sem.loc.keys.get('minItems') ?? sem.loc.span, `${unrolled} array positions to write out (the notation has no counted repetition)`, LIMITS.positions));
       return [];
     }
     const types: string[] = [];
@@ -488,7 +532,7 @@ export class Emitter {
     const restType = (j: number) => types[Math.min(j, P)]!;
     const bounded = max !== Infinity;
     if (bounded && max - min > LIMITS.positions) {
-      this.note(E.tooLarge(sem.loc.path, sem.loc.span, `${max - min} optional array positions (the notation has no counted repetition)`, LIMITS.positions));
+      this.note(E.tooLarge(`${sem.loc.path}/maxItems`, sem.loc.keys.get('maxItems') ?? sem.loc.span, `${max - min} optional array positions (the notation has no counted repetition)`, LIMITS.positions));
       return [];
     }
     const fields: string[] = [];
@@ -552,7 +596,7 @@ export class Emitter {
         const [f0, f1] = FORMAT_LENGTHS[format];
         if (max < f0 || min > f1) return null;
         if (min > f0 || max < f1) {
-          this.note(E.formatWithLength(sem.loc.path, sem.loc.span, format));
+          this.note(E.formatWithLength(`${sem.loc.path}/format`, sem.loc.keys.get('format') ?? sem.loc.span, format));
           return null;
         }
         const words = { date: 'a date (RFC 3339 full-date)', 'date-time': 'a date and time (RFC 3339 date-time)', email: 'an email address (dot-atom local part @ host name)' }[format];
@@ -560,7 +604,8 @@ export class Emitter {
       }
       const limit = Math.max(min, max === Infinity ? 0 : max);
       if (limit > LIMITS.maxLength) {
-        this.note(E.tooLarge(sem.loc.path, sem.loc.span, `a string length of ${limit} to count exactly`, LIMITS.maxLength));
+        const kw = max !== Infinity && max >= min ? 'maxLength' : 'minLength';
+        this.note(E.tooLarge(`${sem.loc.path}/${kw}`, sem.loc.keys.get(kw) ?? sem.loc.span, `a string length of ${limit} to count exactly`, LIMITS.maxLength));
         return null;
       }
       const plain = min === 0 && max === Infinity;
@@ -610,6 +655,7 @@ export class Emitter {
     const json = this.uniqueType('Json');
     this.shared.json = json;
     const member = this.uniqueType('JsonMember');
+    this.shared.member = member;
     const text = this.token(stringRegex(0, Infinity), 'u', 'json-string', 'Text', 'any string (code points)');
     const number = this.token(JSON_NUMBER, '', 'text', 'JsonNumber', 'any JSON number (RFC 8259 §6), kept as its lexeme');
     const c = (base: string) => this.uniqueCtor(base);
@@ -683,6 +729,18 @@ export class Emitter {
 
 // ---- helpers
 
+const ANY_INTEGER: Typed = {
+  k: 'typed',
+  loc: { path: '#', span: null, title: null, description: null, keys: new Map() },
+  types: ['integer'],
+  inferred: null,
+  inferredFrom: [],
+  obj: { props: [], required: [], closed: true },
+  arr: { prefix: [], items: null, min: 0, max: null },
+  str: { min: 0, max: null, format: null },
+  num: { minimum: null, exclusiveMinimum: null, maximum: null, exclusiveMaximum: null },
+};
+
 /** The types the description writes for a typed node; null for "any JSON value". */
 function effectiveTypes(sem: Typed): TypeName[] | null {
   if (sem.types === null && sem.inferred === null) return null;
@@ -705,11 +763,14 @@ function propertyHint(sem: Sem, h: Hint): Hint {
 
 function branchHint(sem: Sem, parent: Hint, i: number): Hint {
   if (sem.k === 'typed' && sem.loc.title) return { type: pascal(sem.loc.title) || parent.type, ctor: snake(sem.loc.title) || parent.ctor };
+  const types = sem.k === 'typed' ? effectiveTypes(sem) : null;
+  if (types !== null && types.length === 1) return { type: `${parent.type}${pascal(types[0]!)}`, ctor: `${parent.ctor}_${types[0]}` };
   return { type: `${parent.type}${i + 1}`, ctor: `${parent.ctor}_${i + 1}` };
 }
 
 /** Comment lines for a sort: its schema path, title and description. */
 function commentOf(sem: Sem): string[] {
+  if (sem.loc.path === '#' && !sem.loc.title && !sem.loc.description) return [];
   const head = `# ${sem.loc.path}${sem.loc.title ? `: ${oneLine(sem.loc.title)}` : ''}`;
   const lines = [head];
   if (sem.loc.description) for (const l of sem.loc.description.split(/\r?\n/)) if (l.trim() !== '') lines.push(`# ${l.trim()}`);

@@ -74,6 +74,15 @@ export const unsupportedKeyword = (path: string, span: Span | null, suggestion: 
       : 'supported: type, enum, const, properties, required, additionalProperties (false), items, prefixItems, minItems, maxItems, anyOf, oneOf, $ref, $defs, minLength, maxLength, format (date, date-time, email), minimum, maximum, exclusiveMinimum, exclusiveMaximum, and the annotations title, description, $comment, examples, default, deprecated, readOnly, writeOnly',
   );
 
+export const patternPending = (path: string, span: Span | null) =>
+  error(
+    'pattern-pending',
+    path,
+    span,
+    `${path} is not supported yet`,
+    'pattern needs the single ECMAScript regex front-end the notation is getting; until then use enum, format or minLength/maxLength',
+  );
+
 export const badKeywordValue = (path: string, span: Span | null, expected: string) =>
   error('bad-keyword-value', path, span, `${path} must be ${expected}`);
 

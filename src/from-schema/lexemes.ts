@@ -183,7 +183,7 @@ export function numberRegex(lo: bigint, hi: bigint, scale: 0 | 6): string | null
   hi = hi > limit ? limit : hi;
   if (lo > hi) return null;
   const parts: string[] = [];
-  if (lo < 0n) {
+  if (lo <= 0n) {
     // magnitudes of the negative side, zero included when 0 is in range (-0 reads as 0)
     const neg = magnitude(hi >= 0n ? 0n : -hi, -lo, scale);
     if (neg !== null) parts.push(`-${group(neg)}`);
@@ -267,7 +267,7 @@ function fractionPart(lo: bigint, hi: bigint, maxLen: number): string | null {
   const body = fraction(L, H, maxLen);
   const bare = lo === 0n;
   if (body === null) return bare ? '' : null;
-  return bare ? `(?:\\.${body})?` : `\\.${group(body)}`;
+  return bare ? `(?:\\.${group(body)})?` : `\\.${group(body)}`;
 }
 
 /**

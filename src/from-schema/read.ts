@@ -23,6 +23,8 @@ export interface Loc {
   readonly span: Span | null;
   readonly title: string | null;
   readonly description: string | null;
+  /** where each keyword of this schema object stands (for messages about one keyword) */
+  readonly keys: ReadonlyMap<string, Span | null>;
 }
 
 export interface ObjSem {
@@ -66,6 +68,8 @@ export type Sem =
       readonly types: readonly TypeName[] | null;
       /** when `type` is absent: the types its other keywords imply (policy), or null for "any value" */
       readonly inferred: readonly TypeName[] | null;
+      /** the keywords `inferred` comes from */
+      readonly inferredFrom: readonly string[];
       readonly obj: ObjSem;
       readonly arr: ArrSem;
       readonly str: StrSem;
@@ -162,23 +166,27 @@ export class Reader {
   private read(node: JsonNode, at: (string | number)[]): Sem {
     const path = pointer(at);
     const span = node.span;
-    if (node.type === 'boolean') return { k: node.value ? 'true' : 'false', loc: { path, span, title: null, description: null } };
+    if (node.type === 'boolean') return { k: node.value ? 'true' : 'false', loc: { path, span, title: null, description: null, keys: new Map() } };
     if (node.type !== 'object') {
       this.diagnostics.push(E.notASchema(path, span));
-      return { k: 'false', loc: { path, span, title: null, description: null } };
+      return { k: 'false', loc: { path, span, title: null, description: null, keys: new Map() } };
     }
     const get = (k: string) => entry(node, k);
     const str = (k: string) => {
       const e = get(k);
       return e && e.value.type === 'string' ? e.value.value : null;
     };
-    const loc: Loc = { path, span, title: str('title'), description: str('description') };
+    const loc: Loc = { path, span, title: str('title'), description: str('description'), keys: new Map(node.entries.map((e) => [e.key, e.keySpan])) };
     const bad = (k: string, expected: string) => this.diagnostics.push(E.badKeywordValue(pointer([...at, k]), get(k)!.value.span, expected));
 
     // ---- which keywords
     const present = new Set<string>();
     for (const e of node.entries) {
       const kp = pointer([...at, e.key]);
+      if (e.key === 'pattern') {
+        this.diagnostics.push(E.patternPending(kp, e.keySpan));
+        continue;
+      }
       if (!SUPPORTED.has(e.key)) {
         this.diagnostics.push(E.unsupportedKeyword(kp, e.keySpan, suggestKeyword(e.key)));
         continue;
@@ -316,6 +324,7 @@ export class Reader {
     };
 
     let inferred: TypeName[] | null = null;
+    let inferredFrom: string[] = [];
     if (types === null) {
       const from = (ks: string[]) => ks.filter((k) => present.has(k));
       const families: [TypeName, string[]][] = [
@@ -325,13 +334,17 @@ export class Reader {
         ['number', from(NUMBER_KW)],
       ];
       const hit = families.filter(([, ks]) => ks.length > 0);
-      if (hit.length > 0) inferred = hit.map(([t]) => t);
+      if (hit.length > 0) {
+        inferred = hit.map(([t]) => t);
+        inferredFrom = hit.flatMap(([, ks]) => ks);
+      }
     }
     const typed: Sem = {
       k: 'typed',
       loc,
       types,
       inferred,
+      inferredFrom,
       obj: { props, required, closed },
       arr: { prefix, items, min: minItems, max: maxItems },
       str: { min: minLength, max: maxLength, format },
