@@ -201,11 +201,6 @@ export async function withInputs<T>(opts: { grammar: string; names?: string; db?
   }
 }
 
-/** The model's input for a question: `prefix + question`, unless the question already starts with the prefix. */
-export function modelInput(prefix: string, question: string): string {
-  return question.startsWith(prefix) ? question : prefix + question;
-}
-
 /** The mask cache folder of `--cache DIR` / `--no-cache` (false), else the mask stage's default. */
 export async function maskCacheDir(value: string | false | undefined): Promise<string | false> {
   if (value !== undefined) return value;

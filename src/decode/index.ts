@@ -19,6 +19,10 @@
  * Cost per step: one batched decoder call, plus per hypothesis one mask fill (the mask engine's
  * cost), one pass over the V logits to apply it and one to normalise; beam search also keeps the
  * 2·width best entries of each row (O(V · width) worst case, O(V) typical).
+ * Cancellation: `signal` (an AbortSignal) in the options is checked before the encoder and before
+ * every decoder step; once aborted the call rejects with the signal's reason (the server's time
+ * limit and closed connections use it; `AbortSignal.timeout(ms)` gives a plain time limit).
+ *
  * Limits: one question per call (no batching of questions); beam search streams only its final
  * result; log-probabilities are the model's (before masking), so a constrained sequence's score is
  * what the unconstrained model thinks of it; a constraint whose completion cannot fit the budget
@@ -92,8 +96,8 @@ export function boundConstraint(engine: MaskEngine, names: NameBindings): Return
   return bound;
 }
 
-/** Decodes a question and, given a grammar, parses and checks the output (see GenerateOptions). */
-export async function generate(model: Seq2SeqModel, question: string, options: GenerateOptions = {}): Promise<GenerateResult> {
+/** Decodes a question (text, or token ids from `model.input`) and, given a grammar, parses and checks the output (see GenerateOptions). */
+export async function generate(model: Seq2SeqModel, question: string | readonly number[], options: GenerateOptions = {}): Promise<GenerateResult> {
   const { grammar = null, names = NO_NAMES, unconstrained = false, ...rest } = options;
   let constraint = rest.constraint ?? null;
   if (grammar !== null && !unconstrained && constraint === null) constraint = boundConstraint(maskEngine(model, grammar), names);

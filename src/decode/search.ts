@@ -20,6 +20,7 @@ interface Resolved {
   temperature: number;
   topP: number;
   seed: number;
+  signal: AbortSignal | null;
 }
 
 function fail(what: string, value: unknown, expected: string): never {
@@ -29,8 +30,8 @@ function fail(what: string, value: unknown, expected: string): never {
 export function resolveOptions(model: Seq2SeqModel, o: DecodeOptions): Resolved {
   const strategy = o.strategy ?? 'greedy';
   if (strategy !== 'greedy' && strategy !== 'beam' && strategy !== 'sample') fail('strategy', strategy, '"greedy", "beam" or "sample"');
-  const limit = model.config.maxPositions - 1;
-  const maxTokens = o.maxTokens ?? Math.min(128, limit);
+  const limit = model.maxOutputTokens;
+  const maxTokens = o.maxTokens ?? model.outputLimit();
   if (!Number.isInteger(maxTokens) || maxTokens < 1 || maxTokens > limit) fail('maxTokens', maxTokens, `an integer in 1 … ${limit}`);
   const beamWidth = o.beamWidth ?? 4;
   if (!Number.isInteger(beamWidth) || beamWidth < 1 || beamWidth > 64) fail('beamWidth', beamWidth, 'an integer in 1 … 64');
@@ -46,7 +47,7 @@ export function resolveOptions(model: Seq2SeqModel, o: DecodeOptions): Resolved 
   if (constraint !== null && constraint.vocabSize !== model.vocabSize) {
     throw new ModelError(model.dir, `the token constraint covers ${constraint.vocabSize} token ids but the model has ${model.vocabSize}; expected a constraint built from this model's tokenizer.json`);
   }
-  return { strategy, constraint, maxTokens, beamWidth, lengthPenalty, earlyStop: o.earlyStop ?? true, temperature, topP, seed };
+  return { strategy, constraint, maxTokens, beamWidth, lengthPenalty, earlyStop: o.earlyStop ?? true, temperature, topP, seed, signal: o.signal ?? null };
 }
 
 const utf8 = new TextDecoder();
@@ -77,6 +78,7 @@ function stopIds(model: Seq2SeqModel, c: TokenConstraint<unknown> | null): Uint8
 /** Greedy or sampling: one hypothesis; yields every token as chosen, returns the result. */
 async function* single(model: Seq2SeqModel, question: string | readonly number[], o: Resolved): AsyncGenerator<StreamToken, DecodeResult> {
   const t0 = performance.now();
+  o.signal?.throwIfAborted();
   const run = await model.start(question);
   const V = model.vocabSize;
   const c = o.constraint;
@@ -95,6 +97,7 @@ async function* single(model: Seq2SeqModel, question: string | readonly number[]
   let finished: 'eos' | 'length' = 'length';
   let prev = model.config.decoderStartId;
   for (let i = 0; i < o.maxTokens; i++) {
+    o.signal?.throwIfAborted();
     const logits = await run.step([prev], null);
     const lz = logSumExp(logits, 0, V);
     if (c !== null) {
@@ -176,6 +179,7 @@ function unlink(link: Link | null): { ids: number[]; lps: number[] } {
  */
 async function beam(model: Seq2SeqModel, question: string | readonly number[], o: Resolved): Promise<DecodeResult> {
   const t0 = performance.now();
+  o.signal?.throwIfAborted();
   const run = await model.start(question);
   const V = model.vocabSize;
   const W = o.beamWidth;
@@ -197,6 +201,7 @@ async function beam(model: Seq2SeqModel, question: string | readonly number[], o
   const done: Done[] = [];
   let exhausted = true;
   for (let step = 0; step < o.maxTokens; step++) {
+    o.signal?.throwIfAborted();
     const logits = await run.step(feed, parents);
     let nc = 0;
     for (let r = 0; r < beams.length; r++) {

@@ -25,6 +25,12 @@ export interface DecodeOptions {
   topP?: number;
   /** sample: PRNG seed (default 0); the same seed gives the same output */
   seed?: number;
+  /**
+   * Stops decoding: checked before the encoder runs and before every decoder step; once aborted,
+   * decoding rejects with `signal.reason` (e.g. a time limit via `AbortSignal.timeout(ms)`, or a
+   * client that went away).
+   */
+  signal?: AbortSignal;
 }
 
 /** One token as it is chosen (streaming). */

@@ -14,6 +14,35 @@ export class ModelError extends Error {
   }
 }
 
+/**
+ * A question whose model input (prefix included) has more tokens than the encoder has positions:
+ * onnxruntime would fail on it, so the model stage refuses it first.
+ */
+export class InputTooLong extends RangeError {
+  override readonly name = 'InputTooLong';
+  constructor(
+    /** tokens of the input, as the tokenizer encodes it (end of sequence included) */
+    readonly tokens: number,
+    /** the encoder's positions */
+    readonly limit: number,
+    /** the prefix put before the question ('' when none) */
+    readonly prefix: string,
+  ) {
+    super(`the input has ${tokens} tokens (with the prefix ${JSON.stringify(prefix)}); expected at most ${limit}, the encoder's positions`);
+  }
+}
+
+/** A number of tokens to generate that the model cannot hold (its positions − 1, for the decoder start token). */
+export class OutputTooLong extends RangeError {
+  override readonly name = 'OutputTooLong';
+  constructor(
+    readonly requested: number,
+    readonly limit: number,
+  ) {
+    super(`${requested} tokens to generate; expected at most ${limit}, the decoder's positions − 1`);
+  }
+}
+
 const LAYOUT_HINT =
   'a seq2seq model folder holds config.json, tokenizer.json, tokenizer_config.json, ' +
   'onnx/encoder_model.onnx and onnx/decoder_model_merged.onnx (or onnx/decoder_model.onnx)';

@@ -21,8 +21,13 @@
  * Cost per cached step: one decoder call on [rows × 1] tokens; reordering beams copies the
  * self-attention cache (rows × layers × 2 × heads × length × d_kv floats). Loading checks every
  * file, the graph's input/output names and that the tokenizer's size equals the logits dimension.
+ * Input and length checks live here: `model.input(question, target, prefix?)` puts the target's prefix
+ * before the question (not twice) and refuses an input longer than the encoder's positions
+ * (InputTooLong); `model.outputLimit(n?)` gives the default number of tokens to generate and
+ * refuses more than the decoder's positions allow (OutputTooLong). `start` checks the input too.
+ *
  * Limits: batch of one question; the question must fit the model's positions; float32 graphs only.
  */
-export { loadModel, Seq2SeqModel, type ModelConfig, type LoadModelOptions } from './load.ts';
-export { DecoderRun } from './run.ts';
-export { ModelError } from './errors.ts';
+export { loadModel, Seq2SeqModel, type ModelConfig, type LoadModelOptions, type ModelInput } from './load.ts';
+export { DecoderRun, type RunnableModel } from './run.ts';
+export { ModelError, InputTooLong, OutputTooLong } from './errors.ts';

@@ -7,7 +7,7 @@ import { join, resolve } from 'node:path';
 import * as ort from 'onnxruntime-node';
 import { AutoTokenizer, type PreTrainedTokenizer } from '@huggingface/transformers';
 import { loadVocabulary, type Vocabulary } from '../vocab/index.ts';
-import { ModelError, errors } from './errors.ts';
+import { InputTooLong, ModelError, OutputTooLong, errors } from './errors.ts';
 import { DecoderRun } from './run.ts';
 
 export interface ModelConfig {
@@ -31,6 +31,16 @@ export interface LoadModelOptions {
   threads?: number;
   /** Ignore decoder_model_merged.onnx and decode without cache from decoder_model.onnx. */
   noCache?: boolean;
+}
+
+/** A question made ready for the encoder (see Seq2SeqModel.input). */
+export interface ModelInput {
+  /** the text the encoder reads: prefix + question */
+  readonly text: string;
+  /** its token ids (what `start` takes) */
+  readonly ids: number[];
+  /** the prefix that was put before the question ('' when the question already began with it) */
+  readonly prefix: string;
 }
 
 function readJson(file: string): Record<string, unknown> {
@@ -143,9 +153,41 @@ export class Seq2SeqModel {
     return this.tokenizer.encode(question);
   }
 
-  /** Runs the encoder on a question and returns a decoding run (one sequence, batch grows for beams). */
+  /**
+   * The encoder's input for a question aimed at a target grammar: `prefix + question`, where the
+   * prefix is the one given, else `prefixFor(target)`; not repeated when the question already
+   * starts with it. Throws InputTooLong when the tokens exceed the encoder's positions.
+   */
+  input(question: string, target: string, prefix: string = this.prefixFor(target)): ModelInput {
+    const put = question.startsWith(prefix) ? '' : prefix;
+    const text = put + question;
+    const ids = this.encodeQuestion(text);
+    if (ids.length > this.config.maxPositions) throw new InputTooLong(ids.length, this.config.maxPositions, prefix);
+    return { text, ids, prefix: put };
+  }
+
+  /** The most tokens one output may have, end of sequence included: the decoder's positions − 1 (its start token takes one). */
+  get maxOutputTokens(): number {
+    return this.config.maxPositions - 1;
+  }
+
+  /**
+   * Checks a requested number of tokens to generate against maxOutputTokens (OutputTooLong);
+   * without one, the default: 128, or fewer when the model holds fewer.
+   */
+  outputLimit(requested?: number): number {
+    if (requested === undefined) return Math.min(128, this.maxOutputTokens);
+    if (requested > this.maxOutputTokens) throw new OutputTooLong(requested, this.maxOutputTokens);
+    return requested;
+  }
+
+  /**
+   * Runs the encoder on a question (text as given, or token ids) and returns a decoding run (one
+   * sequence, batch grows for beams). Throws InputTooLong past the encoder's positions.
+   */
   async start(question: string | readonly number[]): Promise<DecoderRun> {
     const ids = typeof question === 'string' ? this.encodeQuestion(question) : question;
+    if (ids.length > this.config.maxPositions) throw new InputTooLong(ids.length, this.config.maxPositions, '');
     return DecoderRun.create(this, ids);
   }
 

@@ -9,7 +9,16 @@
  * whole prefix — O(T²) per sequence instead of O(T).
  */
 import * as ort from 'onnxruntime-node';
-import type { Seq2SeqModel } from './load.ts';
+
+/** What a run needs of a loaded model (Seq2SeqModel in load.ts is one). */
+export interface RunnableModel {
+  readonly encoder: ort.InferenceSession;
+  readonly decoder: ort.InferenceSession;
+  /** true when `decoder` is decoder_model_merged.onnx (KV cache) */
+  readonly cached: boolean;
+  /** the logits dimension */
+  readonly vocabSize: number;
+}
 
 function int64(values: ArrayLike<number>, dims: readonly number[]): ort.Tensor {
   const a = new BigInt64Array(values.length);
@@ -56,12 +65,12 @@ export class DecoderRun {
   private prefixes: number[][] = [];
 
   private constructor(
-    readonly model: Seq2SeqModel,
+    readonly model: RunnableModel,
     private readonly hidden: ort.Tensor,
     private readonly mask: ort.Tensor,
   ) {}
 
-  static async create(model: Seq2SeqModel, ids: readonly number[]): Promise<DecoderRun> {
+  static async create(model: RunnableModel, ids: readonly number[]): Promise<DecoderRun> {
     const t0 = performance.now();
     const inputIds = int64(ids, [1, ids.length]);
     const mask = int64(new Array<number>(ids.length).fill(1), [1, ids.length]);

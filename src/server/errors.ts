@@ -4,8 +4,7 @@
  * `location` is `file:line:col` (a description, a program text) or a JSON path into the request
  * body (`$.tree.left`); `line`/`column` repeat the position for clients that mark it.
  */
-import { parseTree, printParseErrorCode, type ParseError as JsonError } from 'jsonc-parser';
-import { lineColumn } from '../util/source.ts';
+import { locateJsonError, pointerToPath, show } from '../util/json.ts';
 
 export class ApiError extends Error {
   constructor(
@@ -50,26 +49,67 @@ export function bodyTooLarge(limit: number): ApiError {
 
 /**
  * Parses a JSON request body. On malformed text the error names the line and column of the first
- * problem (found by jsonc-parser in strict mode: no comments, no trailing commas).
+ * problem and what was expected there (src/util/json.ts: jsonc-parser in strict mode).
  */
 export function parseJsonBody(text: string): unknown {
   try {
     return JSON.parse(text);
   } catch {
-    const errors: JsonError[] = [];
-    parseTree(text, errors, { disallowComments: true, allowTrailingComma: false, allowEmptyContent: false });
-    // jsonc-parser recovers from some slips JSON.parse refuses; fall back to the start of the text
-    const first = errors.length > 0 ? errors[0] : null;
-    const offset = first?.offset ?? 0;
-    const { line, column } = lineColumn(text, offset);
-    const what = first === null ? 'not valid JSON' : describeJsonError(printParseErrorCode(first.error));
-    throw new ApiError(400, 'malformed_json', `request body:${line}:${column}: ${what} (at offset ${offset})`, `request body:${line}:${column}`, { line, column });
+    // jsonc-parser accepts a few texts JSON.parse refuses; then the start of the text is named
+    const at = locateJsonError(text) ?? { offset: 0, line: 1, column: 1, message: 'not valid JSON' };
+    const where = `request body:${at.line}:${at.column}`;
+    throw new ApiError(400, 'malformed_json', `${where}: ${at.message} (at offset ${at.offset})`, where, { line: at.line, column: at.column });
   }
 }
 
-/** jsonc-parser's codes (`PropertyNameExpected`) in words. */
-function describeJsonError(code: string): string {
-  const words = code.replace(/([a-z])([A-Z])/g, '$1 $2').toLowerCase();
-  const m = /^(.*) expected$/.exec(words);
-  return m ? `expected ${m[1]}` : words;
+/** A request body was empty. */
+export function emptyBody(): ApiError {
+  return new ApiError(400, 'malformed_json', 'request body:1:1: empty; expected a JSON object', 'request body:1:1', { line: 1, column: 1 });
+}
+
+/** A content type other than JSON. */
+export function unsupportedMediaType(type: string): ApiError {
+  return new ApiError(415, 'unsupported_media_type', `request body: content type ${show(type)}; expected application/json`, '$');
+}
+
+/** One issue of fastify's schema validation (ajv). */
+export interface AjvIssue {
+  instancePath: string;
+  keyword: string;
+  message?: string;
+  params: Record<string, unknown>;
+}
+
+/** The value at a JSON Pointer of `value` (undefined when there is none). */
+function at(value: unknown, pointer: string): unknown {
+  let v = value;
+  for (const raw of pointer.split('/').slice(1)) {
+    if (v === null || typeof v !== 'object') return undefined;
+    v = (v as Record<string, unknown>)[raw.replace(/~1/g, '/').replace(/~0/g, '~')];
+  }
+  return v;
+}
+
+/** A request body the route's JSON Schema refused: 400 at the field's JSON path, saying what was expected. */
+export function validationError(issue: AjvIssue, body: unknown): ApiError {
+  if (issue.keyword === 'required') {
+    const path = pointerToPath(`${issue.instancePath}/${String(issue.params.missingProperty)}`);
+    return new ApiError(400, 'invalid_request', `${path}: missing; expected a value for the required field`, path);
+  }
+  if (issue.keyword === 'additionalProperties') {
+    const path = pointerToPath(`${issue.instancePath}/${String(issue.params.additionalProperty)}`);
+    return new ApiError(400, 'invalid_request', `${path}: unknown field; expected only the fields the API describes (GET /api/openapi.json)`, path);
+  }
+  const path = pointerToPath(issue.instancePath);
+  const p = issue.params;
+  const article = (t: string) => (/^[aeiou]/.test(t) ? `an ${t}` : `a ${t}`);
+  const expected =
+    issue.keyword === 'type' ? String(p.type).split(',').map(article).join(' or ')
+    : issue.keyword === 'maxLength' ? `a string of at most ${p.limit} characters`
+    : issue.keyword === 'minLength' ? `a string of at least ${p.limit} character${p.limit === 1 ? '' : 's'}`
+    : issue.keyword === 'maxItems' ? `at most ${p.limit} items`
+    : issue.keyword === 'maximum' || issue.keyword === 'minimum' || issue.keyword === 'exclusiveMaximum' || issue.keyword === 'exclusiveMinimum' ? `a number ${p.comparison} ${p.limit}`
+    : issue.keyword === 'enum' ? `one of ${(p.allowedValues as unknown[]).map((v) => JSON.stringify(v)).join(', ')}`
+    : (issue.message ?? 'a valid value').replace(/^must (be )?/, '');
+  return new ApiError(400, 'invalid_request', `${path}: found ${show(at(body, issue.instancePath))}; expected ${expected}`, path);
 }

@@ -18,8 +18,12 @@
  *   //   -d '{"question":"which orchards grow elstar?","grammar":"lf","steps":true,"execute":true}'
  *   await app.close();
  *
+ * Files: app.ts assembles the server; routes/ holds one file per route (check, decode, parse, print,
+ * mask, execute, grammars, models, page); context.ts what they share (registry, gate, lookups);
+ * errors.ts the error catalogue; schemas.ts the JSON Schemas behind validation and OpenAPI.
+ *
  * Limits: request body (default 1 MiB → 413), a wall-clock limit per decode request (default
- * 30 s, checked before every decoder step → 504), at most `maxActive` model/executor requests at
+ * 30 s, an AbortSignal that decoding checks before every decoder step → 504), at most `maxActive` model/executor requests at
  * once with `maxQueued` waiting (defaults 2 and 64) — beyond that 503 at once, never an unbounded
  * queue. Every error is JSON `{error: {code, message, location?}}`, the location a `file:line:col`
  * or a JSON path into the request body. Checked descriptions are compiled in a worker thread
@@ -39,7 +43,7 @@ import type { FastifyInstance } from 'fastify';
 import { buildServer, type ServerLimits } from './app.ts';
 import { Registry, type RegistryOptions } from './registry.ts';
 
-export { buildServer, type ServerLimits } from './app.ts';
+export { buildServer, type ServerLimits, type ServerStats } from './app.ts';
 export { Registry, REPO, SHIPPED, type RegistryOptions, type GrammarEntry, type ModelEntry, type CheckResult } from './registry.ts';
 export { ApiError } from './errors.ts';
 export { Gate } from './gate.ts';

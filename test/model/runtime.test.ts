@@ -161,3 +161,30 @@ describe('the KV cache', () => {
     expect(a.modelMs).toBeGreaterThan(0);
   });
 });
+
+describe('the model input and output lengths', () => {
+  it('input() puts the target prefix before the question once, and refuses more tokens than the encoder has positions', () => {
+    const a = model.input('which orchards?', 'lf');
+    expect(a.text).toBe('to lf: which orchards?');
+    expect(a.prefix).toBe('to lf: ');
+    expect(a.ids).toEqual(model.encodeQuestion('to lf: which orchards?'));
+    expect(model.input('to lf: which orchards?', 'lf')).toEqual({ ...a, prefix: '' });
+    expect(model.input('which orchards?', 'lf', '').text).toBe('which orchards?');
+    const long = 'pears '.repeat(model.config.maxPositions);
+    const tokens = model.encodeQuestion('to lf: ' + long).length;
+    expect(tokens).toBeGreaterThan(model.config.maxPositions);
+    expect(() => model.input(long, 'lf')).toThrow(`the input has ${tokens} tokens (with the prefix "to lf: "); expected at most 128, the encoder's positions`);
+  });
+
+  it('start() refuses an input longer than the encoder positions before running anything', async () => {
+    const ids = new Array<number>(model.config.maxPositions + 1).fill(5);
+    await expect(model.start(ids)).rejects.toThrow('the input has 129 tokens (with the prefix ""); expected at most 128');
+  });
+
+  it('outputLimit(): 128 or the positions − 1 by default; more than positions − 1 refused', () => {
+    expect(model.maxOutputTokens).toBe(127);
+    expect(model.outputLimit()).toBe(127);
+    expect(model.outputLimit(40)).toBe(40);
+    expect(() => model.outputLimit(128)).toThrow("128 tokens to generate; expected at most 127, the decoder's positions − 1");
+  });
+});

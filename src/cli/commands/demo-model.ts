@@ -81,7 +81,7 @@ export const modelSection: DemoSection = {
     try {
       // Warm-up, untimed: the first constrained run of a grammar computes its kept masks lazily.
       for (const target of ['sql', 'lf'] as const) {
-        await generate(model, model.prefixFor(target) + 'How many sheds are there?', { grammar: grammars[target], names: names[target], maxTokens: 40 });
+        await generate(model, model.input('How many sheds are there?', target).ids, { grammar: grammars[target], names: names[target], maxTokens: 40 });
       }
       let n = 0;
       for (const [split, id, target] of QUESTIONS) {
@@ -92,7 +92,7 @@ export const modelSection: DemoSection = {
         out('');
         out(`Q${n} [${split}] ${row.question}`);
         out(`   ${`gold (${target})`.padEnd(13)}  ${target === 'sql' ? row.sql : row.lf}`);
-        const input = model.prefixFor(target) + row.question;
+        const input = model.input(row.question, target).ids;
         for (const unconstrained of [true, false]) {
           const r: GenerateResult = await generate(model, input, {
             grammar: grammars[target],

@@ -17,7 +17,7 @@ import { Option, type Command } from 'commander';
 import type { ExecuteFn } from '../../exec/types.ts';
 import type { DecodeFn, EvalRow, Mode } from '../../eval/run.ts';
 import { runCommand, type RegisterCommand } from '../command.ts';
-import { bindNames, dbBindsNames, integer, loadGrammarFile, modelInput, openDatabase, opt } from '../options.ts';
+import { bindNames, dbBindsNames, integer, loadGrammarFile, openDatabase, opt } from '../options.ts';
 
 interface Flags {
   model: string;
@@ -97,7 +97,7 @@ async function evaluateCommand(f: Flags): Promise<void> {
     const model = await loadModel(f.model);
     const prefix = f.prefix ?? model.prefixFor(grammar.name);
     const decode: DecodeFn = async (item, mode: Mode) => {
-      const r = await generate(model, modelInput(prefix, item.question), {
+      const r = await generate(model, model.input(item.question, grammar.name, prefix).ids, {
         grammar,
         names,
         unconstrained: mode === 'unconstrained',
@@ -110,7 +110,7 @@ async function evaluateCommand(f: Flags): Promise<void> {
     // warm-up outside the timed loop: compile the grammar's masks for this vocabulary (or load
     // them from the cache) and run both modes once, so the first item's latency is not the set-up
     maskEngine(model, grammar);
-    for (const unconstrained of [true, false]) await generate(model, modelInput(prefix, items[0].question), { grammar, names, unconstrained, maxTokens: 4 });
+    for (const unconstrained of [true, false]) await generate(model, model.input(items[0].question, grammar.name, prefix).ids, { grammar, names, unconstrained, maxTokens: 4 });
     const scorer = createScorer({ grammar, names, execute, context: { grammar, db: db?.path } });
 
     const progress = await makeProgress();

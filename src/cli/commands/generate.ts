@@ -13,7 +13,7 @@
 import { Option, type Command } from 'commander';
 import type { GenerateOptions } from '../../decode/index.ts';
 import { runCommand, type RegisterCommand } from '../command.ts';
-import { decimal, modelInput, opt, withInputs } from '../options.ts';
+import { decimal, opt, withInputs } from '../options.ts';
 
 interface Flags {
   model: string;
@@ -68,8 +68,8 @@ export const register: RegisterCommand = (program: Command, setExit) => {
           };
           const model = await loadModel(f.model);
           try {
-            const input = modelInput(f.prefix ?? model.prefixFor(grammar.name), question);
-            const r = await generate(model, input, opts);
+            const { text: input, ids } = model.input(question, grammar.name, f.prefix);
+            const r = await generate(model, ids, opts);
             if (f.json) {
               process.stdout.write(
                 JSON.stringify({

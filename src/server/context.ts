@@ -1,0 +1,128 @@
+/**
+ * What every route shares: the registry, the concurrency gate, the counters and limits, and the
+ * lookups and error mappings that turn a request's fields into a grammar, a model and names — or
+ * into the documented ApiError. Built once per server by app.ts; each file under routes/ gets it.
+ */
+import type { NameBindings } from '../description/ir.ts';
+import { MaskError } from '../masks/index.ts';
+import { ModelError } from '../model/index.ts';
+import { checkNames, NamesError, ParseError, TreeError } from '../tree/index.ts';
+import { ApiError, notFound, overloaded } from './errors.ts';
+import type { Gate } from './gate.ts';
+import type { GrammarEntry, ModelEntry, Registry } from './registry.ts';
+
+export interface ServerLimits {
+  /** largest request body in bytes (default 1 MiB) */
+  readonly bodyLimit?: number;
+  /** wall-clock limit of one decode request in ms (default 30 000) */
+  readonly timeLimitMs?: number;
+  /** model/executor requests running at once (default 2) */
+  readonly maxActive?: number;
+  /** requests waiting for a slot before the server answers 503 (default 64) */
+  readonly maxQueued?: number;
+}
+
+/** Counters a server keeps (`app.treewrightStats`): for operators and tests. */
+export interface ServerStats {
+  /** decode requests answered (any status) */
+  decoded: number;
+  /** decodes stopped because the client closed the connection */
+  stoppedGone: number;
+  /** decodes stopped at the time limit */
+  stoppedTime: number;
+  /** requests refused with 503 */
+  refused: number;
+  /** requests holding a slot right now */
+  readonly active: number;
+}
+
+export class ServerContext {
+  readonly stats: ServerStats;
+
+  constructor(
+    readonly registry: Registry,
+    readonly gate: Gate,
+    readonly bodyLimit: number,
+    readonly timeLimitMs: number,
+  ) {
+    this.stats = {
+      decoded: 0,
+      stoppedGone: 0,
+      stoppedTime: 0,
+      refused: 0,
+      get active() {
+        return gate.running;
+      },
+    };
+  }
+
+  /** The grammar a request names (`$.grammar`), or 404 listing the known ids. */
+  grammarOf(id: string): GrammarEntry {
+    const g = this.registry.grammar(id);
+    if (!g) throw notFound('$.grammar', 'grammar', id, this.registry.grammarIds());
+    return g;
+  }
+
+  /** The model a request names (`$.model`), the first one when absent; or 404. */
+  modelOf(id: string | undefined): ModelEntry {
+    const ids = [...this.registry.models.keys()];
+    const m = id === undefined ? this.registry.models.get(ids[0]!) : this.registry.models.get(id);
+    if (!m) throw notFound('$.model', 'model', id ?? '(default)', ids);
+    return m;
+  }
+
+  /** The grammar's bindings, with a request's `names` merged over them (checked: 400 at `$.names…`). */
+  namesOf(g: GrammarEntry, override: NameBindings | undefined): NameBindings {
+    if (override !== undefined) {
+      const merged = { ...(g.names ?? {}), ...override };
+      try {
+        checkNames(g.grammar, override, 'request');
+      } catch (e) {
+        const m = /^request: (\$[^:]*): (.*)$/s.exec((e as Error).message);
+        const path = m ? `$.names${m[1]!.slice(1)}` : '$.names';
+        throw new ApiError(400, 'invalid_names', `${path}: ${m ? m[2] : (e as Error).message}`, path);
+      }
+      const missing = g.grammar.nameSets.filter((n) => !(n.name in merged)).map((n) => n.name);
+      if (missing.length > 0) throw new ApiError(400, 'unbound_names', `$.names: no bindings for ${missing.join(', ')}; expected {"${missing[0]}": [...]}`, '$.names');
+      return merged;
+    }
+    if (g.names === null) throw new ApiError(400, 'unbound_names', `$.names: ${g.namesProblem}`, '$.names');
+    return g.names;
+  }
+
+  /** Runs `work` holding one of the gate's slots; 503 at once when the gate and its queue are full. */
+  async withSlot<T>(work: () => Promise<T>): Promise<T> {
+    const release = await this.gate.enter();
+    if (release === null) {
+      this.stats.refused++;
+      throw overloaded(this.gate.running, this.gate.queued);
+    }
+    try {
+      return await work();
+    } finally {
+      release();
+    }
+  }
+}
+
+/** A program text that does not parse: 422 at `file:line:col`. */
+export function parseError(e: unknown): never {
+  if (e instanceof ParseError) throw new ApiError(422, 'parse_error', e.message, `${e.file}:${e.line}:${e.column}`, { line: e.line, column: e.column });
+  throw e;
+}
+
+/** A tree that does not fit the grammar: 422 at its JSON path under `base` (`$.tree`). */
+export function treeError(e: unknown, base: string): never {
+  if (e instanceof TreeError) {
+    const path = base + e.issue.path.slice(1);
+    throw new ApiError(422, 'invalid_tree', `${path}: ${e.issue.message}`, path);
+  }
+  throw e;
+}
+
+/** A grammar that cannot work with a model's tokenizer (or names that do not fit): 422. */
+export function modelError(e: unknown): never {
+  if (e instanceof ModelError || e instanceof MaskError || e instanceof NamesError) throw new ApiError(422, 'grammar_model_mismatch', (e as Error).message, (e as ModelError).file);
+  if (e instanceof RangeError) throw new ApiError(400, 'invalid_request', e.message);
+  throw e;
+}

@@ -1,0 +1,134 @@
+/**
+ * POST /api/decode — question → program with a model, constrained to a grammar or not (greedy,
+ * beam, sampling); optionally each step (chosen token, allowed-token count, text so far) with a
+ * tree view, and the executed answer.
+ *
+ * Checks before a slot is taken: strategy flags, `max_tokens` and the question's length against
+ * the model's positions (the model stage's outputLimit and input: 400 at `$.max_tokens` /
+ * `$.question`). Cancellation: one AbortController per request, aborted by the time limit
+ * (504 time_limit) or by the client closing its connection (499, nobody to answer); decoding
+ * checks its signal before every decoder step.
+ */
+import type { FastifyInstance, FastifyRequest } from 'fastify';
+import { boundConstraint, generate, maskEngine, textOf, type GenerateResult } from '../../decode/index.ts';
+import type { NameBindings } from '../../description/ir.ts';
+import { InputTooLong, OutputTooLong } from '../../model/index.ts';
+import { printTree } from '../../tree/index.ts';
+import { modelError, type ServerContext } from '../context.ts';
+import { ApiError, badField, timeLimit } from '../errors.ts';
+import { decodeSchema } from '../schemas.ts';
+import { replaySteps, treeView } from '../steps.ts';
+
+interface Body {
+  question: string;
+  grammar: string;
+  model?: string;
+  constrained: boolean;
+  beam?: number;
+  sample?: boolean;
+  temperature?: number;
+  top_p?: number;
+  seed?: number;
+  max_tokens?: number;
+  prefix?: string;
+  names?: NameBindings;
+  steps?: boolean;
+  execute?: boolean;
+}
+
+/** Why a decode was stopped (the AbortSignal's reason). */
+class Stopped extends Error {
+  constructor(readonly why: 'time' | 'gone') {
+    super(why === 'time' ? 'time limit' : 'client gone');
+  }
+}
+
+/**
+ * An AbortSignal for one request: aborted with Stopped('time') after `ms`, or Stopped('gone')
+ * when the client's connection closes. `done()` removes the timer and the listener.
+ */
+function requestSignal(req: FastifyRequest, ms: number): { signal: AbortSignal; done: () => void } {
+  const controller = new AbortController();
+  const timer = setTimeout(() => controller.abort(new Stopped('time')), ms);
+  const socket = req.raw.socket;
+  const gone = () => controller.abort(new Stopped('gone'));
+  if (socket?.destroyed) gone();
+  else socket?.once('close', gone);
+  return {
+    signal: controller.signal,
+    done: () => {
+      clearTimeout(timer);
+      socket?.off('close', gone);
+    },
+  };
+}
+
+export function register(app: FastifyInstance, ctx: ServerContext): void {
+  app.post('/api/decode', { schema: decodeSchema }, async (req) => {
+    const b = req.body as Body;
+    const g = ctx.grammarOf(b.grammar);
+    const m = ctx.modelOf(b.model);
+    const names = ctx.namesOf(g, b.names);
+    if (b.beam !== undefined && b.sample === true) throw badField('$.sample', 'true together with $.beam', 'one decoding strategy: beam or sample');
+    if (!b.sample && (b.temperature !== undefined || b.top_p !== undefined || b.seed !== undefined)) {
+      const f = b.temperature !== undefined ? 'temperature' : b.top_p !== undefined ? 'top_p' : 'seed';
+      throw badField(`$.${f}`, 'a sampling option without "sample": true', '"sample": true, or no sampling options');
+    }
+    let maxTokens: number;
+    let input;
+    try {
+      maxTokens = m.model.outputLimit(b.max_tokens);
+      input = m.model.input(b.question, g.grammar.name, b.prefix);
+    } catch (e) {
+      if (e instanceof OutputTooLong) throw badField('$.max_tokens', String(e.requested), `at most ${e.limit} for model ${m.id}`);
+      if (e instanceof InputTooLong) throw badField('$.question', `${e.tokens} tokens (with the prefix ${JSON.stringify(e.prefix)})`, `at most ${e.limit} tokens for model ${m.id}`);
+      throw e;
+    }
+    const strategy = b.beam !== undefined ? 'beam' : b.sample ? 'sample' : 'greedy';
+    ctx.stats.decoded++;
+    return ctx.withSlot(async () => {
+      const { signal, done } = requestSignal(req, ctx.timeLimitMs);
+      let r: GenerateResult;
+      try {
+        r = await generate(m.model, input.ids, {
+          grammar: g.grammar, names, unconstrained: !b.constrained, strategy, beamWidth: b.beam,
+          temperature: b.temperature, topP: b.top_p, seed: b.seed, maxTokens, signal,
+        });
+      } catch (e) {
+        if (signal.aborted && signal.reason instanceof Stopped) {
+          if (signal.reason.why === 'time') {
+            ctx.stats.stoppedTime++;
+            throw timeLimit(ctx.timeLimitMs);
+          }
+          ctx.stats.stoppedGone++;
+          throw new ApiError(499, 'client_closed', 'the client closed the connection; decoding stopped');
+        }
+        return modelError(e);
+      } finally {
+        done();
+      }
+      const out: Record<string, unknown> = {
+        question: input.text, text: r.text, tree: r.tree, parses: r.parses, well_typed: r.well_typed, parse_error: r.parse_error,
+        canonical: r.tree !== null && r.well_typed ? printTree(g.grammar, r.tree) : null,
+        tokens: r.tokens, token_texts: r.tokenTexts, finished: r.finished, score: r.score, strategy,
+        constrained: b.constrained, model: m.id, grammar: g.id, model_ms: r.model_ms, mask_ms: r.mask_ms, total_ms: r.total_ms,
+      };
+      if (b.steps) {
+        let c;
+        try {
+          c = boundConstraint(maskEngine(m.model, g.grammar), names);
+        } catch (e) {
+          return modelError(e);
+        }
+        Object.assign(out, replaySteps(c, r.tokens, r.tokenTexts, maxTokens, (ids) => textOf(m.model, ids)));
+        out.tree_view = r.tree !== null && r.well_typed ? treeView(g.grammar, r.tree) : null;
+      }
+      if (b.execute) {
+        if (g.execute === null) out.answer = { ok: false, error: `grammar ${g.id} has no executor here` };
+        else if (!r.well_typed || r.tree === null) out.answer = { ok: false, error: 'the output is not a well-typed program, so it was not run' };
+        else out.answer = await g.execute(r.tree, { grammar: g.grammar, timeoutMs: ctx.timeLimitMs });
+      } else out.answer = null;
+      return out;
+    });
+  });
+}
