@@ -10,8 +10,9 @@
  * A schema given as a JavaScript value instead of text is converted the same way, without
  * offsets; its key order is JavaScript's (`Object.keys`).
  */
-import { parseTree, printParseErrorCode, type Node as JsoncNode, type ParseError as JsoncError } from 'jsonc-parser';
+import { parseTree, type Node as JsoncNode, type ParseError as JsoncError } from 'jsonc-parser';
 import type { Span } from '../description/ir.ts';
+import { locateJsonError } from '../util/json.ts';
 
 export type JsonValue = null | boolean | number | string | JsonValue[] | { [key: string]: JsonValue };
 
@@ -41,12 +42,9 @@ export function parseJsonText(text: string): ParsedJson {
   try {
     JSON.parse(text);
   } catch {
-    const errors: JsoncError[] = [];
-    parseTree(text, errors, { disallowComments: true, allowTrailingComma: false, allowEmptyContent: false });
-    const first = errors[0];
-    const what = first === undefined ? 'not valid JSON' : describeJsonError(printParseErrorCode(first.error));
-    const at = first?.offset ?? 0;
-    return { error: `malformed JSON: ${what}`, span: { start: at, end: at + Math.max(1, first?.length ?? 1) } };
+    const where = locateJsonError(text);
+    const at = where?.offset ?? 0;
+    return { error: `malformed JSON: ${where?.message ?? 'not valid JSON'}`, span: { start: at, end: at + 1 } };
   }
   const errors: JsoncError[] = [];
   const root = parseTree(text, errors, { disallowComments: true, allowTrailingComma: false, allowEmptyContent: false });
@@ -169,13 +167,6 @@ export function jsonTypeOf(v: JsonValue): 'null' | 'boolean' | 'object' | 'array
   if (Array.isArray(v)) return 'array';
   if (typeof v === 'number') return Number.isInteger(v) ? 'integer' : 'number';
   return typeof v as 'boolean' | 'object' | 'string';
-}
-
-/** jsonc-parser's codes (`PropertyNameExpected`) in words ("expected property name"). */
-function describeJsonError(code: string): string {
-  const words = code.replace(/([a-z])([A-Z])/g, '$1 $2').toLowerCase();
-  const m = /^(.*) expected$/.exec(words);
-  return m ? `expected ${m[1]}` : words;
 }
 
 /** A JSON Pointer fragment (RFC 6901) for a path of keys and indices: `#/properties/speed`. */

@@ -106,7 +106,7 @@ describe('errors name the JSON path, file, line and column', () => {
 hint: supported: type, enum, const, properties, required, additionalProperties (false), items, prefixItems, minItems, maxItems, anyOf, oneOf, $ref, $defs, minLength, maxLength, format (date, date-time, email), minimum, maximum, exclusiveMinimum, exclusiveMaximum, and the annotations title, description, $comment, examples, default, deprecated, readOnly, writeOnly`,
     ],
     ['a typo', '{"requried":[]}', 's.json:1:2: error: #/requried is not supported\n1 | {"requried":[]}\n  |  ^~~~~~~~~~\nhint: did you mean "required"?'],
-    ['malformed JSON', '{"type": "object",}', 's.json:1:19: error: malformed JSON: expected property name\n1 | {"type": "object",}\n  |                   ^'],
+    ['malformed JSON', '{"type": "object",}', 's.json:1:19: error: malformed JSON: expected a string key\n1 | {"type": "object",}\n  |                   ^'],
     [
       'dialect',
       '{"$schema": "http://json-schema.org/draft-07/schema#", "type": "string"}',
