@@ -86,6 +86,8 @@ export class Emitter {
   private readonly origins = new Map<string, string>();
   private readonly named = new Map<Sem, Use>();
   private readonly building = new Set<Sem>();
+  /** schemas whose alternatives are being copied into a union (a reference back to one is not copied again) */
+  private readonly inlining = new Set<Sem>();
   private readonly refCounts = new Map<Sem, number>();
   private readonly noted = new Set<string>();
   private shared: { json?: string; member?: string; bool?: string; nul?: string } = {};
@@ -304,7 +306,14 @@ export class Emitter {
         if (t === null) return [];
         const th = this.hintOfTarget(this.lastTarget(sem));
         const inline = (this.refCounts.get(t) ?? 0) <= 1 && !this.building.has(t) && !this.named.has(t);
-        if (inline || (allowed !== null && !this.building.has(t))) return this.alternatives(t, th, allowed);
+        if ((inline || (allowed !== null && !this.building.has(t))) && !this.inlining.has(t)) {
+          this.inlining.add(t);
+          try {
+            return this.alternatives(t, th, allowed);
+          } finally {
+            this.inlining.delete(t);
+          }
+        }
         const use = this.use(t, th, false);
         return use.kind === 'type' ? [this.wrapper(th.ctor, use.name)] : [];
       }
@@ -345,7 +354,7 @@ export class Emitter {
           const h: Hint = many ? { type: `${hint.type}${pascal(t)}`, ctor: `${hint.ctor}_${t}` } : hint;
           switch (t) {
             case 'null':
-              out.push({ name: this.uniqueCtor(many ? h.ctor : `${hint.ctor}_null`), fields: [], lines: [['"null"']] });
+              out.push({ name: this.uniqueCtor(many || hint.ctor.endsWith('_null') ? h.ctor : `${hint.ctor}_null`), fields: [], lines: [['"null"']] });
               break;
             case 'boolean':
               out.push({ name: this.uniqueCtor(`${hint.ctor}_true`), fields: [], lines: [['"true"']] });

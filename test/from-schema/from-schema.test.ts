@@ -157,6 +157,11 @@ hint: supported: type, enum, const, properties, required, additionalProperties (
       's.json:1:69: error: #/$ref refers to itself without any structure in between (#/$defs/a → #/$defs/b → #/$defs/a); no value can match it\n1 | {"$defs": {"a": {"$ref": "#/$defs/b"}, "b": {"$ref": "#/$defs/a"}}, "$ref": "#/$defs/a"}\n  |                                                                     ^~~~~~',
     ],
     ['recursion without end', '{"type":"object","properties":{"next":{"$ref":"#"}},"required":["next"],"additionalProperties":false}', 's.json: error: #: every value must contain another value of the same schema, so no finite document matches'],
+    [
+      'a union that refers back to itself before any text',
+      '{"$defs":{"a":{"anyOf":[{"$ref":"#/$defs/b"},{"type":"string"}]},"b":{"anyOf":[{"$ref":"#/$defs/a"}]}},"$ref":"#/$defs/a"}',
+      's.json: error: #/$defs/a: the recursion reaches the same schema again before any text is written',
+    ],
     ['a keyword value of the wrong form', '{"type": "string", "minLength": -1}', 's.json:1:33: error: #/minLength must be a non-negative integer\n1 | {"type": "string", "minLength": -1}\n  |                                 ^~'],
     ['not a schema', '{"properties": {"a": 3}}', 's.json:1:22: error: #/properties/a is not a schema; expected an object or a boolean\n1 | {"properties": {"a": 3}}\n  |                      ^'],
     [
@@ -176,6 +181,17 @@ hint: supported: type, enum, const, properties, required, additionalProperties (
       's.json:1:77: error: #/properties/b/format "uri" is not supported; supported formats: date, date-time, email',
       's.json:1:85: error: #/if is not supported',
     ]);
+  });
+});
+
+describe('recursion', () => {
+  it('a recursive schema becomes a recursive sort', () => {
+    const { text } = fromSchema('{"oneOf":[{"type":"null"},{"type":"object","properties":{"next":{"$ref":"#"}},"required":["next"],"additionalProperties":false}]}', { name: 'chain' });
+    expect(text.slice(text.indexOf('sort '))).toBe(`sort Chain {
+  chain_null() = "null";
+  chain_object(next: Chain) = "{" ~"\\"next\\"" ~":" next ~"}";
+}
+`);
   });
 });
 
