@@ -21,6 +21,8 @@
  * layouts is refused; a `new` field inside an operator constructor stays in scope for the rest of
  * that precedence level (no shipped grammar has one); leading and trailing spaces are accepted.
  */
-export { Automaton, AutomatonInstance, BindError, Thread, Frame, Env, WORD, INF, type PdaState } from './pda.ts';
-export { buildRtn, closures, AutomatonError, type Rtn, type Terminal, type TerminalKind } from './cfg.ts';
-export { compileRegex, literalDfa, runDfa, RegexError, type ByteDfa } from './regex.ts';
+export { Automaton, AutomatonInstance, BindError, type PdaState } from './pda.ts';
+export { AutomatonError } from './cfg.ts';
+export { RegexError } from './regex.ts';
+// The runtime building blocks the mask engine walks with (threads, frames, the level loop, DFA
+// tables) are internal: src/automaton/internal.ts, for src/masks only.

@@ -23,7 +23,7 @@
  *   not a word byte (a space between two tokens resets it).
  */
 import type { Grammar, NameBindings } from '../description/ir.ts';
-import { AutomatonError, buildRtn, closures, EDGE_CALL, EDGE_EPS, EDGE_TERM, type Option, type Rtn } from './cfg.ts';
+import { AutomatonError, buildRtn, closures, EDGE_EPS, EDGE_TERM, type Option, type Rtn } from './cfg.ts';
 import { runDfa, type ByteDfa } from './regex.ts';
 
 export const INF = 0x3fffffff;
@@ -66,6 +66,26 @@ export class Thread {
     readonly frames: Frame | null,
     readonly env: Env | null,
   ) {}
+}
+
+/**
+ * How a walk over return levels ended (see `Automaton.forEachLevel`):
+ * - LEVELS_BLOCKED: the last level's node cannot reach its nonterminal's end by empty moves;
+ * - LEVELS_END: every frame returned and the last node may end: the program may end here;
+ * - LEVELS_STOP: the next frame to return to is the caller's `stop` frame (not visited).
+ */
+export const LEVELS_BLOCKED = 0;
+export const LEVELS_END = 1;
+export const LEVELS_STOP = 2;
+export type LevelsEnd = typeof LEVELS_BLOCKED | typeof LEVELS_END | typeof LEVELS_STOP;
+
+/**
+ * The body of a walk over return levels. `c` and `arg` are the caller's (e.g. the output list and
+ * the byte read, or a walk context and a trie node), passed through unchanged, so a visitor is a
+ * long-lived object and a walk allocates nothing.
+ */
+export interface LevelVisitor<C> {
+  visitLevel(c: C, arg: number, node: number, frames: Frame | null, env: Env | null): void;
 }
 
 /** Options grouped by first byte: options for bytes[i] are opts[off[i] .. off[i+1]). */
@@ -113,6 +133,26 @@ export class Automaton {
     this.optTarget = Int32Array.from(all.map((o) => o.target));
     this.optPush = all.map((o) => o.push);
     this.startNode = this.rtn.nts[this.rtn.startNt].start;
+  }
+
+  /**
+   * The return levels of a BETWEEN position, in order: (node, frames, env) itself, then — while the
+   * level's node can reach its nonterminal's end by empty moves (`canPop`) and a frame is left —
+   * the frame it returns to (ret, next, the frame's env). `v.visitLevel(c, arg, …)` is called for
+   * each; the result says why the walk stopped. This is the one frame-pop loop: the automaton's
+   * byte step, its completeness test and the mask walkers (src/masks/walk.ts) all go through it.
+   */
+  forEachLevel<C>(v: LevelVisitor<C>, c: C, arg: number, node: number, frames: Frame | null, env: Env | null, stop: Frame | null): LevelsEnd {
+    const canPop = this.canPop;
+    for (;;) {
+      v.visitLevel(c, arg, node, frames, env);
+      if (canPop[node] === 0) return LEVELS_BLOCKED;
+      if (frames === null) return LEVELS_END;
+      if (frames === stop) return LEVELS_STOP;
+      node = frames.ret;
+      env = frames.env;
+      frames = frames.next;
+    }
   }
 
   /** Binds open name sets (and checks them); cheap: no vocabulary work. */
@@ -340,6 +380,23 @@ export class AutomatonInstance {
     this.start = { threads: [new Thread(automaton.startNode, -1, 0, '', null, null)], prevWord: false, prev: null };
   }
 
+  /** Level visitor of `stepThread`: starts every viable option of a level with byte `b` into `out`. */
+  private readonly optionStarter: LevelVisitor<Thread[]> = {
+    visitLevel: (out, b, node, frames, env) => {
+      const a = this.automaton;
+      const ok = this.optOk[env === null ? 0 : 1];
+      for (let o = a.optStart[node]; o < a.optStart[node + 1]; o++) {
+        if (!ok[o]) continue;
+        const term = a.optTerm[o];
+        const s = this.startLex(term, b, env);
+        if (s === 0) continue;
+        const t = a.rtn.terminals[term];
+        const text = t.kind === 'newvar' || t.kind === 'boundvar' ? String.fromCharCode(b) : '';
+        out.push(new Thread(a.optTarget[o], term, s, text, this.pushFrames(o, frames, env), env));
+      }
+    },
+  };
+
   private readonly dispatchCache: (Dispatch | undefined)[] = [];
   private readonly classCache: (Int32Array | undefined)[] = [];
 
@@ -399,9 +456,13 @@ export class AutomatonInstance {
 
   /** Shortest completion (bytes, an achievable upper bound) from `node` to its nonterminal's end under `env`. */
   nodeDist(node: number, env: Env | null): number {
-    if (env === null) return this.dist0[node];
+    return env === null ? this.dist0[node] : this.scopedDist(node, env.minLen);
+  }
+
+  /** `nodeDist` with some variable in scope, the shortest of them `minLen` bytes long. */
+  private scopedDist(node: number, minLen: number): number {
     const a = this.dist1a[node];
-    return a >= INF ? INF : a + this.dist1k[node] * (1 + env.minLen);
+    return a >= INF ? INF : a + this.dist1k[node] * (1 + minLen);
   }
 
   /**
@@ -425,11 +486,17 @@ export class AutomatonInstance {
     if (th.term < 0) return this.betweenDist(th.node, th.env, th.frames, prevWord);
     const t = this.automaton.rtn.terminals[th.term];
     let lexRest: number;
-    let env = th.env;
+    const env = th.env;
     if (t.kind === 'boundvar') lexRest = boundRest(th.env, th.text);
     else {
       lexRest = this.termDfa[th.term].minAccept[th.lex];
-      if (t.kind === 'newvar') env = Env.add(env, th.text + 'x'.repeat(lexRest));
+      if (t.kind === 'newvar') {
+        // the lexeme ends after lexRest more bytes and brings a variable of that length into
+        // scope: the distance of `Env.add(env, <that name>)`, without building it
+        const len = th.text.length + lexRest;
+        const rest = th.frames === null ? 0 : th.frames.rest;
+        return lexRest + this.scopedDist(th.node, env === null ? len : Math.min(env.minLen, len)) + rest;
+      }
     }
     return lexRest + this.betweenDist(th.node, env, th.frames);
   }
@@ -445,6 +512,17 @@ export class AutomatonInstance {
       f = new Frame(r, env, f, nd + (f === null ? 0 : f.rest), fw);
     }
     return f;
+  }
+
+  /**
+   * `rest` of the stack `pushFrames(o, frames, env)` would build (0 for an empty stack), without
+   * building it. Keep in sync with pushFrames.
+   */
+  pushedRest(o: number, frames: Frame | null, env: Env | null): number {
+    const push = this.automaton.optPush[o];
+    let rest = frames === null ? 0 : frames.rest;
+    for (let i = 0; i < push.length; i++) rest += this.nodeDist(push[i], env);
+    return rest;
   }
 
   /** The first lexeme state of terminal `term` after byte `b` (0 = cannot start), for DFA/trie kinds. */
@@ -470,25 +548,8 @@ export class AutomatonInstance {
         return;
       }
       if (prevWord && WORD[b]) return;
-      let node = th.node;
-      let frames = th.frames;
-      let env = th.env;
-      for (;;) {
-        const ok = this.optOk[env === null ? 0 : 1];
-        for (let o = a.optStart[node]; o < a.optStart[node + 1]; o++) {
-          if (!ok[o]) continue;
-          const term = a.optTerm[o];
-          const s = this.startLex(term, b, env);
-          if (s === 0) continue;
-          const t = rtn.terminals[term];
-          const text = t.kind === 'newvar' || t.kind === 'boundvar' ? String.fromCharCode(b) : '';
-          out.push(new Thread(a.optTarget[o], term, s, text, this.pushFrames(o, frames, env), env));
-        }
-        if (!a.canPop[node] || frames === null) return;
-        node = frames.ret;
-        env = frames.env;
-        frames = frames.next;
-      }
+      a.forEachLevel(this.optionStarter, out, b, th.node, th.frames, th.env, null);
+      return;
     }
     const cont = this.stepLex(th, b);
     if (cont !== null) out.push(cont);
@@ -513,9 +574,12 @@ export class AutomatonInstance {
 
   /** The BETWEEN thread after the lexeme of LEX thread `th` ends here. */
   endLexeme(th: Thread): Thread {
-    const t = this.automaton.rtn.terminals[th.term];
-    const env = t.kind === 'newvar' ? Env.add(th.env, th.text) : th.env;
-    return new Thread(th.node, -1, 0, '', th.frames, env);
+    return new Thread(th.node, -1, 0, '', th.frames, this.envAfterLexeme(th));
+  }
+
+  /** The variables in scope once the lexeme of LEX thread `th` ends here (a `new` field adds one). */
+  envAfterLexeme(th: Thread): Env | null {
+    return this.automaton.rtn.terminals[th.term].kind === 'newvar' ? Env.add(th.env, th.text) : th.env;
   }
 
   /** True when the lexeme of LEX thread `th` may end here. */
@@ -525,22 +589,18 @@ export class AutomatonInstance {
     return this.termDfa[th.term].accept[th.lex] === 1;
   }
 
-  /** True when a BETWEEN thread can finish the program (every frame may return, empty moves only). */
-  betweenComplete(th: Thread): boolean {
-    const a = this.automaton;
-    let node = th.node;
-    let frames = th.frames;
-    for (;;) {
-      if (!a.canPop[node]) return false;
-      if (frames === null) return true;
-      node = frames.ret;
-      frames = frames.next;
-    }
+  /**
+   * True when a BETWEEN position at `node` with `frames` can finish the program: every frame may
+   * return by empty moves (the variables in scope play no part).
+   */
+  canFinish(node: number, frames: Frame | null): boolean {
+    return this.automaton.forEachLevel(NO_VISIT, null, 0, node, frames, null, null) === LEVELS_END;
   }
 
+  /** True when thread `th` can finish the program here (a lexeme in progress must be able to end). */
   threadComplete(th: Thread): boolean {
-    if (th.term < 0) return this.betweenComplete(th);
-    return this.lexAccepting(th) && this.betweenComplete(this.endLexeme(th));
+    if (th.term < 0) return this.canFinish(th.node, th.frames);
+    return this.lexAccepting(th) && this.canFinish(th.node, th.frames);
   }
 
   /** The state after `bytes`; a dead state (no threads) when they are not a viable continuation. */
@@ -558,7 +618,8 @@ export class AutomatonInstance {
   }
 
   isComplete(state: PdaState): boolean {
-    for (const th of state.threads) if (this.threadComplete(th)) return true;
+    const threads = state.threads;
+    for (let i = 0; i < threads.length; i++) if (this.threadComplete(threads[i])) return true;
     return false;
   }
 
@@ -573,6 +634,8 @@ export class AutomatonInstance {
     return best;
   }
 }
+
+const NO_VISIT: LevelVisitor<null> = { visitLevel() {} };
 
 /** Removes duplicate threads (same fields, same frame/env objects). */
 function dedupe(threads: Thread[]): Thread[] {
@@ -604,4 +667,3 @@ function boundRest(env: Env | null, prefix: string): number {
   return best;
 }
 
-export { AutomatonError, EDGE_CALL };

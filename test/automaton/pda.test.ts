@@ -8,6 +8,7 @@ import { mkdtempSync, readFileSync, readdirSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { Automaton, BindError, AutomatonError } from '../../src/automaton/index.ts';
+import { Frame, LEVELS_BLOCKED, LEVELS_END, LEVELS_STOP } from '../../src/automaton/internal.ts';
 import { loadGrammar } from '../../src/description/index.ts';
 import { createParser, createSampler, printTree } from '../../src/tree/index.ts';
 import { GRAMMARS, grammar, namesFor, rng, ROOT } from '../masks/helpers.ts';
@@ -162,5 +163,40 @@ describe('grammars the automaton refuses', () => {
     const g = compile('grammar t\nstart A\nspace " "\ntoken W = /[ a]+/ as text\nsort A {\n  a(w: W) = w;\n}\n');
     expect(() => new Automaton(g)).toThrow(AutomatonError);
     expect(() => new Automaton(g)).toThrow(/test\.twg:4:1: error: token class W may begin with the space character " "/);
+  });
+});
+
+describe('the level loop (Automaton.forEachLevel, shared by the byte step and the mask walkers)', () => {
+  // The contract as written in pda.ts (no outside source): visit the position, then while the
+  // level's node can pop and a frame is left, the frame it returns to; stop at `stop` unvisited.
+  const a = new Automaton(grammar('arith'));
+  const popping = [...a.canPop.keys()].filter((n) => a.canPop[n] === 1);
+  const blocking = [...a.canPop.keys()].filter((n) => a.canPop[n] === 0);
+  const visits: number[] = [];
+  const visitor = { visitLevel: (out: number[], _arg: number, node: number) => out.push(node) };
+  const levels = (node: number, frames: Frame | null, stop: Frame | null = null) => {
+    visits.length = 0;
+    return a.forEachLevel(visitor, visits, 0, node, frames, null, stop);
+  };
+
+  it('returns through every frame whose caller can pop, and says why it stopped', () => {
+    expect(popping.length).toBeGreaterThan(2);
+    expect(blocking.length).toBeGreaterThan(0);
+    const [p1, p2, p3] = popping;
+    const stack = new Frame(p2, null, new Frame(p3, null, null, 0), 0);
+    expect(levels(p1, stack)).toBe(LEVELS_END);
+    expect(visits).toEqual([p1, p2, p3]);
+    expect(levels(p1, new Frame(blocking[0], null, stack, 0))).toBe(LEVELS_BLOCKED);
+    expect(visits).toEqual([p1, blocking[0]]);
+    expect(levels(blocking[0], stack)).toBe(LEVELS_BLOCKED);
+    expect(visits).toEqual([blocking[0]]);
+    expect(levels(p1, stack, stack.next)).toBe(LEVELS_STOP);
+    expect(visits).toEqual([p1, p2]);
+  });
+
+  it('canFinish (completeness of a BETWEEN position) is the loop reaching the end of the stack', () => {
+    const b = new Automaton(grammar('arith')).bind({ Func: ['max'] });
+    expect(b.canFinish(popping[0], new Frame(popping[1], null, null, 0))).toBe(true);
+    expect(b.canFinish(popping[0], new Frame(blocking[0], null, null, 0))).toBe(false);
   });
 });
