@@ -22,9 +22,8 @@ import { dirname, join } from 'node:path';
 import type { Grammar } from '../description/ir.ts';
 import { deserializeVocabulary, loadVocabulary, VocabularyError, type Vocabulary } from '../vocab/index.ts';
 import { MaskEngine } from './engine.ts';
-import { MAX_LE, type ClassTables } from './precompute.ts';
-import { Automaton } from '../automaton/pda.ts';
-import type { ByteDfa } from '../automaton/regex.ts';
+import { MAX_LE, type ClassTables } from './class-tables.ts';
+import { Automaton, type ByteDfa } from '../automaton/internal.ts';
 
 export const CACHE_FORMAT = 'TWMASK01';
 const MAGIC = Buffer.from(CACHE_FORMAT, 'latin1');

@@ -17,6 +17,15 @@
  * else is a trie walk pruned at the first byte no parse can read.
  * `loadOrCompile` keeps grammar × vocabulary tables in a cache file keyed by both content hashes.
  *
+ * Files, in the order data flows:
+ *   vocab-tables.ts  byte → single-byte token, wide-node child tables, space tables, word-start set
+ *   class-tables.ts  per token class: inside / budget-level bitsets and exit nodes per DFA state
+ *   engine.ts        MaskEngine: builds both, `bind(names)` → MaskConstraint
+ *   constraint.ts    MaskConstraint, the TokenConstraint: allowed bits, advance, EOS, budget
+ *   context.ts       WalkContext: where a walk writes, its limit and word rule (reused, two per constraint)
+ *   walk.ts          the trie walkers (one thread's mask), visitors of the automaton's level loop
+ *   kept.ts          kept masks: computed once per binding with the walkers, used by them
+ *   cache.ts         the cache file
  * Worst-case cost per mask: O(threads × (bitset words × pop depth + trie nodes walked below pop
  * points and exit nodes)). Measured at 128k ids (llama3, SQL/JSON, `npm run bench`): median 2–7 µs,
  * p99 < 0.15 ms, 4,000–10,000× faster than trying every token; tables + local masks 0.3–0.4 s;
@@ -24,7 +33,9 @@
  * Limits: see automaton/index.ts (regex subset, ambiguity cap); grammars with `new`/`bound` fields
  * walk instead of using local masks; masks follow token-class regexes, not value ranges.
  */
-export { MaskEngine, MaskConstraint, MaskError, type MaskState, type CompileOptions } from './engine.ts';
+export { MaskEngine, type CompileOptions } from './engine.ts';
+export { MaskConstraint, type MaskState } from './constraint.ts';
+export { MaskError } from './errors.ts';
 import type { Grammar } from '../description/ir.ts';
 import type { Vocabulary } from '../vocab/index.ts';
 import { MaskEngine, type CompileOptions } from './engine.ts';

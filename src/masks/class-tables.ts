@@ -19,7 +19,7 @@
  * state. Memory: (1 + kmax) bitsets of ⌈V/32⌉ words per state.
  */
 import type { TokenTrie } from '../vocab/index.ts';
-import type { ByteDfa } from '../automaton/regex.ts';
+import type { ByteDfa } from '../automaton/internal.ts';
 
 /** Longest budget threshold kept as a bitset; larger needs fall back to per-token checks. */
 export const MAX_LE = 24;

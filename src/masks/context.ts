@@ -1,0 +1,135 @@
+/**
+ * The walk context: everything a mask walk writes or reads besides its position — where marked
+ * tokens go, the distance limit, the word rule at the trie root, and what a kept-mask computation
+ * records. The walkers (walk.ts) and the kept masks (kept.ts) take it as their first argument.
+ *
+ * A constraint owns two contexts and reuses them (no allocation per mask):
+ * - the live context (`live` true) writes the caller's mask in `writeAllowed`;
+ * - the keep context (`live` false) computes a kept mask once, against the stand-in frame SENTINEL:
+ *   it starts with no limit and no word rule, records the largest distance it marks and the trie
+ *   nodes where SENTINEL was popped, and never uses kept masks itself — so kept-mask computations
+ *   never nest, and starting one in the middle of a live walk leaves the live context untouched.
+ */
+import { INF, type Thread } from '../automaton/internal.ts';
+import type { VocabTables } from './vocab-tables.ts';
+
+const NO_MASK: Uint32Array<ArrayBufferLike> = new Uint32Array(0);
+
+export class WalkContext {
+  /** the bitset marked tokens are OR-ed into (live: the caller's mask; keep: the kept bitset) */
+  mask: Uint32Array<ArrayBufferLike> = NO_MASK;
+  /** largest completion distance (bytes) a marked token may have: budget − 2, or INF */
+  lim = INF;
+  /** the byte before the token was a word byte: word-start tokens are refused at the trie root */
+  rootPrevWord = false;
+  /** largest completion distance among the tokens marked since `begin…` (kept masks keep it) */
+  maxSeen = 0;
+  /** keep context, sub-local walks: marked token ids are appended here instead of set in `mask` */
+  collect: number[] | null = null;
+  /** keep context: the trie nodes where the stand-in frame was popped */
+  private readonly pops = new Set<number>();
+  /** scratch stack of threads for the byte-stepping walk (each call truncates to where it began) */
+  readonly threads: Thread[] = [];
+  private readonly tokStart: Uint32Array;
+  private readonly tokens: Uint32Array;
+  private readonly wordStart: Uint32Array;
+
+  constructor(
+    readonly tables: VocabTables,
+    /** true: writes a caller's mask and may use kept masks; false: computes kept masks */
+    readonly live: boolean,
+  ) {
+    this.tokStart = tables.trie.tokStart;
+    this.tokens = tables.trie.tokens;
+    this.wordStart = tables.wordStart;
+  }
+
+  /** Live context: starts a mask of a state (`prevWord`: its last byte was a word byte). */
+  beginLive(mask: Uint32Array, lim: number, prevWord: boolean): void {
+    this.mask = mask;
+    this.lim = lim;
+    this.rootPrevWord = prevWord;
+    this.maxSeen = 0;
+  }
+
+  /** Keep context: starts a kept-mask computation into `mask` (or into `collect`, when given). */
+  beginKept(mask: Uint32Array, collect: number[] | null): void {
+    this.mask = mask;
+    this.collect = collect;
+    this.lim = INF;
+    this.rootPrevWord = false;
+    this.maxSeen = 0;
+    this.pops.clear();
+  }
+
+  /** Ends a walk: drops the references to the caller's buffers. */
+  end(): void {
+    this.mask = NO_MASK;
+    this.collect = null;
+  }
+
+  /** Records that the walk popped the stand-in frame at trie node x (kept-mask computations only). */
+  recordPop(x: number): void {
+    if (this.live) throw new Error('internal: the stand-in frame reached in a live mask walk');
+    if (x === 0 || !this.tables.wsNode[x]) this.pops.add(x);
+  }
+
+  /** The pop points recorded since `beginKept`, ascending; clears them. */
+  takePops(): Uint32Array {
+    const out = Uint32Array.from(this.pops).sort();
+    this.pops.clear();
+    return out;
+  }
+
+  /** Marks the tokens of trie node c when `dist` (their completion distance) is within the limit. */
+  markNode(c: number, dist: number): void {
+    if (dist > this.lim) return;
+    if (dist > this.maxSeen) this.maxSeen = dist;
+    const tokStart = this.tokStart;
+    const tokens = this.tokens;
+    const collect = this.collect;
+    if (collect !== null) {
+      for (let i = tokStart[c], e = tokStart[c + 1]; i < e; i++) collect.push(tokens[i]);
+      return;
+    }
+    const mask = this.mask;
+    for (let i = tokStart[c], e = tokStart[c + 1]; i < e; i++) {
+      const id = tokens[i];
+      mask[id >>> 5] |= 1 << (id & 31);
+    }
+  }
+
+  /** Sets the listed token ids in `mask` (no distance check: the caller has done it). */
+  markIds(ids: Uint32Array): void {
+    const mask = this.mask;
+    for (let i = 0; i < ids.length; i++) mask[ids[i] >>> 5] |= 1 << (ids[i] & 31);
+  }
+
+  /** `mask |= src`, without word-start tokens when `noWordStart`. */
+  orBits(src: Uint32Array, noWordStart: boolean): void {
+    const mask = this.mask;
+    if (noWordStart) {
+      const ws = this.wordStart;
+      for (let w = 0; w < src.length; w++) mask[w] |= src[w] & ~ws[w];
+    } else {
+      for (let w = 0; w < src.length; w++) mask[w] |= src[w];
+    }
+  }
+
+  /** OR a kept bitset: through its id list when it has one (sparse), else word by word. */
+  orPacked(bits: Uint32Array, ids: Uint32Array | null, noWordStart: boolean): void {
+    if (ids === null) {
+      this.orBits(bits, noWordStart);
+      return;
+    }
+    const mask = this.mask;
+    const ws = this.wordStart;
+    for (let i = 0; i < ids.length; i++) {
+      const id = ids[i];
+      const w = id >>> 5;
+      const bit = 1 << (id & 31);
+      if (noWordStart && (ws[w] & bit) !== 0) continue;
+      mask[w] |= bit;
+    }
+  }
+}

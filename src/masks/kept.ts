@@ -1,0 +1,222 @@
+/**
+ * Kept masks: the stack-independent part of a mask, computed once per binding and kept.
+ *
+ * For a grammar without variables (no `new` / `bound` fields, so no thread has an env), what a
+ * position reads before it returns below its own nonterminal does not depend on the stack under
+ * it. So each is computed once with the stand-in frame SENTINEL as "the rest of the stack"
+ * (walk.ts, on the keep context) and kept with
+ * - its bitset (and an id list when sparse),
+ * - the largest completion distance among its tokens, relative to that frame (`maxDist`): the
+ *   kept mask is used only when `maxDist + rest of the real stack ≤ limit`, else the walker walks
+ *   (a tight budget needs the per-token distances),
+ * - its pop points: the trie nodes where SENTINEL was popped. There the rest of the token depends
+ *   on the real stack, so at use time the walker continues below each of them with the frame the
+ *   position returns to.
+ * Three kinds, by position:
+ * - `localMask(n)`: a BETWEEN position at RTN node n, from the trie root;
+ * - `lexLocal(tables, n, d)`: a token-class lexeme in DFA state d continuing at node n — the
+ *   tokens inside and the exit walks (`bits`, pops `popsLex`) and, when the lexeme may end here,
+ *   the BETWEEN mask after it (`rootBits`, filtered by the word rule at use time, pops `popsRoot`);
+ * - `subLocal(n, x)`: a BETWEEN position at node n below trie node x ≠ root (exit nodes of
+ *   lexemes and pop points land here): the token ids it marks.
+ * Memory: one bitset (⌈V/32⌉ words) per local mask and per lexeme state reached, id lists for the
+ * rest; computed on first use (`prepare` computes every local mask up front).
+ */
+import { INF, WORD, type AutomatonInstance, type Frame } from '../automaton/internal.ts';
+import { popcount32 } from '../util/bitset.ts';
+import type { ClassTables } from './class-tables.ts';
+import { WalkContext } from './context.ts';
+import { SENTINEL, type KeptMaskSource, type TrieWalker } from './walk.ts';
+
+interface LocalMask {
+  readonly bits: Uint32Array;
+  readonly ids: Uint32Array | null;
+  readonly maxDist: number;
+  readonly pops: Uint32Array;
+}
+
+interface LexLocal {
+  readonly bits: Uint32Array;
+  readonly ids: Uint32Array | null;
+  readonly rootBits: Uint32Array | null;
+  readonly rootIds: Uint32Array | null;
+  readonly maxDist: number;
+  readonly popsLex: Uint32Array;
+  readonly popsRoot: Uint32Array;
+}
+
+interface SubLocal {
+  readonly ids: Uint32Array;
+  readonly maxDist: number;
+  readonly pops: Uint32Array;
+}
+
+const NO_POPS = new Uint32Array(0);
+const NO_MASK = new Uint32Array(0);
+
+/** The set bits as an id list when that is shorter than half the words (else null: OR word by word). */
+function sparseIds(bits: Uint32Array): Uint32Array | null {
+  let n = 0;
+  for (let w = 0; w < bits.length; w++) if (bits[w] !== 0) n += popcount32(bits[w]);
+  if (n * 2 > bits.length) return null;
+  const out = new Uint32Array(n);
+  let k = 0;
+  for (let w = 0; w < bits.length; w++) {
+    let word = bits[w];
+    while (word !== 0) {
+      const low = word & -word;
+      out[k++] = (w << 5) + (31 - Math.clz32(low));
+      word ^= low;
+    }
+  }
+  return out;
+}
+
+export class KeptMasks implements KeptMaskSource {
+  /** per RTN node: the local mask of a BETWEEN position */
+  private readonly locals: (LocalMask | undefined)[] = [];
+  /** per (RTN node, trie node): the local part of a walk below that trie node */
+  private readonly subLocals = new Map<number, SubLocal>();
+  /** per class tables, per (RTN node, DFA state): lexeme local masks */
+  private readonly lexLocals = new Map<ClassTables, Map<number, LexLocal>>();
+  /** the keep context: every computation here runs on it (never nested, see context.ts) */
+  private readonly keep: WalkContext;
+  private readonly pda: AutomatonInstance;
+
+  constructor(private readonly walker: TrieWalker) {
+    this.keep = new WalkContext(walker.vt, false);
+    this.pda = walker.pda;
+  }
+
+  // ---- use (live context) ----
+
+  between(ctx: WalkContext, node: number, frames: Frame | null): boolean {
+    const local = this.localMask(node);
+    if (local.maxDist + (frames === null ? 0 : frames.rest) > ctx.lim) return false;
+    ctx.orPacked(local.bits, local.ids, ctx.rootPrevWord);
+    // after the program's end only spaces follow: the local mask already has them
+    if (frames !== null) this.resumeAtRoot(ctx, local.pops, frames);
+    return true;
+  }
+
+  lexeme(ctx: WalkContext, tables: ClassTables, node: number, d: number, frames: Frame | null): boolean {
+    const local = this.lexLocal(tables, node, d);
+    if (local.maxDist + (frames === null ? 0 : frames.rest) > ctx.lim) return false;
+    ctx.orPacked(local.bits, local.ids, false);
+    if (local.rootBits !== null) ctx.orPacked(local.rootBits, local.rootIds, ctx.rootPrevWord);
+    if (frames !== null) {
+      this.resumeBelow(ctx, local.popsLex, frames);
+      this.resumeAtRoot(ctx, local.popsRoot, frames);
+    }
+    return true;
+  }
+
+  below(ctx: WalkContext, x: number, node: number, frames: Frame | null): boolean {
+    const sub = this.subLocal(node, x);
+    if (sub.maxDist + (frames === null ? 0 : frames.rest) > ctx.lim) return false;
+    ctx.markIds(sub.ids);
+    if (frames !== null) this.resumeBelow(ctx, sub.pops, frames);
+    return true;
+  }
+
+  /** Continues below each pop point x ≠ root with the position `frames` returns to. */
+  private resumeBelow(ctx: WalkContext, pops: Uint32Array, frames: Frame): void {
+    for (let i = 0; i < pops.length; i++) this.walker.walkBetween(ctx, pops[i], frames.ret, frames.next, frames.env);
+  }
+
+  /**
+   * Pop points of a walk from the root: the root itself is the returned-to position's whole mask;
+   * below a node whose first byte is a word byte only when the byte before the token was not one
+   * (the kept mask was computed without the word rule).
+   */
+  private resumeAtRoot(ctx: WalkContext, pops: Uint32Array, frames: Frame): void {
+    const fbs = this.walker.vt.firstByte;
+    const space = this.pda.automaton.rtn.space;
+    for (let i = 0; i < pops.length; i++) {
+      const x = pops[i];
+      if (x === 0) this.walker.maskBetween(ctx, frames.ret, frames.next, frames.env);
+      else {
+        const fb = fbs[x];
+        if (ctx.rootPrevWord && WORD[fb] && !space[fb]) continue;
+        this.walker.walkBetween(ctx, x, frames.ret, frames.next, frames.env);
+      }
+    }
+  }
+
+  // ---- computation (keep context) ----
+
+  /** The local mask of a BETWEEN position at RTN node n (from the trie root). */
+  localMask(n: number): LocalMask {
+    const hit = this.locals[n];
+    if (hit !== undefined) return hit;
+    const k = this.keep;
+    const bits = new Uint32Array(this.walker.vt.nWords);
+    k.beginKept(bits, null);
+    this.walker.maskBetween(k, n, SENTINEL, null);
+    const entry: LocalMask = { bits, ids: sparseIds(bits), maxDist: k.maxSeen, pops: k.takePops() };
+    k.end();
+    this.locals[n] = entry;
+    return entry;
+  }
+
+  /** The local part of a walk below trie node x (≠ root) for a BETWEEN position at RTN node n. */
+  private subLocal(n: number, x: number): SubLocal {
+    const key = n * this.walker.vt.trie.nodeCount + x;
+    const hit = this.subLocals.get(key);
+    if (hit !== undefined) return hit;
+    const k = this.keep;
+    const ids: number[] = [];
+    k.beginKept(NO_MASK, ids);
+    this.walker.walkBetween(k, x, n, SENTINEL, null);
+    const entry: SubLocal = { ids: Uint32Array.from(new Set(ids)), maxDist: k.maxSeen, pops: k.takePops() };
+    k.end();
+    this.subLocals.set(key, entry);
+    return entry;
+  }
+
+  /** The local mask of a token-class lexeme in DFA state d whose continuation is RTN node n. */
+  private lexLocal(tables: ClassTables, n: number, d: number): LexLocal {
+    const key = n * 65536 + d;
+    let perClass = this.lexLocals.get(tables);
+    if (perClass === undefined) {
+      perClass = new Map();
+      this.lexLocals.set(tables, perClass);
+    }
+    const hit = perClass.get(key);
+    if (hit !== undefined) return hit;
+    const k = this.keep;
+    const w = this.walker;
+    const nWords = w.vt.nWords;
+    const bits = new Uint32Array(nWords);
+    k.beginKept(bits, null);
+    w.orInside(k, tables, d, INF - this.pda.betweenDist(n, null, SENTINEL), false);
+    const ex = tables.exits[d];
+    for (let i = 0; i < ex.length; i++) w.walkBetween(k, ex[i], n, SENTINEL, null);
+    const popsLex = k.takePops();
+    let rootBits: Uint32Array | null = null;
+    let popsRoot: Uint32Array = NO_POPS;
+    if (tables.dfa.accept[d]) {
+      // same keep walk (maxSeen carries over), into a second bitset
+      rootBits = new Uint32Array(nWords);
+      k.mask = rootBits;
+      w.maskBetween(k, n, SENTINEL, null);
+      popsRoot = k.takePops();
+    }
+    const entry: LexLocal = { bits, ids: sparseIds(bits), rootBits, rootIds: rootBits === null ? null : sparseIds(rootBits), maxDist: k.maxSeen, popsLex, popsRoot };
+    k.end();
+    perClass.set(key, entry);
+    return entry;
+  }
+
+  /** Computes the local mask of every RTN node a BETWEEN position can be at. Returns the count. */
+  prepare(): number {
+    const a = this.pda.automaton;
+    const nodes = new Set<number>([a.startNode]);
+    for (let o = 0; o < a.optTarget.length; o++) {
+      nodes.add(a.optTarget[o]);
+      for (const r of a.optPush[o]) nodes.add(r);
+    }
+    for (const n of nodes) this.localMask(n);
+    return nodes.size;
+  }
+}

@@ -1,0 +1,327 @@
+/**
+ * The trie walkers: the mask of one automaton thread, written into a walk context.
+ *
+ * Mask of a state = union over its threads (a token is allowed iff some parse can read it):
+ * - a thread inside a token-class lexeme at DFA state d: `inside[d]` (class-tables.ts, budget-
+ *   filtered), plus a walk below each exit node x with the thread's continuation, plus — when the
+ *   lexeme may end here — the BETWEEN mask of the continuation;
+ * - a BETWEEN position at the trie root (`maskBetween`): for every next terminal that is a token
+ *   class, `inside[W0]` (spaces, then that class; word-start tokens removed when the previous byte
+ *   was a word byte) and its exits; the finite terminals (literals, name-set members, variables)
+ *   and space-only tokens by a walk that prunes at the first byte no terminal can read;
+ * - below a trie node (`walkBetween`): space children, then the terminals that start there;
+ * - other lexemes (literals, names, variables): a walk from the root.
+ * A BETWEEN position is (RTN node, frames, env) — no Thread object is built for it. The return
+ * levels of a position go through `Automaton.forEachLevel` (the one frame-pop loop); this walker
+ * is its visitor (`visitLevel`), with the walk context as `c` and the trie node as `arg`.
+ *
+ * Kept masks: when the walker has a `kept` source (grammars without variables) and the context is
+ * live, the stack-independent part of a position is taken from kept.ts and only its pop points are
+ * walked with the real stack. Kept masks are computed with this same walker on the keep context,
+ * against the stand-in frame SENTINEL: reaching it records a pop point instead of popping.
+ *
+ * Distances: a token is marked when the shortest completion after it (bytes, automaton/pda.ts)
+ * is ≤ `ctx.lim`; see constraint.ts for why that keeps every output within the budget.
+ */
+import { Frame, LEVELS_STOP, Thread, WORD, type Automaton, type AutomatonInstance, type Dispatch, type Env, type LevelVisitor, type Rtn } from '../automaton/internal.ts';
+import type { Vocabulary } from '../vocab/index.ts';
+import type { WalkContext } from './context.ts';
+import { MAX_LE, wMinAccept, wStep, type ClassTables } from './class-tables.ts';
+import type { VocabTables } from './vocab-tables.ts';
+
+/** The frame standing for "the rest of the stack" while a kept mask is computed. */
+export const SENTINEL = new Frame(-1, null, null, 0);
+
+/**
+ * What the walker asks of the kept masks (kept.ts). Each method writes the kept part of a
+ * position into the live context and walks its pop points with the real stack below, returning
+ * true; or returns false, writing nothing, when the kept mask does not fit the limit (the walker
+ * then walks the position itself). Positions here have no variables in scope (env null).
+ */
+export interface KeptMaskSource {
+  /** a BETWEEN position at the trie root */
+  between(ctx: WalkContext, node: number, frames: Frame | null): boolean;
+  /** a token-class lexeme at DFA state d whose continuation is `node` with `frames` */
+  lexeme(ctx: WalkContext, tables: ClassTables, node: number, d: number, frames: Frame | null): boolean;
+  /** a BETWEEN position below trie node x ≠ root */
+  below(ctx: WalkContext, x: number, node: number, frames: Frame | null): boolean;
+}
+
+export class TrieWalker implements LevelVisitor<WalkContext> {
+  /** kept masks, when the grammar allows them (no variables); set once by the constraint */
+  kept: KeptMaskSource | null = null;
+  private readonly a: Automaton;
+  private readonly rtn: Rtn;
+  private readonly byte: Uint8Array;
+  private readonly end: Uint32Array;
+
+  constructor(
+    readonly pda: AutomatonInstance,
+    readonly vt: VocabTables,
+    /** per token class index: its tables, or null when no `class` terminal uses it */
+    readonly classes: readonly (ClassTables | null)[],
+    private readonly vocab: Vocabulary,
+  ) {
+    this.a = pda.automaton;
+    this.rtn = pda.automaton.rtn;
+    this.byte = vt.trie.byte;
+    this.end = vt.trie.end;
+  }
+
+  /** Marks the tokens one thread can read next. */
+  maskThread(ctx: WalkContext, th: Thread): void {
+    const pda = this.pda;
+    if (th.term < 0) {
+      this.maskBetween(ctx, th.node, th.frames, th.env);
+      return;
+    }
+    const t = this.rtn.terminals[th.term];
+    if (t.kind === 'class') {
+      // a class lexeme never binds a variable: the continuation is (node, frames, env) as is
+      const tables = this.classes[t.tokenClass]!;
+      const d = th.lex;
+      if (this.kept !== null && ctx.live && th.env === null && this.kept.lexeme(ctx, tables, th.node, d, th.frames)) return;
+      const rest = pda.betweenDist(th.node, th.env, th.frames);
+      this.orInside(ctx, tables, d, ctx.lim - rest, false);
+      const ex = tables.exits[d];
+      for (let i = 0; i < ex.length; i++) this.walkBetween(ctx, ex[i], th.node, th.frames, th.env);
+      if (t.dfa.accept[d]) this.maskBetween(ctx, th.node, th.frames, th.env);
+      return;
+    }
+    // literals, names, variables: the end of the lexeme here is a BETWEEN mask at the root;
+    // continuing the lexeme is a (short) walk.
+    if (pda.lexAccepting(th)) this.maskBetween(ctx, th.node, th.frames, pda.envAfterLexeme(th));
+    if (t.kind === 'lit' || t.kind === 'names') {
+      this.walkLex(ctx, 0, th.term, th.node, -1, th.frames, th.env, th.lex, pda.betweenDist(th.node, th.env, th.frames));
+      return;
+    }
+    const { byte, end } = this;
+    for (let c = 1; c < this.vt.trie.nodeCount; c = end[c]) {
+      const t2 = pda.stepLex(th, byte[c]);
+      if (t2 === null) continue;
+      ctx.markNode(c, pda.threadDist(t2, WORD[byte[c]] === 1));
+      if (end[c] > c + 1) this.walkGeneric(ctx, c, t2);
+    }
+  }
+
+  /** Marks the tokens a BETWEEN position (node, frames, env) can read from the trie root. */
+  maskBetween(ctx: WalkContext, node: number, frames: Frame | null, env: Env | null): void {
+    if (this.kept !== null && ctx.live && this.kept.between(ctx, node, frames)) return;
+    const dist = this.pda.betweenDist(node, env, frames, false); // after a space
+    if (dist <= ctx.lim) {
+      if (dist > ctx.maxSeen) ctx.maxSeen = dist;
+      ctx.markIds(this.vt.wsTokenIds);
+    }
+    if (this.a.forEachLevel(this, ctx, 0, node, frames, env, SENTINEL) === LEVELS_STOP) ctx.recordPop(0);
+  }
+
+  /** Walks the children of trie node x ≠ root for a BETWEEN position (node, frames, env). */
+  walkBetween(ctx: WalkContext, x: number, node: number, frames: Frame | null, env: Env | null): void {
+    // below a non-root trie node the stack-independent part is kept per (RTN node, trie node)
+    if (this.kept !== null && ctx.live && env === null && this.kept.below(ctx, x, node, frames)) return;
+    const { byte, end, vt } = this;
+    const space = this.rtn.space;
+    const dist = this.pda.betweenDist(node, env, frames, false); // after a space
+    let starts = true;
+    if (vt.wide[x] >= 0) {
+      const sp = vt.spaceBytes;
+      for (let i = 0; i < sp.length; i++) {
+        const c = vt.childOf(x, sp[i]);
+        if (c < 0) continue;
+        ctx.markNode(c, dist);
+        if (end[c] > c + 1) this.walkBetween(ctx, c, node, frames, env);
+      }
+    } else {
+      // a narrow node is scanned once here; its levels only when a child may start a terminal
+      const pw = WORD[byte[x]] === 1;
+      starts = false;
+      for (let c = x + 1, stop = end[x]; c < stop; c = end[c]) {
+        const b = byte[c];
+        if (space[b]) {
+          ctx.markNode(c, dist);
+          if (end[c] > c + 1) this.walkBetween(ctx, c, node, frames, env);
+        } else if (!(pw && WORD[b])) starts = true;
+      }
+    }
+    if (starts && this.a.forEachLevel(this, ctx, x, node, frames, env, SENTINEL) === LEVELS_STOP) ctx.recordPop(x);
+  }
+
+  /**
+   * One return level of a BETWEEN position, at trie node x: starts every viable terminal whose
+   * first byte leads to a child of x. At the root (x = 0) token classes come from their tables and
+   * the other terminals also start after "spaces" (wsChildren); the word rule uses the byte before
+   * the token there, the byte of x elsewhere.
+   */
+  visitLevel(ctx: WalkContext, x: number, node: number, frames: Frame | null, env: Env | null): void {
+    const pda = this.pda;
+    const vt = this.vt;
+    const mode = env === null ? 0 : 1;
+    if (x === 0) {
+      const a = this.a;
+      const space = this.rtn.space;
+      const pw = ctx.rootPrevWord;
+      const cls = pda.classOptions(node, mode);
+      for (let i = 0; i < cls.length; i++) {
+        const o = cls[i];
+        const tables = this.classes[this.rtn.terminals[a.optTerm[o]].tokenClass]!;
+        const target = a.optTarget[o];
+        const rest = pda.nodeDist(target, env) + pda.pushedRest(o, frames, env);
+        this.orInside(ctx, tables, tables.w0, ctx.lim - rest, pw);
+        // the lexeme ends inside a token at an exit: the walk continues with the pushed frames,
+        // built only then
+        const ex = tables.exits[tables.w0];
+        let pushed: Frame | null | undefined;
+        for (let j = 0; j < ex.length; j++) {
+          const fb = vt.firstByte[ex[j]];
+          if (pw && WORD[fb] && !space[fb]) continue;
+          if (pushed === undefined) pushed = pda.pushFrames(o, frames, env);
+          this.walkBetween(ctx, ex[j], target, pushed, env);
+        }
+      }
+      const d = pda.dispatch(node, mode, true);
+      const bytes = d.bytes;
+      for (let i = 0; i < bytes.length; i++) {
+        const b = bytes[i];
+        if (!(pw && WORD[b])) {
+          const c = vt.childOf(0, b);
+          if (c >= 0) this.startTerminals(ctx, c, b, d, i, frames, env);
+        }
+        const more = vt.wsChildren[b];
+        for (let j = 0; j < more.length; j++) this.startTerminals(ctx, more[j], b, d, i, frames, env);
+      }
+      return;
+    }
+    const d = pda.dispatch(node, mode, false);
+    const { byte, end } = this;
+    const pw = WORD[byte[x]] === 1;
+    if (vt.wide[x] >= 0) {
+      // wide node: look up the few bytes that can begin a terminal
+      const bytes = d.bytes;
+      for (let i = 0; i < bytes.length; i++) {
+        const b = bytes[i];
+        if (pw && WORD[b]) continue;
+        const c = vt.childOf(x, b);
+        if (c >= 0) this.startTerminals(ctx, c, b, d, i, frames, env);
+      }
+      return;
+    }
+    // narrow node: one pass over the children
+    const space = this.rtn.space;
+    for (let c = x + 1, stop = end[x]; c < stop; c = end[c]) {
+      const b = byte[c];
+      if (space[b] || (pw && WORD[b])) continue;
+      const i = d.index[b];
+      if (i >= 0) this.startTerminals(ctx, c, b, d, i, frames, env);
+    }
+  }
+
+  /** Starts every option of dispatch entry i at trie node c (byte b) and walks below c. */
+  private startTerminals(ctx: WalkContext, c: number, b: number, d: Dispatch, i: number, frames: Frame | null, env: Env | null): void {
+    const pda = this.pda;
+    const a = this.a;
+    const end = this.end;
+    for (let k = d.off[i]; k < d.off[i + 1]; k++) {
+      const o = d.opts[k];
+      const term = a.optTerm[o];
+      const s = pda.startLex(term, b, env);
+      if (s === 0) continue;
+      const kind = this.rtn.terminals[term].kind;
+      const target = a.optTarget[o];
+      if (kind === 'lit' || kind === 'class' || kind === 'names') {
+        const rest = pda.nodeDist(target, env) + pda.pushedRest(o, frames, env);
+        ctx.markNode(c, pda.termDfa[term].minAccept[s] + rest);
+        if (end[c] > c + 1) this.walkLex(ctx, c, term, target, o, frames, env, s, rest);
+      } else {
+        const nt = new Thread(target, term, s, String.fromCharCode(b), pda.pushFrames(o, frames, env), env);
+        ctx.markNode(c, pda.threadDist(nt, WORD[b] === 1));
+        if (end[c] > c + 1) this.walkGeneric(ctx, c, nt);
+      }
+    }
+  }
+
+  /**
+   * Walks below x with a lit/class/names lexeme of terminal `term` in DFA state s, continuing at
+   * RTN node `node` once it ends; `rest` = the completion after the lexeme. The stack then is
+   * `frames` with the frames of option `o` pushed (o < 0: `frames` as is), built only when the
+   * lexeme ends inside a token and the walk goes on below (distances come from `rest`).
+   */
+  private walkLex(ctx: WalkContext, x: number, term: number, node: number, o: number, frames: Frame | null, env: Env | null, s: number, rest: number): void {
+    const dfa = this.pda.termDfa[term];
+    const { byte, end } = this;
+    if (x !== 0 && dfa.accept[s] && end[x] > x + 1) this.walkBetween(ctx, x, node, o < 0 ? frames : this.pda.pushFrames(o, frames, env), env);
+    const base = s * 256;
+    if (this.rtn.terminals[term].kind !== 'class' && this.vt.wide[x] >= 0) {
+      // literals and names continue with few bytes: look them up
+      for (let b = 0; b < 256; b++) {
+        const s2 = dfa.trans[base + b];
+        if (s2 === 0) continue;
+        const c = this.vt.childOf(x, b);
+        if (c < 0) continue;
+        ctx.markNode(c, dfa.minAccept[s2] + rest);
+        if (end[c] > c + 1) this.walkLex(ctx, c, term, node, o, frames, env, s2, rest);
+      }
+      return;
+    }
+    for (let c = x + 1, stop = end[x]; c < stop; c = end[c]) {
+      const s2 = dfa.trans[base + byte[c]];
+      if (s2 === 0) continue;
+      ctx.markNode(c, dfa.minAccept[s2] + rest);
+      if (end[c] > c + 1) this.walkLex(ctx, c, term, node, o, frames, env, s2, rest);
+    }
+  }
+
+  /** Walks below x with any thread, stepping it byte by byte (names, variables). */
+  private walkGeneric(ctx: WalkContext, x: number, th: Thread): void {
+    const pda = this.pda;
+    const { byte, end } = this;
+    const pw = x === 0 ? ctx.rootPrevWord : WORD[byte[x]] === 1;
+    const scratch = ctx.threads;
+    for (let c = x + 1, stop = end[x]; c < stop; c = end[c]) {
+      const base = scratch.length;
+      pda.stepThread(th, byte[c], pw, scratch);
+      const top = scratch.length;
+      for (let i = base; i < top; i++) {
+        const t2 = scratch[i];
+        ctx.markNode(c, pda.threadDist(t2, WORD[byte[c]] === 1));
+        if (end[c] > c + 1) this.walkGeneric(ctx, c, t2);
+      }
+      scratch.length = base;
+    }
+  }
+
+  /** OR inside[d] (or the budget level) into the mask; `noWordStart` removes word-start tokens. */
+  orInside(ctx: WalkContext, tables: ClassTables, d: number, room: number, noWordStart: boolean): void {
+    if (room < 0) return;
+    const km = tables.kmax[d];
+    let src: Uint32Array;
+    if (room >= km) src = tables.inside[d];
+    else if (room < MAX_LE) src = tables.le[d][room];
+    else {
+      this.orInsideSlow(ctx, tables, d, room, noWordStart);
+      return;
+    }
+    const top = room >= km ? km : room;
+    if (top + ctx.lim - room > ctx.maxSeen) ctx.maxSeen = top + ctx.lim - room;
+    ctx.orBits(src, noWordStart);
+  }
+
+  /** inside[d] token by token: the budget level is beyond the kept levels (room ≥ MAX_LE). */
+  private orInsideSlow(ctx: WalkContext, tables: ClassTables, d: number, room: number, noWordStart: boolean): void {
+    const v = this.vocab;
+    const src = tables.inside[d];
+    const ws = this.vt.wordStart;
+    const mask = ctx.mask;
+    for (let w = 0; w < src.length; w++) {
+      let word = src[w];
+      while (word !== 0) {
+        const low = word & -word;
+        const id = (w << 5) + (31 - Math.clz32(low));
+        word ^= low;
+        if (noWordStart && (ws[w] & low) !== 0) continue;
+        let s = d;
+        for (let i = v.offsets[id]; i < v.offsets[id + 1] && s !== 0; i++) s = wStep(tables, s, v.bytes[i]);
+        if (s !== 0 && wMinAccept(tables, s) <= room) mask[w] |= low;
+      }
+    }
+  }
+}
