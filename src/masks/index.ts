@@ -45,3 +45,4 @@ export function compileMasks(grammar: Grammar, vocabulary: Vocabulary, opts: Com
   return new MaskEngine(grammar, vocabulary, opts);
 }
 export { loadOrCompile, serializeEngine, deserializeEngine, cacheKey, defaultCacheDir, CacheError, CACHE_FORMAT, type LoadResult } from './cache.ts';
+export { measureAllocation, type AllocationFigures } from './measure.ts';

