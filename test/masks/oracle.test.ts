@@ -8,27 +8,14 @@
  * own tests (automaton/pda.test.ts, masks/walks.test.ts).
  */
 import { describe, expect, it } from 'vitest';
-import { mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
-import { tmpdir } from 'node:os';
-import { join } from 'node:path';
-import { loadGrammar } from '../../src/description/index.ts';
-import type { Grammar } from '../../src/description/ir.ts';
 import { compileMasks } from '../../src/masks/index.ts';
 import { createSampler, printTree } from '../../src/tree/index.ts';
 import { has } from '../../src/util/bitset.ts';
-import { GRAMMARS, grammar, namesFor, rng, ROOT, smallVocabulary, vocabulary, type GrammarName } from './helpers.ts';
+import { GRAMMARS, namesFor, oracleGrammar, rng, smallVocabulary, vocabulary } from './helpers.ts';
 import { NearleyOracle } from './oracle.ts';
 
 const utf8 = new TextEncoder();
 const strict = new TextDecoder('utf-8', { fatal: true });
-
-function oracleGrammar(name: GrammarName): Grammar {
-  if (name !== 'lf') return grammar(name);
-  const text = readFileSync(join(ROOT, 'grammars/lf/lf.twg'), 'utf8').replace(/: (new|bound) /g, ': ');
-  const file = join(mkdtempSync(join(tmpdir(), 'tw-oracle-')), 'lf-unscoped.twg');
-  writeFileSync(file, text);
-  return loadGrammar(file);
-}
 
 describe('mask equals brute force over the nearley oracle', () => {
   for (const name of GRAMMARS) {

