@@ -17,7 +17,8 @@ export interface TokenConstraint<S = unknown> {
    * Writes into `mask` (length ≥ ceil(vocabSize / 32), overwritten completely) the tokens allowed
    * after `state`. `budget` is the number of tokens that may still be emitted, the one being chosen
    * included (EOS counts as one); tokens after which the shortest completion cannot fit are not
-   * allowed. Allocation-free on the hot path.
+   * allowed. Called once per decoding step and hypothesis: implementations should not allocate per
+   * call (the mask engine's measured allocation per call: src/masks/constraint.ts).
    */
   writeAllowed(state: S, budget: number, mask: Uint32Array): void;
   /** The state after emitting token `id`; throws if `id` is not allowed in `state`. */
