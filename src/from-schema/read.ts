@@ -202,7 +202,12 @@ export class Reader {
       }
       present.add(e.key);
     }
-    if (present.has('$defs') && get('$defs')!.value.type !== 'object') bad('$defs', 'an object of schemas');
+    if (present.has('$defs')) {
+      const defs = get('$defs')!.value;
+      if (defs.type !== 'object') bad('$defs', 'an object of schemas');
+      // every definition is read (once), referenced or not: a problem in one is reported too
+      else for (const d of defs.entries) this.resolve(refTo([...at, '$defs', d.key]), null);
+    }
     for (const k of ['title', 'description', '$comment']) if (present.has(k) && get(k)!.value.type !== 'string') bad(k, 'a string');
 
     // ---- $ref
@@ -465,6 +470,11 @@ export class Reader {
 export function typeMatches(types: readonly TypeName[], v: JsonValue): boolean {
   const t = jsonTypeOf(v);
   return types.includes(t) || (t === 'integer' && types.includes('number'));
+}
+
+/** A `$ref` string for a location: a JSON Pointer (RFC 6901) in a URI fragment, segments percent-encoded. */
+function refTo(path: readonly (string | number)[]): string {
+  return '#' + path.map((p) => '/' + encodeURIComponent(String(p).replace(/~/g, '~0').replace(/\//g, '~1'))).join('');
 }
 
 /** The memo key of a pointer: its segments with percent-escapes decoded (two spellings, one Sem). */

@@ -184,6 +184,20 @@ hint: supported: type, enum, const, properties, required, additionalProperties (
   });
 });
 
+describe('anyOf', () => {
+  it('branches that print the same text are written once (the language is the same)', () => {
+    const { text } = fromSchema('{"anyOf":[{"type":"object","properties":{"a":{"type":"boolean"}},"required":["a"],"additionalProperties":false},{"type":"object","properties":{"b":{"type":"boolean"}},"required":["b"],"additionalProperties":false},{"type":"null"},{"enum":[null,1]}]}', { name: 'd' });
+    expect(text.slice(text.indexOf('sort D'), text.indexOf('sort Boolean'))).toBe(`sort D {
+  d_object(a: Boolean) = "{" ~"\\"a\\"" ~":" a ~"}";
+  d_object_2(b: Boolean) = "{" ~"\\"b\\"" ~":" b ~"}";
+  d_null() = "null";
+  d_4_number(value: D4Number) = value;
+}
+
+`);
+  });
+});
+
 describe('recursion', () => {
   it('a recursive schema becomes a recursive sort', () => {
     const { text } = fromSchema('{"oneOf":[{"type":"null"},{"type":"object","properties":{"next":{"$ref":"#"}},"required":["next"],"additionalProperties":false}]}', { name: 'chain' });
