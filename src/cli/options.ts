@@ -76,7 +76,7 @@ const collect = (value: string, previous: string[] | undefined): string[] => [..
 // ---------------------------------------------------------------------------------------------
 // the shared options (one definition and one help text each)
 
-const GRAMMAR_HELP = 'grammar description: a .twg file, or a shipped grammar by name (arith, json, lf, shed-commands, sql — found in the package, from any folder)';
+const GRAMMAR_HELP = 'grammar description: a .twg file, or a shipped grammar by name (arith, json, lf, shed_commands, sql — found in the package, from any folder)';
 
 export const opt = {
   /** `--grammar <g>`: mandatory, or repeatable (serve) */

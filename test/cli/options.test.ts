@@ -74,7 +74,7 @@ describe('shipped grammar names from a folder outside the project', () => {
     expect((await run(['parse', '--grammar', 'mine.twg', 'sum.arith'])).code).toBe(0);
     const bad = await run(['sample', '--grammar', 'nosuch']);
     expect(bad.code).toBe(1);
-    expect(bad.err).toBe("error: option '--grammar <g>' argument 'nosuch' is invalid. no such file, and no shipped grammar of that name; expected a .twg file or one of arith, json, lf, shed-commands, sql\n");
+    expect(bad.err).toBe("error: option '--grammar <g>' argument 'nosuch' is invalid. no such file, and no shipped grammar of that name; expected a .twg file or one of arith, json, lf, shed_commands, sql\n");
   });
 });
 

@@ -228,8 +228,8 @@ describe('oneOf exclusivity', () => {
 
 describe('treewright from-schema (a real process)', () => {
   it('writes the shipped demo description from the shipped schema, and fails with exit 1 on a bad schema', () => {
-    const out = execFileSync(process.execPath, ['src/cli/treewright.mjs', 'from-schema', 'grammars/shed-commands/shed-commands.schema.json'], { encoding: 'utf8' });
-    expect(out).toBe(readFileSync('grammars/shed-commands/shed-commands.twg', 'utf8'));
+    const out = execFileSync(process.execPath, ['src/cli/treewright.mjs', 'from-schema', 'grammars/shed_commands/shed_commands.schema.json'], { encoding: 'utf8' });
+    expect(out).toBe(readFileSync('grammars/shed_commands/shed_commands.twg', 'utf8'));
     const bad = spawnSync(process.execPath, ['src/cli/treewright.mjs', 'from-schema', '-'], { input: '{"type":"number","multipleOf":2}', encoding: 'utf8' });
     expect(bad.status).toBe(1);
     expect(bad.stdout).toBe('');
