@@ -17,14 +17,13 @@
  * complete within the budget.
  *
  * Allocation per `writeAllowed` (V8 heap bytes; the bench's `mask_alloc_bytes`, measured by
- * measure.ts — `npx treewright bench --all`, and `--grammar lf` for lf; llama3, 200 sampled
- * programs, 2026-12-02, 2 shared cores): the walks build no threads for BETWEEN positions and
- * push frames only where a walk continues below a lexeme end, so grammars without variables
- * (kept masks) allocate almost nothing — sql 17, json 4 bytes per mask on average (a few masks
- * build a frame or two); lf allocates 27,296 bytes per mask: its masks depend on the variables
- * in scope (no kept masks), and variable lexemes are walked by stepping threads byte by byte,
- * each step a new thread, its frames and variable list. `advance` allocates its new state (sql
- * 2,451, lf 1,025 bytes). Allocation-free lf walks are left to a later change.
+ * measure.ts; figures in docs/figures.md, `npx treewright bench --all --write-figures`, and
+ * `--grammar lf` for lf): the walks build no threads for BETWEEN positions and push frames only
+ * where a walk continues below a lexeme end, so grammars without variables (kept masks) allocate
+ * almost nothing (a few masks build a frame or two); lf allocates far more: its masks depend on
+ * the variables in scope (no kept masks), and variable lexemes are walked by stepping threads
+ * byte by byte, each step a new thread, its frames and variable list. `advance` allocates its new
+ * state.
  */
 import { INF, type AutomatonInstance, type PdaState } from '../automaton/internal.ts';
 import type { TokenConstraint } from '../util/constraint.ts';

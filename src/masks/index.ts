@@ -10,7 +10,7 @@
  *   c.writeAllowed(s, 64, mask);              // bit id set ⇔ token id keeps the output a program prefix
  *   s = c.advance(s, id);                 // persistent: the old s is still valid (beams, rollback)
  *
- * Design (DEVELOPERS.md, "Token masks"): per token-class DFA state, precomputed bitsets of the
+ * Design (docs/design/masks.md): per token-class DFA state, precomputed bitsets of the
  * tokens that stay inside the lexeme and the trie nodes where a lexeme can end inside a token; per
  * RTN node (and binding), a stack-independent "local mask" and the trie nodes where the rest of the
  * stack matters (kept likewise per class-lexeme state and per trie node below the root); everything
@@ -27,9 +27,9 @@
  *   kept.ts          kept masks: computed once per binding with the walkers, used by them
  *   cache.ts         the cache file
  * Worst-case cost per mask: O(threads × (bitset words × pop depth + trie nodes walked below pop
- * points and exit nodes)). Measured at 128k ids (llama3, SQL/JSON, `npm run bench`): median 2–7 µs,
- * p99 < 0.15 ms, 4,000–10,000× faster than trying every token; tables + local masks 0.3–0.4 s;
- * cache load ≈ 0.1 s (up to 0.3 s on a loaded machine); lf (scoping, no kept masks) median ≈ 27 µs.
+ * points and exit nodes)). Measured per-step times, the naive baseline, preprocessing and cache
+ * load: docs/figures.md (`npm run bench -- --write-figures`); lf (scoping, no kept masks) is the
+ * slowest shipped grammar.
  * Limits: see automaton/index.ts (regex subset, ambiguity cap); grammars with `new`/`bound` fields
  * walk instead of using local masks; masks follow token-class regexes, not value ranges.
  */

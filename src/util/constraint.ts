@@ -28,7 +28,7 @@ export interface TokenConstraint<S = unknown> {
   /**
    * Optional: a number of tokens (EOS included) that surely suffices to finish from `state`. With
    * `budget ≥ tokensToComplete(start)` at the first step, every output ends complete within the
-   * budget (the mask engine's bound: see DEVELOPERS.md, "Token masks").
+   * budget (the mask engine's bound: see docs/design/length-budget.md).
    */
   tokensToComplete?(state: S): number;
   /** Optional: false when no program starts with the text so far (e.g. after raw text was forced). */

