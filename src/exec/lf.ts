@@ -20,6 +20,7 @@
  * below the limit while unguarded nesting three deep over ~200 entities hits it, as intended.
  * Cost per step is a Map lookup at most; no allocation per step except variable binding.
  */
+import { jsonDepthProblem, MAX_JSON_DEPTH, tooDeepMessage } from '../util/depth.ts';
 import type { FactBase } from './facts.ts';
 import type { ExecContext, ExecResult, ExecuteFn, Tree } from './types.ts';
 
@@ -47,6 +48,9 @@ type Node = { readonly kind: string; readonly [field: string]: unknown };
 
 /** Evaluates one logical form; never throws for a bad program. */
 export function evaluateLf(facts: FactBase, tree: Tree, options: LfOptions = {}): ExecResult {
+  // the evaluator recurses once per level: deeper trees are refused first (src/util/depth.ts)
+  const deep = jsonDepthProblem(tree, MAX_JSON_DEPTH);
+  if (deep !== null) return { ok: false, error: `${tooDeepMessage(MAX_JSON_DEPTH)} (at ${deep})` };
   const ev = new Evaluator(facts, options.stepLimit ?? DEFAULT_STEP_LIMIT, options.rangeByClass ?? true);
   try {
     return { ok: true, value: ev.query(tree) };

@@ -11,7 +11,7 @@
 import Fastify, { type FastifyInstance } from 'fastify';
 import swagger from '@fastify/swagger';
 import { ServerContext, type ServerLimits, type ServerStats } from './context.ts';
-import { ApiError, bodyTooLarge, emptyBody, parseJsonBody, unsupportedMediaType, validationError, type AjvIssue } from './errors.ts';
+import { ApiError, bodyTooLarge, checkBodyDepth, emptyBody, parseJsonBody, unsupportedMediaType, validationError, type AjvIssue } from './errors.ts';
 import { Gate } from './gate.ts';
 import type { Registry } from './registry.ts';
 import * as check from './routes/check.ts';
@@ -24,6 +24,8 @@ import * as page from './routes/page.ts';
 import * as parse from './routes/parse.ts';
 import * as print from './routes/print.ts';
 import { sharedSchemas } from './schemas.ts';
+import { MAX_JSON_DEPTH } from '../util/depth.ts';
+import { pointerToPath } from '../util/json.ts';
 
 export type { ServerLimits, ServerStats } from './context.ts';
 
@@ -51,7 +53,7 @@ export async function buildServer(registry: Registry, limits: ServerLimits = {})
   app.removeAllContentTypeParsers();
   app.addContentTypeParser('application/json', { parseAs: 'string', bodyLimit }, (_req, body, done) => {
     try {
-      done(null, parseJsonBody(body as string));
+      done(null, checkBodyDepth(parseJsonBody(body as string)));
     } catch (e) {
       done(e as Error, undefined);
     }
@@ -64,12 +66,23 @@ export async function buildServer(registry: Registry, limits: ServerLimits = {})
     let e: ApiError;
     const fe = err as { code?: string; statusCode?: number; validation?: AjvIssue[]; message: string };
     if (err instanceof ApiError) e = err;
-    else if (fe.validation && fe.validation.length > 0) e = validationError(fe.validation[0]!, req.body);
+    else if (fe.validation && fe.validation.length > 0) {
+      try {
+        e = validationError(fe.validation[0]!, req.body);
+      } catch {
+        // describing the value failed (it should not: bodies are depth-checked); still our shape
+        const path = pointerToPath(fe.validation[0]!.instancePath);
+        e = new ApiError(400, 'invalid_request', `${path}: ${fe.validation[0]!.message ?? 'invalid value'}`, path);
+      }
+    }
     else if (fe.code === 'FST_ERR_CTP_BODY_TOO_LARGE') e = bodyTooLarge(bodyLimit);
     else if (fe.code === 'FST_ERR_CTP_INVALID_MEDIA_TYPE') e = unsupportedMediaType(req.headers['content-type'] ?? '');
     else if (fe.code === 'FST_ERR_CTP_EMPTY_JSON_BODY') e = emptyBody();
     else if (typeof fe.statusCode === 'number' && fe.statusCode >= 400 && fe.statusCode < 500) e = new ApiError(fe.statusCode, (fe.code ?? 'bad_request').toLowerCase(), fe.message);
-    else {
+    else if (err instanceof RangeError && /call stack/i.test(err.message)) {
+      // a stage recursed past the stack on input no limit caught: refused, not an internal error
+      e = new ApiError(400, 'too_deep', `request: nested too deeply to process (${err.message}); expected at most ${MAX_JSON_DEPTH} levels of JSON and programs within the parser's nesting limit`);
+    } else {
       req.log.error(err);
       e = new ApiError(500, 'internal', `internal error: ${fe.message}`);
     }

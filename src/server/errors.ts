@@ -4,6 +4,7 @@
  * `location` is `file:line:col` (a description, a program text) or a JSON path into the request
  * body (`$.tree.left`); `line`/`column` repeat the position for clients that mark it.
  */
+import { jsonDepthProblem, MAX_JSON_DEPTH, tooDeepMessage } from '../util/depth.ts';
 import { locateJsonError, pointerToPath, show } from '../util/json.ts';
 
 export class ApiError extends Error {
@@ -60,6 +61,16 @@ export function parseJsonBody(text: string): unknown {
     const where = `request body:${at.line}:${at.column}`;
     throw new ApiError(400, 'malformed_json', `${where}: ${at.message} (at offset ${at.offset})`, where, { line: at.line, column: at.column });
   }
+}
+
+/**
+ * Refuses a parsed body nested more than MAX_JSON_DEPTH deep (400 at the JSON path of the first
+ * value too deep), before schema validation, routes or error messages recurse into it.
+ */
+export function checkBodyDepth(body: unknown): unknown {
+  const path = jsonDepthProblem(body, MAX_JSON_DEPTH);
+  if (path !== null) throw new ApiError(400, 'too_deep', `${path}: ${tooDeepMessage(MAX_JSON_DEPTH)}`, path);
+  return body;
 }
 
 /** A request body was empty. */

@@ -39,6 +39,7 @@ import { grammarInfo, spellingToken, type GrammarInfo } from './info.ts';
 import { kindWords, lexemeToValue } from './lexeme.ts';
 import { RegexFeatureError, firstChars, isWordCode, lastChars, pairsOf, setComplement, setIntersect, setSize, setUnion, WORD, type CharSet, type Rx } from './regex.ts';
 import type { Tree, TreeValue } from './validate.ts';
+import { guardedMatch, nestingProblem } from './depth.ts';
 
 export interface ParseOptions {
   /** file name for messages (default `<input>`) */
@@ -611,13 +612,18 @@ export function createParser(grammar: Grammar): Parser {
     parse(text: string, opts?: string | ParseOptions): Tree {
       const o: ParseOptions = typeof opts === 'string' ? { file: opts } : (opts ?? {});
       const file = o.file ?? '<input>';
-      const m = b.ohmGrammar.match(text, 'Start');
-      if (m.failed()) throw syntaxError(b.generated, file, text, m);
-      const spans: SpanTable = new WeakMap();
-      const ctx = { file, text, spans };
-      const tree = (b.semantics(m) as unknown as { tree(ctx: unknown): Tree }).tree(ctx);
-      checkParsed(info, tree, o.names, ctx);
-      return tree;
+      try {
+        const m = guardedMatch(b.ohmGrammar, text, 'Start');
+        if (m.failed()) throw syntaxError(b.generated, file, text, m);
+        const spans: SpanTable = new WeakMap();
+        const ctx = { file, text, spans };
+        const tree = (b.semantics(m) as unknown as { tree(ctx: unknown): Tree }).tree(ctx);
+        checkParsed(info, tree, o.names, ctx);
+        return tree;
+      } catch (e) {
+        const deep = nestingProblem(e, text);
+        throw deep === null ? e : new ParseError(file, text, { start: deep.offset, end: deep.offset + 1 }, deep.message);
+      }
     },
   };
 }

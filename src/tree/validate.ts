@@ -8,6 +8,7 @@
 import type { Constructor, Field, Grammar, NameBindings } from '../description/ir.ts';
 import { grammarInfo, type GrammarInfo } from './info.ts';
 import { nameSpellingProblem, tokenValueProblem } from './lexeme.ts';
+import { jsonDepthProblem, MAX_JSON_DEPTH, tooDeepMessage } from '../util/depth.ts';
 
 export type TreeValue = Tree | string | number | null | readonly TreeValue[];
 export interface Tree {
@@ -56,11 +57,17 @@ export function show(v: unknown): string {
   return s.length > 40 ? s.slice(0, 37) + '...' : s;
 }
 
-/** Checks `value` against the grammar; returns the first problem (depth-first, field order) or null. */
+/**
+ * Checks `value` against the grammar; returns the first problem (depth-first, field order) or null.
+ * A value nested more than MAX_JSON_DEPTH arrays/objects deep is a problem at its deepest path.
+ */
 export function validateTree(grammar: Grammar, value: unknown, opts: ValidateOptions = {}): TreeIssue | null {
   const info = grammarInfo(grammar);
   const sort = opts.sort ?? grammar.start;
   if (!info.sort.has(sort)) return { path: '$', message: `unknown sort ${sort}` };
+  // the checks below recurse once per level: deeper values are refused first (src/util/depth.ts)
+  const deep = jsonDepthProblem(value, MAX_JSON_DEPTH);
+  if (deep !== null) return { path: deep, message: tooDeepMessage(MAX_JSON_DEPTH) };
   return checkNode(info, opts.names, value, sort, '$', []);
 }
 

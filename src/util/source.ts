@@ -18,6 +18,9 @@ export function lineColumn(text: string, offset: number): { line: number; column
   return { line, column: end - lineStart + 1 };
 }
 
+/** Longest excerpt line shown; longer lines are clipped around the column with `…`. */
+export const EXCERPT_WIDTH = 160;
+
 /**
  * A two-line excerpt for `span`: the numbered source line that holds `span.start`, and a marker
  * line with `^` under the first character and `~` under the rest of the span (clipped to the line).
@@ -36,6 +39,15 @@ export function excerpt(text: string, span: Span): string {
   if (source.endsWith('\r')) {
     source = source.slice(0, -1);
     lineEnd--;
+  }
+  // a long line (a minified program, a hostile request) is shown as a window around the column,
+  // so a message never grows with the input
+  if (source.length > EXCERPT_WIDTH) {
+    const from = Math.max(lineStart, Math.min(start - 60, lineEnd - EXCERPT_WIDTH));
+    const to = Math.min(lineEnd, from + EXCERPT_WIDTH);
+    source = (from > lineStart ? '…' : '') + text.slice(from, to) + (to < lineEnd ? '…' : '');
+    lineStart = from - (from > lineStart ? 1 : 0);
+    lineEnd = to;
   }
   const end = Math.max(start + 1, Math.min(span.end, lineEnd));
   let pad = '';
