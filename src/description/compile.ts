@@ -94,7 +94,8 @@ function distance(a: string, b: string): number {
   return d[a.length * w + b.length]!;
 }
 
-function suggest(name: string, candidates: Iterable<string>): string | null {
+/** The closest candidate within a third of the name's length in edits (at least one), or null. */
+export function suggest(name: string, candidates: Iterable<string>): string | null {
   let best: string | null = null;
   let bestD = Infinity;
   for (const c of candidates) {

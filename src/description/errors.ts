@@ -78,6 +78,48 @@ export const syntaxError = (at: At, expected: string, found: string) =>
     'see the reference section of README.md for the notation',
   );
 
+export const notADeclaration = (at: At, found: string, keywords: readonly string[], suggestion: string | null) =>
+  error(
+    'not-a-declaration',
+    at,
+    `${found} is not a declaration; expected ${keywords.length <= 1 ? keywords.join('') : keywords.slice(0, -1).join(', ') + ' or ' + keywords[keywords.length - 1]}`,
+    suggestion === null
+      ? 'every declaration after the `grammar` line begins with one of these words; see the reference section of README.md'
+      : `did you mean ${q(suggestion)}?`,
+  );
+
+export const unclosedString = (at: At) =>
+  error(
+    'unclosed-string',
+    at,
+    'string literal is not closed on its line',
+    'end it with `"`; a string literal stays on one line (write `\\n` for a line break, `\\"` for a quote)',
+  );
+
+export const unclosedRegex = (at: At) =>
+  error(
+    'unclosed-regex',
+    at,
+    'regular expression is not closed on its line',
+    'end it with `/`; write `\\/` for a slash inside it',
+  );
+
+export const unclosedRegexClass = (at: At) =>
+  error(
+    'unclosed-regex-class',
+    at,
+    'character class `[` is not closed on its line',
+    'end it with `]`; inside `[...]` a `/` does not end the regular expression, and `\\]` stands for a bracket',
+  );
+
+export const emptyRegex = (at: At) =>
+  error(
+    'empty-regex',
+    at,
+    'empty regular expression `//`',
+    'a token pattern needs at least one character between the slashes; comments start with `#`',
+  );
+
 export const badStringEscape = (at: At, detail: string) =>
   error('bad-string', at, `invalid string literal: ${detail}`, 'string literals use JSON escapes: \\" \\\\ \\/ \\b \\f \\n \\r \\t \\uXXXX');
 

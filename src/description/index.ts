@@ -37,18 +37,9 @@ import { buildGrammar } from './compile.ts';
 import * as E from './errors.ts';
 import { DescriptionError, formatDiagnostics, sortDiagnostics, type Diagnostic } from './errors.ts';
 import { parseNotation } from './notation.ts';
+import { notationSyntaxError } from './notation-errors.ts';
 
 export { DescriptionError, formatDiagnostic, formatDiagnostics, type Diagnostic } from './errors.ts';
-
-/** What ohm stopped at, in words: the word or character at `offset`, or the end of the file. */
-function foundAt(text: string, offset: number): { found: string; end: number } {
-  if (offset >= text.length) return { found: 'the end of the file', end: offset };
-  const ch = text[offset]!;
-  if (ch === '\n' || ch === '\r') return { found: 'the end of the line', end: offset + 1 };
-  const word = /^[A-Za-z0-9_]+/.exec(text.slice(offset, offset + 64));
-  if (word) return { found: '`' + word[0] + '`', end: offset + word[0].length };
-  return { found: '`' + ch + '`', end: offset + 1 };
-}
 
 type Compiled = { grammar: Grammar | null; diagnostics: Diagnostic[] };
 
@@ -77,11 +68,7 @@ export function compileDescription(text: string, file: string): Compiled {
 function compileUncached(text: string, file: string): Compiled {
   const parsed = parseNotation(text);
   if (!parsed.ok) {
-    const { found, end } = foundAt(text, parsed.offset);
-    return {
-      grammar: null,
-      diagnostics: [E.syntaxError({ file, span: { start: parsed.offset, end } }, parsed.expected, found)],
-    };
+    return { grammar: null, diagnostics: [notationSyntaxError(text, file, parsed.offset, parsed.failures)] };
   }
   const hash = createHash('sha256').update(text, 'utf8').digest('hex');
   const built = buildGrammar(parsed.ast, text, file, hash);

@@ -221,15 +221,34 @@ semantics.addOperation<unknown>('ast', {
   },
 });
 
+/** One of ohm's rightmost failures: literal text (type `string`) or a rule's description, and whether ohm counts it as fluffy (not worth listing). */
+export interface NotationFailure {
+  readonly type: string;
+  readonly text: string;
+  readonly fluffy: boolean;
+}
+
 export type ParseOutcome =
   | { readonly ok: true; readonly ast: DescriptionAst }
-  | { readonly ok: false; readonly offset: number; readonly expected: string };
+  | { readonly ok: false; readonly offset: number; readonly failures: readonly NotationFailure[] };
 
-/** Matches `text` against the notation; on failure returns the rightmost failure offset and ohm's expected text. */
+// ohm 17 has these on failure records; its typings omit them
+type OhmFailure = { getType(): string; getText(): string; isFluffy(): boolean };
+
+/**
+ * Matches `text` against the notation; on failure returns the rightmost failure offset and ohm's
+ * failure records there (worded for users by notation-errors.ts, never shown as they are).
+ */
 export function parseNotation(text: string): ParseOutcome {
   const match = notation.match(text);
   if (match.failed()) {
-    return { ok: false, offset: match.getRightmostFailurePosition(), expected: match.getExpectedText() };
+    const records = (match as unknown as { getRightmostFailures(): OhmFailure[] }).getRightmostFailures();
+    const failures = records.map((f) => ({
+      type: f.getType(),
+      text: f.getText(),
+      fluffy: f.isFluffy(),
+    }));
+    return { ok: false, offset: match.getRightmostFailurePosition(), failures };
   }
   return { ok: true, ast: semantics(match).ast() as DescriptionAst };
 }

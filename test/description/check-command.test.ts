@@ -88,13 +88,13 @@ describe('treewright check', () => {
       errors: [
         {
           code: 'syntax',
-          message: 'expected ";", "@", a name, a string literal, or "[", found `}`',
+          message: 'expected ";", "@", a name, a string literal or "[", found `}`',
           file: p,
           line: 4,
           column: 31,
           hint: 'see the reference section of README.md for the notation',
           text: [
-            `${p}:4:31: error: expected ";", "@", a name, a string literal, or "[", found \`}\``,
+            `${p}:4:31: error: expected ";", "@", a name, a string literal or "[", found \`}\``,
             '4 | sort Tree { apple() = "apple" }',
             '  |                               ^',
             'hint: see the reference section of README.md for the notation',

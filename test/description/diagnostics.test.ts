@@ -18,7 +18,7 @@ describe('diagnostics', () => {
     const text = lines("grammar g", "start A", "space \" \"", "sort A {", "  a() = \"x\"", "}", '');
     expect(report(text)).toBe(
       lines(
-        "g.twg:6:1: error: expected \";\", \"@\", a name, a string literal, or \"[\", found `}`",
+        "g.twg:6:1: error: expected \";\", \"@\", a name, a string literal or \"[\", found `}`",
         "6 | }",
         "  | ^",
         "hint: see the reference section of README.md for the notation",
