@@ -4,8 +4,8 @@
  * tree and an SQL tree that mean the same thing on the demo database.
  */
 import type Database from 'better-sqlite3';
-import { mulberry32 } from '../tree/index.ts';
-import { CLASSES, type EntityClass, MEASURES, type MeasureInfo, SUBCLASSES, constantOf } from './lexicon.ts';
+import { mulberry32 } from '../util/random.ts';
+import { CLASSES, type EntityClass, MEASURES, type MeasureInfo, SUBCLASSES, constantOf } from '../exec/lexicon.ts';
 import {
   CMP,
   MONTHS,

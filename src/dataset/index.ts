@@ -8,7 +8,7 @@
  *    "lf":"lambda $x. orchard($x) & altitude($x) > 400 & owns(mara_feldwick, $x)",
  *    "template":"which:orchard:cmp+rel","depth":1}
  * from synchronous templates (generate.ts) over the demo database (grammars/sql/coop.sql), with the
- * meaning of every LF name written down in lexicon.ts. Both programs are built as trees and printed
+ * meaning of every LF name written down in src/exec/lexicon.ts. Both programs are built as trees and printed
  * canonically; every SQL query is run on the demo database while building (questions whose answer
  * would be empty or ambiguous are dropped).
  *
@@ -29,7 +29,7 @@ import { type Example, type Form, Generator, Rng, loadWorld, templateName } from
 import { loadGrammar } from '../description/index.ts';
 import type { Grammar, NameBindings } from '../description/ir.ts';
 import { createParser, printTree, validateTree } from '../tree/index.ts';
-import { CLASSES, MEASURES, RELATIONS, SUBCLASSES, constantOf } from './lexicon.ts';
+import { CLASSES, MEASURES, RELATIONS, SUBCLASSES, constantOf } from '../exec/lexicon.ts';
 
 export const DEFAULT_SEED = 20261201;
 

@@ -2,7 +2,7 @@
  * English phrasings of described sets and restrictions, several per construction. Templates may
  * contain `{plural|singular}` agreement alternatives; `{v}`, `{lo}`, `{hi}`, `{t}`, `{s}` are slots.
  */
-import type { EntityClass } from './lexicon.ts';
+import type { EntityClass } from '../exec/lexicon.ts';
 import type { Desc, Mod, Target } from './semantics.ts';
 import type { CmpName } from './trees.ts';
 

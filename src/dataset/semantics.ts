@@ -11,7 +11,7 @@ import {
   measure,
   relation,
   subclass,
-} from './lexicon.ts';
+} from '../exec/lexicon.ts';
 import { type CmpName, lf, type Node, sql } from './trees.ts';
 
 /** The other side of a relation: a named entity (or village), or a described set. */

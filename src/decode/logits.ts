@@ -2,7 +2,7 @@
  * Allocation-free helpers over one row of logits (`row` starts at `off`, `n` entries).
  * Keep in sync with src/decode/hook.ts, which applies the same mask to transformers.js tensors.
  */
-import { mulberry32 } from '../tree/sample.ts';
+import { mulberry32 } from '../util/random.ts';
 
 /** Sets every entry whose bit is clear in `mask` to −Infinity (bit `i & 31` of word `i >>> 5`). */
 export function applyMask(logits: Float32Array, off: number, n: number, mask: Uint32Array): void {

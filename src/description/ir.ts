@@ -13,11 +13,9 @@
  * The IR is immutable after compilation: stages must not mutate it.
  */
 
-/** A half-open range of UTF-16 offsets into the description source. */
-export interface Span {
-  readonly start: number;
-  readonly end: number;
-}
+/** A half-open range of UTF-16 offsets into the description source (defined in util/source.ts). */
+export type { Span } from '../util/source.ts';
+import type { Span } from '../util/source.ts';
 
 /** How a lexeme of a token class becomes a value in a JSON tree (and back, when printing). */
 export type ValueKind =

@@ -12,6 +12,7 @@
 import { existsSync, readFileSync, writeFileSync } from 'node:fs';
 import { dirname, join } from 'node:path';
 import { createRequire } from 'node:module';
+import { formatAnswer } from '../exec/answer.ts';
 import type { Metrics, ModeMetrics, RateMetric, TaxonomyEntry } from './metrics.ts';
 import { RATE_METRICS } from './metrics.ts';
 import type { EvalRow, Mode } from './run.ts';
@@ -118,27 +119,6 @@ function taxonomyTable(entries: readonly TaxonomyEntry[], mode: Mode, shown: Rea
   return `<table class="taxonomy" data-mode="${mode}"><thead><tr><th>where it first went wrong</th><th>count</th><th>share</th><th>example</th></tr></thead><tbody>
 ${entries.map((e) => `<tr><td><code>${esc(e.category)}</code></td><td class="count">${e.count}</td><td>${pct(e.count / total)}</td><td>${shown.has(e.example) ? `<a href="#card-${esc(e.example)}">${esc(e.example)}</a>` : esc(e.example)}</td></tr>`).join('\n')}
 </tbody></table>`;
-}
-
-/** Formats an executor's answer briefly (LF answers, SQL rows, anything else as JSON). */
-export function formatAnswer(v: unknown): string {
-  if (v === null || v === undefined) return '–';
-  if (typeof v === 'object') {
-    const o = v as Record<string, unknown>;
-    if ((o.type === 'set' || o.type === 'best') && Array.isArray(o.members)) {
-      const m = o.members as string[];
-      return `{${m.slice(0, 8).join(', ')}${m.length > 8 ? `, … ${m.length - 8} more` : ''}}`;
-    }
-    if (o.type === 'number') return String(o.value);
-    if (o.type === 'truth') return o.value ? 'yes' : 'no';
-    if (Array.isArray(o.rows)) {
-      const rows = o.rows as unknown[][];
-      const shown = rows.slice(0, 5).map((r) => r.map((x) => String(x)).join(' | '));
-      return `${rows.length} row${rows.length === 1 ? '' : 's'}: ${shown.join('; ')}${rows.length > 5 ? '; …' : ''}`;
-    }
-  }
-  const s = JSON.stringify(v);
-  return s.length > 200 ? s.slice(0, 197) + '...' : s;
 }
 
 /**

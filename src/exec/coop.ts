@@ -1,7 +1,7 @@
 /**
  * The demo cooperative, one source of truth for both executors: `buildCoop` runs
  * grammars/sql/coop.sql into a SQLite file and reads the same rows back into the logical-form
- * fact base, through the dataset's lexicon (src/dataset/lexicon.ts) — so the SQL executor and the
+ * fact base, through the demo scenario's lexicon (lexicon.ts, shared with the training-data generator) — so the SQL executor and the
  * LF executor answer over identical facts.
  *
  * Fact base (from the lexicon's tables):
@@ -14,7 +14,7 @@
  * Cost: one pass over each table; the demo has under 300 rows.
  */
 import Database from 'better-sqlite3';
-import { CLASSES, MEASURES, RELATIONS, SUBCLASSES, type EntityClass, constantOf } from '../dataset/lexicon.ts';
+import { CLASSES, MEASURES, RELATIONS, SUBCLASSES, type EntityClass, constantOf } from './lexicon.ts';
 import { buildSqliteFileFrom } from './database.ts';
 import { makeFactBase, type FactBase } from './facts.ts';
 import type { LfAnswer } from './lf.ts';

@@ -16,7 +16,7 @@
  * killed and restarted, ~100 ms); LF — at most `stepLimit` node visits (default 1,000,000, about
  * 0.1–0.3 s), then an error.
  * Limits: SQL runs one query at a time per runner; answers larger than the row cap are errors.
- * The LF fact base is built through the demo dataset's lexicon, so the shipped LF executor knows
+ * The LF fact base is built through the demo scenario's lexicon (lexicon.ts), so the shipped LF executor knows
  * the cooperative's schema only; other domains plug in their own executor module.
  *
  * A user's executor is an ES module exporting `execute(tree, context)` (contract in types.ts);
@@ -28,6 +28,7 @@ import { pathToFileURL } from 'node:url';
 import type { ExecuteFn } from './types.ts';
 
 export type { ExecContext, ExecResult, ExecuteFn, Tree } from './types.ts';
+export { formatAnswer, formatResult } from './answer.ts';
 export { SqlRunner, checkSelectTree, sqlExecutor, type SqlRunnerOptions } from './sql.ts';
 export { evaluateLf, lfExecutor, DEFAULT_STEP_LIMIT, type LfAnswer, type LfOptions } from './lf.ts';
 export { makeFactBase, factNames, type FactBase, type FactsInput } from './facts.ts';

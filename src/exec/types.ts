@@ -19,9 +19,10 @@
  * a closed-world fact base). `loadExecutor(path)` in index.ts loads a user's module.
  */
 import type { Grammar } from '../description/ir.ts';
+import type { Tree } from '../tree/index.ts';
 
-/** A JSON tree node: `{ kind: "ctor", field: value, ... }`. */
-export type Tree = { readonly kind: string; readonly [field: string]: unknown };
+/** A JSON tree node: `{ kind: "ctor", field: value, ... }` (the tree stage's one `Tree` type). */
+export type { Tree };
 
 export interface ExecContext {
   readonly grammar?: Grammar;

@@ -35,7 +35,8 @@
 export { validateTree, assertTree, TreeError, type Tree, type TreeValue, type TreeIssue, type ValidateOptions } from './validate.ts';
 export { printTree, printTokens } from './print.ts';
 export { createParser, ParseError, GrammarFeatureError, type Parser, type ParseOptions } from './parse.ts';
-export { sampleTree, createSampler, mulberry32, SampleError, type Sampler, type SampleOptions } from './sample.ts';
+export { mulberry32 } from '../util/random.ts';
+export { sampleTree, createSampler, SampleError, type Sampler, type SampleOptions } from './sample.ts';
 export { toJsonSchema } from './schema.ts';
 export { loadNames, namesFromDatabase, namesFromJson, checkNames, NamesError } from './names.ts';
 export { valueToLexeme, lexemeToValue } from './lexeme.ts';

@@ -7,7 +7,7 @@ import Database from 'better-sqlite3';
 import type { Grammar, NameBindings } from '../description/ir.ts';
 import { grammarInfo } from './info.ts';
 import { nameSpellingProblem } from './lexeme.ts';
-import { pathKey, show } from './validate.ts';
+import { pathKey, show } from '../util/json.ts';
 
 /** A names file or database that cannot be used; `message` names the file and the JSON path. */
 export class NamesError extends Error {

@@ -19,6 +19,7 @@ import type { Constructor, Field, Grammar, NameBindings } from '../description/i
 import { grammarInfo, type GrammarInfo, type TokenInfo } from './info.ts';
 import { lexemeToValue, nameSpellingProblem, tokenValueProblem, type TokenValue } from './lexeme.ts';
 import { generate } from './regex.ts';
+import { mulberry32 } from '../util/random.ts';
 import type { Tree, TreeValue } from './validate.ts';
 
 export interface SampleOptions {
@@ -45,22 +46,6 @@ export class SampleError extends Error {
     super(message);
     this.name = 'SampleError';
   }
-}
-
-/**
- * mulberry32: a 32-bit-state PRNG (Tommy Ettinger's public-domain generator, from memory; common
- * practice for small reproducible streams, not cryptographic). Returns floats in [0, 1).
- * Hand-written because it is eight lines and the seed → stream mapping must never change.
- */
-export function mulberry32(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
 }
 
 /** One tree (the first of the stream for `seed`). */

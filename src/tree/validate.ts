@@ -9,6 +9,7 @@ import type { Constructor, Field, Grammar, NameBindings } from '../description/i
 import { grammarInfo, type GrammarInfo } from './info.ts';
 import { nameSpellingProblem, tokenValueProblem } from './lexeme.ts';
 import { jsonDepthProblem, MAX_JSON_DEPTH, tooDeepMessage } from '../util/depth.ts';
+import { pathKey, show } from '../util/json.ts';
 
 export type TreeValue = Tree | string | number | null | readonly TreeValue[];
 export interface Tree {
@@ -37,24 +38,6 @@ export class TreeError extends Error {
     this.name = 'TreeError';
     this.issue = issue;
   }
-}
-
-/** A JSON path step: `.name` for identifiers, `["odd key"]` otherwise. */
-export function pathKey(path: string, key: string): string {
-  return /^[A-Za-z_$][A-Za-z0-9_$]*$/.test(key) ? `${path}.${key}` : `${path}[${JSON.stringify(key)}]`;
-}
-
-/** A short rendering of a JSON value for messages. */
-export function show(v: unknown): string {
-  if (v === undefined) return 'nothing';
-  if (Array.isArray(v)) return 'an array';
-  if (v !== null && typeof v === 'object') {
-    const kind = (v as { kind?: unknown }).kind;
-    return typeof kind === 'string' ? `node ${JSON.stringify(kind)}` : 'an object without "kind"';
-  }
-  if (typeof v === 'number' && Object.is(v, -0)) return '-0';
-  const s = JSON.stringify(v) ?? String(v);
-  return s.length > 40 ? s.slice(0, 37) + '...' : s;
 }
 
 /**

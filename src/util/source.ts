@@ -1,8 +1,13 @@
 /**
- * Source positions. Every stage stores positions as UTF-16 offsets (see Span in description/ir.ts);
- * line and column are computed here, only when a message is printed.
+ * Source positions. Every stage stores positions as UTF-16 offsets (a `Span`); line and column are
+ * computed here, only when a message is printed.
  */
-import type { Span } from '../description/ir.ts';
+
+/** A half-open range of UTF-16 offsets into a source text (a description, a schema, a program). */
+export interface Span {
+  readonly start: number;
+  readonly end: number;
+}
 
 /** 1-based line and column of `offset` in `text` (column counts UTF-16 units; offsets past the end clamp). */
 export function lineColumn(text: string, offset: number): { line: number; column: number } {

@@ -6,7 +6,8 @@
  * Strip, WordPiece, BPEDecoder, Sequence of these, and no decoder at all (pieces joined with one
  * space, as Hugging Face tokenizers do). Anything else is a VocabularyError naming the field.
  */
-import { VocabularyError, pathKey, show, typeName } from './errors.ts';
+import { VocabularyError, typeName } from './errors.ts';
+import { pathKey, show } from '../util/json.ts';
 
 /** GPT-2's byte ↔ unicode table (from memory of the GPT-2 `bytes_to_unicode` function). */
 function byteLevelTable(): Map<number, number> {

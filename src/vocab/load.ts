@@ -6,7 +6,8 @@ import { existsSync, readFileSync } from 'node:fs';
 import { dirname, join } from 'node:path';
 import { set, words } from '../util/bitset.ts';
 import { compileDecoder } from './decoder.ts';
-import { VocabularyError, jsonSyntaxPosition, pathKey, show, typeName } from './errors.ts';
+import { VocabularyError, typeName } from './errors.ts';
+import { locateJsonError, pathKey, show } from '../util/json.ts';
 import { Vocabulary, type ModelType } from './vocabulary.ts';
 
 /** Largest accepted token id + 1 (4,194,304; real vocabularies are ≤ 262,144 today). */
@@ -35,8 +36,9 @@ function parseJson(text: string, file: string): unknown {
   try {
     return JSON.parse(text);
   } catch {
-    const { line, col, expected } = jsonSyntaxPosition(text);
-    throw new VocabularyError(file, `${line}:${col}`, `malformed JSON; expected ${expected}`);
+    const where = locateJsonError(text);
+    if (where === null) throw new VocabularyError(file, '1:1', 'malformed JSON; expected a JSON text');
+    throw new VocabularyError(file, `${where.line}:${where.column}`, `malformed JSON; ${where.message}`);
   }
 }
 

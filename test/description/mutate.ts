@@ -4,7 +4,7 @@
  */
 
 /** mulberry32: a small 32-bit PRNG (common practice, no source); returns floats in [0, 1). */
-import { mulberry32 as rng } from '../../src/tree/sample.ts';
+import { mulberry32 as rng } from '../../src/util/random.ts';
 export { rng };
 
 const PUNCTUATION = '{}[]()";:,=@~?*+/#\\|$-.\'`!<>';

@@ -1,5 +1,6 @@
 import { describe, expect, it } from 'vitest';
-import { formatAnswer, markText, pct, pp, pval, tokenSpan } from '../../src/eval/report.ts';
+import { markText, pct, pp, pval, tokenSpan } from '../../src/eval/report.ts';
+import { formatAnswer } from '../../src/exec/answer.ts';
 
 describe('report helpers', () => {
   it('finds the token that holds an offset, with the leading space the decoder dropped', () => {
@@ -26,6 +27,8 @@ describe('report helpers', () => {
     expect(pval(0.0078125)).toBe('0.00781');
     expect(formatAnswer({ type: 'set', members: ['a', 'b'] })).toBe('{a, b}');
     expect(formatAnswer({ type: 'truth', value: false })).toBe('no');
-    expect(formatAnswer({ columns: ['n'], rows: [[3]] })).toBe('1 row: 3');
+    expect(formatAnswer({ columns: ['n'], rows: [[3]] })).toBe('3');
+    expect(formatAnswer({ columns: ['n', 'm'], rows: [[3, 4]] })).toBe('1 row: 3 | 4');
+    expect(formatAnswer({ columns: ['n'], rows: [] })).toBe('0 rows');
   });
 });

@@ -5,7 +5,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { buildCoop } from '../../src/exec/coop.ts';
 import { factNames } from '../../src/exec/facts.ts';
-import { constantOf } from '../../src/dataset/lexicon.ts';
+import { constantOf } from '../../src/exec/lexicon.ts';
 
 const dir = mkdtempSync(join(tmpdir(), 'tw-coop-'));
 afterAll(() => rmSync(dir, { recursive: true, force: true }));

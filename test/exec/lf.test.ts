@@ -6,16 +6,17 @@ import { join } from 'node:path';
 import { buildSqliteFileFrom } from '../../src/exec/database.ts';
 import { factNames, makeFactBase } from '../../src/exec/facts.ts';
 import { evaluateLf } from '../../src/exec/lf.ts';
+import type { Tree } from '../../src/tree/index.ts';
 
 // Trees are written as JSON (the README's tree format for grammars/lf/lf.twg).
-const v = (name: string) => ({ kind: 'var', name });
-const c = (name: string) => ({ kind: 'const', name });
-const is = (cls: string, arg: object) => ({ kind: 'is', class: cls, arg });
-const rel = (r: string, subject: object, object: object) => ({ kind: 'rel', rel: r, subject, object });
-const and = (left: object, right: object) => ({ kind: 'and', left, right });
-const lit = (value: number) => ({ kind: 'literal', value });
-const cmp = (left: object, op: string, right: object) => ({ kind: 'compare', left, op: { kind: op }, right });
-const meas = (fn: string, arg: object) => ({ kind: 'measure', fn, arg });
+const v = (name: string): Tree => ({ kind: 'var', name });
+const c = (name: string): Tree => ({ kind: 'const', name });
+const is = (cls: string, arg: Tree): Tree => ({ kind: 'is', class: cls, arg });
+const rel = (r: string, subject: Tree, object: Tree): Tree => ({ kind: 'rel', rel: r, subject, object });
+const and = (left: Tree, right: Tree): Tree => ({ kind: 'and', left, right });
+const lit = (value: number): Tree => ({ kind: 'literal', value });
+const cmp = (left: Tree, op: string, right: Tree): Tree => ({ kind: 'compare', left, op: { kind: op }, right });
+const meas = (fn: string, arg: Tree): Tree => ({ kind: 'measure', fn, arg });
 
 const small = makeFactBase({
   entities: ['ann', 'bo', 'cy', 'pear_tree', 'plum_tree'],
@@ -65,7 +66,7 @@ describe('evaluateLf on a small model', () => {
 
   it('stops past the step limit instead of running on', () => {
     // 5 entities, four nested binders over a body that is never true: 5^4 bodies of 4 steps each
-    let body: object = { kind: 'not', operand: { kind: 'equal', left: v('$a'), right: v('$d') } };
+    let body: Tree = { kind: 'not', operand: { kind: 'equal', left: v('$a'), right: v('$d') } };
     body = { kind: 'not', operand: { kind: 'or', left: body, right: { kind: 'equal', left: v('$a'), right: v('$d') } } };
     for (const x of ['$d', '$c', '$b']) body = { kind: 'exists', var: x, body };
     const tree = { kind: 'lambda', var: '$a', body };

@@ -123,5 +123,5 @@ export function smallVocabulary(pieces: readonly Uint8Array[]): Vocabulary {
 }
 
 /** Deterministic PRNG (mulberry32, common practice, no source). */
-import { mulberry32 as rng } from '../../src/tree/sample.ts';
+import { mulberry32 as rng } from '../../src/util/random.ts';
 export { rng };

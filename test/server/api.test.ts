@@ -262,7 +262,7 @@ describe('POST /api/execute', () => {
   it('runs LF over the fact base; the same question in SQL gives the same growers', async () => {
     const r = (await post('/api/execute', { grammar: 'lf', text: 'lambda $x. grower($x) & lives_in($x, oakmere)' })).json();
     expect(r.value.type).toBe('set');
-    // the lexicon's constant convention: lower case, spaces to underscores (src/dataset/lexicon.ts)
+    // the lexicon's constant convention: lower case, spaces to underscores (src/exec/lexicon.ts)
     const db = new Database(registry.dbPath, { readonly: true });
     const names = (db.prepare("SELECT name FROM growers WHERE village = 'Oakmere'").pluck().all() as string[]).map((n) => n.toLowerCase().replace(/ /g, '_'));
     db.close();

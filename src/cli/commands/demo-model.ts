@@ -14,7 +14,7 @@ import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import type { Grammar, NameBindings } from '../../description/ir.ts';
 import { generate, type GenerateResult } from '../../decode/index.ts';
-import { evaluateLf, factNames, factsFromDatabase, SqlRunner, sqlExecutor, type ExecResult, type FactBase } from '../../exec/index.ts';
+import { evaluateLf, factNames, factsFromDatabase, SqlRunner, sqlExecutor, formatResult, type FactBase } from '../../exec/index.ts';
 import { loadModel } from '../../model/index.ts';
 import type { DemoContext, DemoSection } from './demo-context.ts';
 
@@ -46,25 +46,6 @@ function readRows(split: string): Map<string, Row> {
     rows.set(row.id, row);
   }
   return rows;
-}
-
-/** A short, one-line rendering of an executor's answer. */
-export function formatAnswer(result: ExecResult): string {
-  if (!result.ok) return `error: ${result.error}`;
-  const value = result.value as
-    | { columns?: readonly string[]; rows?: readonly (readonly unknown[])[] }
-    | { type: string; members?: readonly string[]; value?: unknown };
-  const clip = (items: readonly string[]) =>
-    items.length > 6 ? `${items.slice(0, 6).join(', ')}, … (${items.length} in all)` : items.join(', ');
-  if ('rows' in value && value.rows) {
-    const cells = value.rows.map((r) => r.map((c) => String(c)).join(' | '));
-    return cells.length === 0 ? '(no rows)' : clip(cells);
-  }
-  if ('type' in value) {
-    if (value.type === 'set' || value.type === 'best') return value.members!.length === 0 ? '(nobody)' : clip(value.members!);
-    return String(value.value);
-  }
-  return JSON.stringify(value);
 }
 
 export const modelSection: DemoSection = {
@@ -107,7 +88,7 @@ export const modelSection: DemoSection = {
           out(`                  ${verdict} (${timing})`);
           if (r.well_typed && r.tree) {
             const answer = target === 'sql' ? await runSql(r.tree, {}) : evaluateLf(facts, r.tree);
-            out(`                  answer: ${formatAnswer(answer)}`);
+            out(`                  answer: ${formatResult(answer)}`);
           }
         }
       }
