@@ -120,7 +120,7 @@ export const opt = {
   inputPrefix: () =>
     new Option('--prefix <text>', 'text put before each question (default: the model config\'s treewright.prefixes[grammar name], else "to <grammar name>: "; not repeated when the question starts with it)'),
   /** `--cache <dir>`; resolve the value with maskCacheDir (keep the help in sync with defaultCacheDir in src/masks/cache.ts) */
-  cache: () => new Option('--cache <dir>', 'mask cache folder (default: treewright-cache in the temporary directory)'),
+  cache: () => new Option('--cache <dir>', 'mask cache folder (default: treewright/masks in the per-user cache folder, $XDG_CACHE_HOME or ~/.cache; created private, mode 0700)'),
   /** `--no-cache` */
   noCache: () => new Option('--no-cache', 'leave the mask cache folder alone: compute the masks afresh'),
 };

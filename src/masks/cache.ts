@@ -2,7 +2,8 @@
  * The mask cache: compiled grammar × vocabulary index in one file, keyed by both content hashes.
  *
  * Key: sha256 of (format, the description text, the tokenizer.json bytes, the tokenizer_config.json
- * bytes beside it if any). File: `<dir>/<key>.twmask` (default dir `os.tmpdir()/treewright-cache`).
+ * bytes beside it if any). File: `<dir>/<key>.twmask` in a private per-user folder (default
+ * `$XDG_CACHE_HOME/treewright/masks`; how files are created, read and sealed: cache-files.ts).
  *
  * Layout (little-endian; every section starts on a 4-byte boundary):
  *   "TWMASK01"                      magic (8 bytes)
@@ -13,26 +14,27 @@
  *   sha256 of everything above except the vocabulary section (it has its own)  (32 bytes)
  * The automaton itself is rebuilt from the description (milliseconds); per-binding local masks
  * are not cached (computed on first use, ~0.1 s for the shipped grammars).
- * A damaged or foreign file is reported (CacheError) and rebuilt by `loadOrCompile`.
+ * On disk the file is followed by an HMAC-SHA256 seal under the folder's secret (cache-files.ts).
+ * Loading treats the content as untrusted even when sealed: every table is bounds-checked against
+ * the vocabulary and the DFAs it claims (ids below the vocabulary size, no bits past it, states in
+ * range). A damaged or foreign file is reported (CacheError) and rebuilt by `loadOrCompile`.
  */
 import { createHash } from 'node:crypto';
-import { existsSync, mkdirSync, readFileSync, renameSync, writeFileSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { existsSync, readFileSync } from 'node:fs';
 import { dirname, join } from 'node:path';
 import type { Grammar } from '../description/ir.ts';
 import { deserializeVocabulary, loadVocabulary, VocabularyError, type Vocabulary } from '../vocab/index.ts';
 import { MaskEngine } from './engine.ts';
 import { MAX_LE, type ClassTables } from './class-tables.ts';
 import { Automaton, type ByteDfa } from '../automaton/internal.ts';
+import { CacheFileError, defaultCacheDir, folderSecret, privateDir, readSealed, writeSealed } from './cache-files.ts';
 
 export const CACHE_FORMAT = 'TWMASK01';
 const MAGIC = Buffer.from(CACHE_FORMAT, 'latin1');
 
 export class CacheError extends Error {}
 
-export function defaultCacheDir(): string {
-  return join(tmpdir(), 'treewright-cache');
-}
+export { defaultCacheDir };
 
 /** The cache key of a description text and a tokenizer file (plus its tokenizer_config.json). */
 export function cacheKey(grammarText: string, tokenizerPath: string): string {
@@ -42,6 +44,13 @@ export function cacheKey(grammarText: string, tokenizerPath: string): string {
   const config = join(dirname(tokenizerPath), 'tokenizer_config.json');
   if (existsSync(config)) h.update(readFileSync(config));
   return h.digest('hex');
+}
+
+/** Most DFA states a cache file may declare (the regex compiler's own bound is far lower). */
+const MAX_STATES = 1 << 20;
+
+function isCount(x: unknown, min: number, max: number): x is number {
+  return typeof x === 'number' && Number.isInteger(x) && x >= min && x <= max;
 }
 
 function pad4(n: number): number {
@@ -105,6 +114,7 @@ export function deserializeEngine(data: Buffer, grammar: Grammar, key: string, f
   } catch {
     return fail('bad header');
   }
+  if (header === null || typeof header !== 'object' || !isCount(header.vocabBytes, 0, data.length) || !Array.isArray(header.classes)) fail('bad header');
   const vocabStart = 12 + hlen + pad4(hlen);
   const vocabEnd = vocabStart + header.vocabBytes + pad4(header.vocabBytes);
   if (!(vocabEnd <= body.length)) fail('truncated');
@@ -130,11 +140,26 @@ export function deserializeEngine(data: Buffer, grammar: Grammar, key: string, f
   if (!Array.isArray(header.dfas) || header.dfas.length !== grammar.tokens.length) fail('DFA count mismatch');
   const dfas: ByteDfa[] = header.dfas.map((d, i) => {
     if (d === null) return fail(`class ${grammar.tokens[i].name} has no DFA`);
+    const name = grammar.tokens[i].name;
+    // every value is checked before use: the file is untrusted even when its seal matches
+    if (!isCount(d.states, 1, MAX_STATES) || !isCount(d.start, 0, d.states - 1)) fail(`class ${name}: DFA size or start out of range`);
     const trans = new Int32Array(take(d.states * 256));
     const minAccept = new Int32Array(take(d.states));
     const accept = Uint8Array.from(take(d.states));
+    for (let k = 0; k < trans.length; k++) if (trans[k] < 0 || trans[k] >= d.states) fail(`class ${name}: a DFA transition leads to state ${trans[k]} of ${d.states}`);
+    for (let k = 1; k < d.states; k++) if (minAccept[k] < -1 || minAccept[k] > d.states) fail(`class ${name}: distance to acceptance out of range`);
+    for (let k = 0; k < d.states; k++) if (accept[k] > 1) fail(`class ${name}: accept flag out of range`);
+    if (d.shortest !== null && (!Array.isArray(d.shortest) || d.shortest.length > d.states || !d.shortest.every((b) => isCount(b, 0, 255)))) fail(`class ${name}: bad shortest lexeme`);
     return { stateCount: d.states, start: d.start, trans, accept, minAccept, shortest: d.shortest === null ? null : Uint8Array.from(d.shortest) };
   });
+  const vocabSize = vocab.vocabSize;
+  const nodeCount = vocab.trie.nodeCount;
+  /** a mask bitset: no bit at or past the vocabulary size (a forged file could otherwise allow ids that do not exist) */
+  const bitset = (b: Uint32Array, what: string): Uint32Array => {
+    const extra = vocabSize & 31;
+    if (extra !== 0 && (b[nWords - 1]! >>> extra) !== 0) fail(`${what} allows token ids at or past the vocabulary size ${vocabSize}`);
+    return b;
+  };
   const automaton = new Automaton(grammar, dfas);
   const tables: (ClassTables | null)[] = header.classes.map((c, i) => {
     if (c === null) return null;
@@ -144,23 +169,46 @@ export function deserializeEngine(data: Buffer, grammar: Grammar, key: string, f
     const dfa = term.dfa;
     if (dfa.stateCount !== c.states) fail(`class ${t.name} has ${dfa.stateCount} states, the cache ${c.states}`);
     const w0 = c.states;
+    if (!Array.isArray(c.kmax) || c.kmax.length !== w0 + 1 || !c.kmax.every((k) => isCount(k, 0, 1 << 20))) fail(`class ${t.name}: bad budget table sizes`);
+    if (!Array.isArray(c.exits) || c.exits.length !== w0 + 1 || !c.exits.every((k) => isCount(k, 0, nodeCount))) fail(`class ${t.name}: bad exit list sizes`);
     const w0Trans = new Int32Array(256);
     const space = grammar.space;
     for (let b = 0; b < 256; b++) w0Trans[b] = b < 128 && space.includes(String.fromCharCode(b)) ? w0 : dfa.trans[dfa.start * 256 + b];
     const inside: Uint32Array[] = [new Uint32Array(0)];
-    for (let d = 1; d <= w0; d++) inside.push(take(nWords));
+    for (let d = 1; d <= w0; d++) inside.push(bitset(take(nWords), `class ${t.name} state ${d}`));
     const le: Uint32Array[][] = [[]];
     for (let d = 1; d <= w0; d++) {
       const levels: Uint32Array[] = [];
-      for (let k = 0; k < Math.min(c.kmax[d], MAX_LE); k++) levels.push(take(nWords));
+      for (let k = 0; k < Math.min(c.kmax[d], MAX_LE); k++) {
+        const b = take(nWords);
+        // a budget level is a subset of the state's inside set
+        for (let x = 0; x < nWords; x++) if ((b[x]! & ~inside[d]![x]!) !== 0) fail(`class ${t.name} state ${d}: a budget level allows tokens its state does not`);
+        levels.push(b);
+      }
       le.push(levels);
     }
     const exits: Uint32Array[] = [new Uint32Array(0)];
-    for (let d = 1; d <= w0; d++) exits.push(take(c.exits[d]));
+    for (let d = 1; d <= w0; d++) {
+      const ex = take(c.exits[d]);
+      for (let x = 0; x < ex.length; x++) if (ex[x] === 0 || ex[x]! >= nodeCount) fail(`class ${t.name} state ${d}: exit node ${ex[x]} of ${nodeCount}`);
+      exits.push(ex);
+    }
     return { dfa, w0, w0Trans, inside, le, kmax: Int32Array.from(c.kmax), exits };
   });
   if (w !== words.length) fail('trailing data');
   return new MaskEngine(grammar, vocab, {}, tables, automaton);
+}
+
+/**
+ * Writes `engine`'s tables to the cache folder under `key` the way `loadOrCompile` does (private
+ * folder, sealed, atomic replace); returns the file. Throws CacheFileError when the folder is not
+ * private to this user.
+ */
+export function storeEngine(engine: MaskEngine, key: string, cacheDir: string): string {
+  privateDir(cacheDir);
+  const file = join(cacheDir, `${key}.twmask`);
+  writeSealed(file, folderSecret(cacheDir), serializeEngine(engine, key));
+  return file;
 }
 
 export interface LoadResult {
@@ -189,22 +237,36 @@ export function loadOrCompile(grammar: Grammar, grammarText: string, tokenizerPa
   const t0 = performance.now();
   const key = cacheKey(grammarText, tokenizerPath);
   const file = join(cacheDir, `${key}.twmask`);
-  let warning: string | null = null;
-  if (existsSync(file)) {
+  const warnings: string[] = [];
+  // the folder and its secret: when either is not private to this user the cache is not used
+  let secret: Buffer | null = null;
+  try {
+    privateDir(cacheDir);
+    secret = folderSecret(cacheDir);
+  } catch (e) {
+    if (!(e instanceof CacheFileError)) throw e;
+    warnings.push(`${e.message}; running without the mask cache`);
+  }
+  if (secret !== null && existsSync(file)) {
     try {
-      const engine = deserializeEngine(readFileSync(file), grammar, key, file);
+      const engine = deserializeEngine(readSealed(file, secret), grammar, key, file);
       return { engine, fromCache: true, cacheLoadMs: performance.now() - t0, compileMs: 0, file, warning: null };
     } catch (e) {
-      if (!(e instanceof CacheError) && !(e instanceof VocabularyError)) throw e;
-      warning = `${(e as Error).message}; rebuilt it`;
+      if (!(e instanceof CacheError) && !(e instanceof VocabularyError) && !(e instanceof CacheFileError)) throw e;
+      warnings.push(`${(e as Error).message}; rebuilt it`);
     }
   }
   const t1 = performance.now();
   const engine = new MaskEngine(grammar, loadVocabulary(tokenizerPath));
   const compileMs = performance.now() - t1;
-  mkdirSync(cacheDir, { recursive: true });
-  const tmp = `${file}.${process.pid}.tmp`;
-  writeFileSync(tmp, serializeEngine(engine, key));
-  renameSync(tmp, file);
-  return { engine, fromCache: false, cacheLoadMs: 0, compileMs, file, warning };
+  if (secret !== null) {
+    try {
+      storeEngine(engine, key, cacheDir);
+    } catch (e) {
+      if (!(e instanceof CacheFileError)) throw e;
+      warnings.push(`${e.message}; the tables were not cached`);
+    }
+  }
+  const warning = warnings.length > 0 ? warnings.join('; ') : null;
+  return { engine, fromCache: false, cacheLoadMs: 0, compileMs, file: secret !== null ? file : null, warning };
 }

@@ -44,5 +44,6 @@ import { MaskEngine, type CompileOptions } from './engine.ts';
 export function compileMasks(grammar: Grammar, vocabulary: Vocabulary, opts: CompileOptions = {}): MaskEngine {
   return new MaskEngine(grammar, vocabulary, opts);
 }
-export { loadOrCompile, serializeEngine, deserializeEngine, cacheKey, defaultCacheDir, CacheError, CACHE_FORMAT, type LoadResult } from './cache.ts';
+export { loadOrCompile, storeEngine, serializeEngine, deserializeEngine, cacheKey, defaultCacheDir, CacheError, CACHE_FORMAT, type LoadResult } from './cache.ts';
+export { CacheFileError, MAX_CACHE_FILE_BYTES } from './cache-files.ts';
 export { measureAllocation, type AllocationFigures } from './measure.ts';

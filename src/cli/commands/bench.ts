@@ -15,14 +15,14 @@
  * the only place measured figures live; README and comments link there.
  */
 import { execFileSync } from 'node:child_process';
-import { existsSync, mkdtempSync, readdirSync, readFileSync, writeFileSync, mkdirSync } from 'node:fs';
+import { existsSync, mkdtempSync, readdirSync, readFileSync, writeFileSync } from 'node:fs';
 import { loadavg, tmpdir } from 'node:os';
 import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { Option, type Command } from 'commander';
 import type { Grammar, NameBindings } from '../../description/ir.ts';
 import { openDatabaseFile } from '../../exec/database.ts';
-import { cacheKey, loadOrCompile, MaskEngine, measureAllocation, serializeEngine } from '../../masks/index.ts';
+import { cacheKey, loadOrCompile, MaskEngine, measureAllocation, storeEngine } from '../../masks/index.ts';
 import { createSampler, namesFromDatabase, loadNames, printTree } from '../../tree/index.ts';
 import { loadVocabulary } from '../../vocab/index.ts';
 import { runCommand, UsageError, type RegisterCommand } from '../command.ts';
@@ -162,8 +162,7 @@ export async function runBench(grammar: Grammar, tokenizerPath: string, names: N
   const preprocessMs = performance.now() - t;
   const cacheDir = opts.cache === false ? mkdtempSync(join(tmpdir(), 'tw-bench-cache-')) : opts.cache;
   const key = cacheKey(grammarText, tokenizerPath);
-  mkdirSync(cacheDir, { recursive: true });
-  writeFileSync(join(cacheDir, `${key}.twmask`), serializeEngine(engine, key));
+  storeEngine(engine, key, cacheDir);
   const { PreTrainedTokenizer } = await import('@huggingface/transformers');
   const configPath = join(dirname(tokenizerPath), 'tokenizer_config.json');
   const tokenizer = new PreTrainedTokenizer(JSON.parse(readFileSync(tokenizerPath, 'utf8')), existsSync(configPath) ? JSON.parse(readFileSync(configPath, 'utf8')) : {});
