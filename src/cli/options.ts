@@ -17,7 +17,7 @@
  *   ends. Names bound from it: Table and Column from its schema, for a grammar that declares them;
  *   otherwise the cooperative fact base's Entity, Class, Rel and Measure, for a grammar that
  *   declares those (the lf grammar).
- * - `--names FILE`: a JSON object `{"Set": ["a", …]}`; it wins over `--db`, set by set. Both are
+ * - `--names FILE`: a JSON object `{"Set": ["a", …]}` (or the object forms of README "Binding names"); it wins over `--db`, set by set. Both are
  *   checked against the grammar's name sets.
  * - Numbers go through commander's argument parsers (`integer`, `decimal` below), so a bad value
  *   is refused before the command runs: `error: option '--beam <k>' argument 'x' is invalid.
@@ -28,7 +28,7 @@ import { InvalidArgumentError, Option } from 'commander';
 import { loadGrammar } from '../description/index.ts';
 import type { Grammar, NameBindings } from '../description/ir.ts';
 import { databaseKind, openDatabaseFile, type DatabaseFile } from '../exec/database.ts';
-import { checkNames, loadNames, namesFromDatabase, NamesError } from '../tree/index.ts';
+import { checkNames, loadNames, mergeNames, namesFromDatabase, NamesError } from '../tree/index.ts';
 import { grammarFile, shippedGrammars } from '../util/package.ts';
 import { UsageError } from './command.ts';
 
@@ -169,16 +169,17 @@ export function dbBindsNames(grammar: Grammar): boolean {
 /** Bindings from `--db` and `--names` (the file wins per set), each checked against the grammar; undefined when neither is given. */
 export async function bindNames(grammar: Grammar, opts: { names?: string }, db: DatabaseFile | null): Promise<NameBindings | undefined> {
   if (opts.names === undefined && db === null) return undefined;
-  let out: Record<string, readonly string[]> = {};
+  let out: NameBindings = {};
   if (db !== null) {
     const fromDb = await namesFromDb(grammar, db);
     checkNames(grammar, fromDb, db.source);
-    out = { ...fromDb };
+    out = fromDb;
   }
   if (opts.names !== undefined) {
-    const fromFile = loadNames(opts.names);
+    const fromFile = loadNames(opts.names, grammar);
     checkNames(grammar, fromFile, opts.names);
-    out = { ...out, ...fromFile };
+    out = mergeNames(out, fromFile);
+    checkNames(grammar, out, opts.names);
   }
   return out;
 }

@@ -249,6 +249,17 @@ function checkBound(g: Grammar, out: Diagnostic[], at: At): void {
       if (f.scoping === 'bound' && !binders.has(f.type.name)) out.push(E.boundWithoutNew(at(f.span), f.name, f.type.name));
     }
   }
+  // `known X` resolves through introductions of X (a set without owner) or of X's owner
+  const entered = new Set<string>();
+  for (const c of g.constructors) for (const f of c.fields) if (f.scoping === 'enters') entered.add(f.type.name);
+  for (const c of g.constructors) {
+    for (const f of c.fields) {
+      if (f.scoping !== 'known') continue;
+      const set = g.nameSets.find((n) => n.name === f.type.name);
+      const via = set?.owner ?? f.type.name;
+      if (!entered.has(via)) out.push(E.neverIntroduced(at(f.span), f.name, via));
+    }
+  }
 }
 
 /** A layout's printed shape with field names erased: texts, slot types/cardinalities/separators, groups. */

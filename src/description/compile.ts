@@ -11,6 +11,9 @@ import type {
   Field,
   FieldType,
   Grammar,
+  KindFamily,
+  KindRef,
+  KindSlot,
   LayoutItem,
   NameSet,
   Operator,
@@ -22,12 +25,12 @@ import type {
 } from './ir.ts';
 import * as E from './errors.ts';
 import type { Diagnostic } from './errors.ts';
-import type { CtorAst, DeclAst, DescriptionAst, ItemAst, RegexLit, StrLit } from './syntax.ts';
+import type { CtorAst, DeclAst, DescriptionAst, Ident, ItemAst, RegexLit, StrLit } from './syntax.ts';
 import { lineColumn } from '../util/source.ts';
 
 const VALUE_KINDS: readonly ValueKind[] = ['text', 'int', 'number', 'json-string', 'sql-string'];
 
-type TypeKind = 'sort' | 'token class' | 'name set';
+type TypeKind = 'sort' | 'token class' | 'name set' | 'kind family';
 
 /** Decodes a JSON string literal; on failure the offset (absolute) and a description of the problem. */
 export function decodeString(lit: StrLit): { value: string } | { at: Span; detail: string } {
@@ -165,6 +168,8 @@ export function buildGrammar(ast: DescriptionAst, text: string, file: string, ha
   const tokens: TokenClass[] = [];
   const nameSetDecls: Extract<DeclAst, { kind: 'names' }>[] = [];
   const sortDecls: Extract<DeclAst, { kind: 'sort' }>[] = [];
+  const kindFamilies: KindFamily[] = [];
+  const tokenFamilyRefs: { family: Ident; token: string }[] = [];
 
   for (const d of ast.decls) {
     switch (d.kind) {
@@ -195,6 +200,9 @@ export function buildGrammar(ast: DescriptionAst, text: string, file: string, ha
       case 'names':
         if (declare(d.name.text, 'name set', d.name.span)) nameSetDecls.push(d);
         break;
+      case 'kinds':
+        if (declare(d.name.text, 'kind family', d.name.span)) kindFamilies.push({ index: kindFamilies.length, name: d.name.text, span: d.span });
+        break;
       case 'sort':
         if (declare(d.name.text, 'sort', d.name.span)) sortDecls.push(d);
         break;
@@ -210,12 +218,14 @@ export function buildGrammar(ast: DescriptionAst, text: string, file: string, ha
     }
     const re = compileRegex(d.regex, d.name.text);
     if (!re || !ok) return null;
+    if (d.family) tokenFamilyRefs.push({ family: d.family, token: d.name.text });
     return {
       index,
       name: d.name.text,
       pattern: d.regex.body,
       flags: d.regex.flags,
       value: kind as ValueKind,
+      family: d.family?.text ?? null,
       reserved: d.reserved,
       span: d.span,
     };
@@ -280,6 +290,16 @@ export function buildGrammar(ast: DescriptionAst, text: string, file: string, ha
   }
   if (!spaceSpan) diags.push(E.missingSpace(at(head)));
 
+  const familyNames = kindFamilies.map((f) => f.name);
+  /** true when `id` names a kind family; otherwise reports what it is */
+  const checkFamily = (id: Ident): boolean => {
+    const k = typeKinds.get(id.text);
+    if (!k) diags.push(E.undefinedFamily(at(id.span), id.text, suggest(id.text, familyNames)));
+    else if (k.kind !== 'kind family') diags.push(E.notAFamily(at(id.span), id.text, k.kind));
+    return k?.kind === 'kind family';
+  };
+  for (const r of tokenFamilyRefs) checkFamily(r.family);
+
   const tokenNames = new Set(tokens.map((t) => t.name));
   const nameSets: NameSet[] = [];
   for (const d of nameSetDecls) {
@@ -292,8 +312,43 @@ export function buildGrammar(ast: DescriptionAst, text: string, file: string, ha
       diags.push(E.namesOfNonToken(at(d.token.span), d.token.text, k.kind));
       continue;
     }
-    nameSets.push({ index: nameSets.length, name: d.name.text, token: d.token.text, span: d.span });
+    let owner: string | null = null;
+    if (d.owner) {
+      const o = typeKinds.get(d.owner.text);
+      const setNames = nameSetDecls.map((n) => n.name.text);
+      if (!o) diags.push(E.undefinedOwner(at(d.owner.span), d.owner.text, suggest(d.owner.text, setNames)));
+      else if (o.kind !== 'name set') diags.push(E.ownerNotNameSet(at(d.owner.span), d.owner.text, o.kind));
+      else if (d.owner.text === d.name.text) diags.push(E.ownerIsSelf(at(d.owner.span), d.name.text));
+      else owner = d.owner.text;
+    }
+    const slots: KindSlot[] = [];
+    if (d.slots) {
+      if (d.slots.length === 0) diags.push(E.emptySlots(at(d.slotsSpan!), d.name.text));
+      for (const sd of d.slots) {
+        if (slots.some((x) => x.name === sd.name.text)) {
+          diags.push(E.duplicateSlot(at(sd.name.span), sd.name.text, d.name.text));
+          continue;
+        }
+        if (checkFamily(sd.family)) slots.push({ index: slots.length, name: sd.name.text, family: sd.family.text, span: sd.span });
+      }
+    }
+    nameSets.push({ index: nameSets.length, name: d.name.text, token: d.token.text, owner, slots, span: d.span });
   }
+  // owner chains must end (a set cannot own itself through others)
+  for (const ns of nameSets) {
+    const seen = new Set<string>([ns.name]);
+    for (let o = ns.owner; o !== null; o = nameSets.find((n) => n.name === o)?.owner ?? null) {
+      if (seen.has(o)) {
+        diags.push(E.ownerCycle(at(ns.span), ns.name, [...seen, o].join(' → ')));
+        break;
+      }
+      seen.add(o);
+    }
+  }
+  const nameSetByName = new Map(nameSets.map((n) => [n.name, n]));
+  const tokenByName = new Map(tokens.map((t) => [t.name, t]));
+  const sortFamily = new Map<string, string | null>();
+  for (const sd of sortDecls) sortFamily.set(sd.name.text, sd.family && checkFamily(sd.family) ? sd.family.text : null);
 
   // ---- sorts and constructors
   const sorts: Sort[] = [];
@@ -339,7 +394,7 @@ export function buildGrammar(ast: DescriptionAst, text: string, file: string, ha
       }
     }
     if (hasOperator && !sd.parens) diags.push(E.operatorWithoutParens(at(sd.name.span), sortName));
-    sorts.push({ index: sorts.length, name: sortName, constructors: names, parens, span: sd.span });
+    sorts.push({ index: sorts.length, name: sortName, constructors: names, parens, family: sortFamily.get(sortName) ?? null, span: sd.span });
   }
 
   function compileCtor(cd: CtorAst, sortName: string, index: number): Constructor | null {
@@ -362,13 +417,29 @@ export function buildGrammar(ast: DescriptionAst, text: string, file: string, ha
           : k.kind === 'token class'
             ? { kind: 'token', name: fd.type.text }
             : { kind: 'names', name: fd.type.text };
+      if (k.kind === 'kind family') {
+        diags.push(E.familyAsFieldType(at(fd.type.span), fd.type.text, fd.name.text));
+        continue;
+      }
       let scoping: Scoping = 'none';
       if (fd.scoping) {
-        if (k.kind !== 'token class') {
-          diags.push(E.scopingOnNonToken(at(fd.scoping.span), fd.scoping.text, fd.name.text, k.kind));
+        const marker = fd.scoping.text;
+        if ((marker === 'new' || marker === 'bound') && k.kind !== 'token class') {
+          diags.push(E.scopingOnNonToken(at(fd.scoping.span), marker, fd.name.text, k.kind));
           continue;
         }
-        scoping = fd.scoping.text === 'new' ? 'binds' : 'bound';
+        if ((marker === 'enter' || marker === 'known') && k.kind !== 'name set') {
+          diags.push(E.scopeMarkerOnNonNames(at(fd.scoping.span), marker, fd.name.text, k.kind));
+          continue;
+        }
+        scoping = marker === 'new' ? 'binds' : marker === 'bound' ? 'bound' : marker === 'enter' ? 'enters' : 'known';
+      }
+      let family: string | null = null;
+      if (type.kind === 'sort') family = sortFamily.get(type.name) ?? null;
+      else if (type.kind === 'token') family = scoping === 'binds' || scoping === 'bound' ? (tokenByName.get(type.name)?.family ?? null) : null;
+      else {
+        const slots = nameSetByName.get(type.name)?.slots ?? [];
+        family = slots.length === 1 ? slots[0]!.family : null;
       }
       const field: Field = {
         index: fields.length,
@@ -376,11 +447,91 @@ export function buildGrammar(ast: DescriptionAst, text: string, file: string, ha
         type,
         card: fd.card ? CARDS[fd.card.text]! : 'one',
         scoping,
+        by: fd.by?.text ?? null,
+        kindOf: null,
+        family,
         span: fd.span,
       };
       fields.push(field);
       byName.set(field.name, field);
     }
+    // `by` and `kind` clauses refer to other fields: checked once every field is known
+    for (let i = 0; i < fields.length; i++) {
+      const f = fields[i]!;
+      const fd = cd.fields.find((x) => x.name.text === f.name)!;
+      if (fd.by) {
+        const set = f.type.kind === 'names' ? nameSetByName.get(f.type.name) : undefined;
+        const target = byName.get(fd.by.text);
+        if (f.scoping !== 'known') diags.push(E.byWithoutKnown(at(fd.by.span), f.name));
+        else if (!set || set.owner === null) diags.push(E.byWithoutOwner(at(fd.by.span), f.name, f.type.name));
+        else if (!target) diags.push(E.unknownByField(at(fd.by.span), fd.by.text, cd.name.text, suggest(fd.by.text, byName.keys())));
+        else if (target.type.kind !== 'names' || target.type.name !== set.owner || target.card === 'list' || target.card === 'nonempty') {
+          diags.push(E.byFieldType(at(fd.by.span), fd.by.text, set.owner));
+        }
+      }
+      if (fd.kindOf) {
+        const ref = kindRef(fd.kindOf, f);
+        if (ref) fields[i] = { ...f, kindOf: ref };
+      }
+    }
+    function kindRef(k: NonNullable<(typeof cd.fields)[number]['kindOf']>, f: Field): KindRef | null {
+      if (f.family === null) {
+        diags.push(E.fieldWithoutKind(at(k.span), f.name, whyNoKind(f)));
+        return null;
+      }
+      if (k.field.text === 'self' && k.slot === null && !byName.has('self')) {
+        const fam = sortFamily.get(sortName) ?? null;
+        if (fam === null) {
+          diags.push(E.selfWithoutKind(at(k.span), sortName));
+          return null;
+        }
+        if (fam !== f.family) {
+          diags.push(E.familyMismatch(at(k.span), f.name, f.family, 'the node', fam));
+          return null;
+        }
+        return { kind: 'self', span: k.span };
+      }
+      const g = byName.get(k.field.text);
+      if (!g) {
+        diags.push(E.unknownKindField(at(k.field.span), k.field.text, cd.name.text, suggest(k.field.text, byName.keys())));
+        return null;
+      }
+      if (g.name === f.name) {
+        diags.push(E.kindOfItself(at(k.span), f.name));
+        return null;
+      }
+      let fam: string | null;
+      if (k.slot) {
+        const set = g.type.kind === 'names' ? nameSetByName.get(g.type.name) : undefined;
+        const slot = set?.slots.find((x) => x.name === k.slot!.text);
+        if (!set || !slot) {
+          const slots = set?.slots.map((x) => x.name) ?? [];
+          diags.push(E.unknownSlot(at(k.slot.span), k.slot.text, g.name, g.type.name, slots));
+          return null;
+        }
+        fam = slot.family;
+      } else {
+        fam = g.family;
+        if (fam === null) {
+          diags.push(E.fieldWithoutKind(at(k.field.span), g.name, whyNoKind(g)));
+          return null;
+        }
+      }
+      if (fam !== f.family) {
+        diags.push(E.familyMismatch(at(k.span), f.name, f.family, k.slot ? `${g.name}.${k.slot.text}` : g.name, fam));
+        return null;
+      }
+      return { kind: 'field', field: g.name, slot: k.slot?.text ?? null, span: k.span };
+    }
+    function whyNoKind(f: Field): string {
+      if (f.type.kind === 'sort') return `sort ${f.type.name} is not declared with \`kind\``;
+      if (f.type.kind === 'token') {
+        return f.scoping === 'none' ? 'only `new`/`bound` variables carry a kind' : `token class ${f.type.name} is not declared with \`kind\``;
+      }
+      const n = nameSetByName.get(f.type.name)?.slots.length ?? 0;
+      return n === 0 ? `name set ${f.type.name} has no kind slots` : `name set ${f.type.name} has ${n} kind slots: name one (\`${f.name}.slot\`)`;
+    }
+
     const declared = new Set(cd.fields.map((f) => f.name.text));
     const used = new Set<string>();
     const fieldNames = cd.fields.map((f) => f.name.text);
@@ -454,7 +605,7 @@ export function buildGrammar(ast: DescriptionAst, text: string, file: string, ha
       }
     }
     if (diags.length !== before) return null;
-    return { index, name: cd.name.text, sort: sortName, fields, layout, operator, span: cd.span };
+    return { index, name: cd.name.text, sort: sortName, fields, layout, operator, scope: cd.scope !== null, span: cd.span };
   }
 
   if (diags.some((d) => d.severity === 'error')) return { grammar: null, diagnostics: diags };
@@ -466,6 +617,10 @@ export function buildGrammar(ast: DescriptionAst, text: string, file: string, ha
     space: space!,
     tokens,
     nameSets,
+    kindFamilies,
+    scoped:
+      kindFamilies.length > 0 ||
+      constructors.some((c) => c.scope || c.fields.some((f) => f.scoping === 'enters' || f.scoping === 'known' || f.kindOf !== null)),
     sorts,
     constructors,
     keywords: [...keywords].sort(),

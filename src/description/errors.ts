@@ -169,11 +169,11 @@ export const duplicateType = (at: At, kind: string, name: string, firstKind: str
         'duplicate-type-name',
         at,
         `${kind} ${q(name)} has the same name as the ${firstKind} declared at ${first}`,
-        'sorts, token classes and name sets share one namespace; rename one of them',
+        'sorts, token classes, name sets and kind families share one namespace; rename one of them',
       );
 
 function kindCode(kind: string): string {
-  return kind === 'token class' ? 'token' : kind === 'name set' ? 'name-set' : kind;
+  return kind === 'token class' ? 'token' : kind === 'name set' ? 'name-set' : kind === 'kind family' ? 'kind-family' : kind;
 }
 
 export const duplicateConstructor = (at: At, name: string, sort: string, first: string) =>
@@ -284,6 +284,101 @@ export const boundWithoutNew = (at: At, name: string, token: string) =>
     at,
     `field ${q(name)} is ${q('bound ' + token)}, but no field anywhere is ${q('new ' + token)}`,
     `mark the field that introduces the variable as ${q('new ' + token)}`,
+  );
+
+// ---- scopes and kinds -------------------------------------------------------------------------
+
+export const scopeMarkerOnNonNames = (at: At, marker: string, name: string, kind: string) =>
+  error(
+    'scope-marker-on-non-names',
+    at,
+    `${q(marker)} on field ${q(name)}, whose type is a ${kind}`,
+    '`enter` and `known` mark fields whose type is a name set (`names X of T`)',
+  );
+
+export const undefinedFamily = (at: At, name: string, suggestion: string | null) =>
+  error(
+    'undefined-kind-family',
+    at,
+    `undefined kind family ${q(name)}`,
+    suggestion ? `did you mean ${q(suggestion)}?` : `declare it: ${q('kinds ' + name)}`,
+  );
+
+export const notAFamily = (at: At, name: string, kind: string) =>
+  error('not-a-kind-family', at, `${q(name)} is a ${kind}, not a kind family`, `declare a family (${q('kinds K')}) and name it here`);
+
+export const familyAsFieldType = (at: At, name: string, field: string) =>
+  error(
+    'kind-family-as-field-type',
+    at,
+    `field ${q(field)} has type ${q(name)}, which is a kind family`,
+    'kinds are not written in programs; give the field a sort, token class or name set',
+  );
+
+export const undefinedOwner = (at: At, name: string, suggestion: string | null) =>
+  error('undefined-owner', at, `undefined name set ${q(name)} after ${q('in')}`, suggestion ? `did you mean ${q(suggestion)}?` : 'name a name set declared with `names`');
+
+export const ownerNotNameSet = (at: At, name: string, kind: string) =>
+  error('owner-not-name-set', at, `${q(name)} is a ${kind}; ${q('in')} needs a name set`, 'the members of a name set belong to members of another name set');
+
+export const ownerIsSelf = (at: At, name: string) =>
+  error('owner-is-self', at, `name set ${q(name)} cannot belong to itself`, 'name another name set after `in`');
+
+export const ownerCycle = (at: At, name: string, chain: string) =>
+  error('owner-cycle', at, `name set ${q(name)} belongs to itself through ${chain}`, 'the `in` chain of name sets must end');
+
+export const emptySlots = (at: At, name: string) =>
+  error('empty-kind-slots', at, `name set ${q(name)} declares no kind slots`, 'write at least one slot, e.g. `with (arg: Kind)`, or drop `with ()`');
+
+export const duplicateSlot = (at: At, slot: string, set: string) =>
+  error('duplicate-kind-slot', at, `duplicate kind slot ${q(slot)} of name set ${q(set)}`);
+
+export const byWithoutKnown = (at: At, field: string) =>
+  error('by-without-known', at, `${q('by')} on field ${q(field)}, which is not ${q('known')}`, 'write `field: known Set by owner`');
+
+export const byWithoutOwner = (at: At, field: string, set: string) =>
+  error(
+    'by-without-owner',
+    at,
+    `${q('by')} on field ${q(field)}, but name set ${q(set)} belongs to no other set`,
+    `declare the relation: ${q(`names ${set} of T in Owner`)}`,
+  );
+
+export const unknownByField = (at: At, name: string, ctor: string, suggestion: string | null) =>
+  error('unknown-by-field', at, `${q(ctor)} has no field ${q(name)}`, suggestion ? `did you mean ${q(suggestion)}?` : undefined);
+
+export const byFieldType = (at: At, name: string, owner: string) =>
+  error('by-field-type', at, `field ${q(name)} after ${q('by')} must be one (or an optional) ${q(owner)}`, `declare it ${q(name + ': known ' + owner + '?')}`);
+
+export const fieldWithoutKind = (at: At, field: string, why: string) =>
+  error('field-without-kind', at, `field ${q(field)} has no kind: ${why}`);
+
+export const selfWithoutKind = (at: At, sort: string) =>
+  error('self-without-kind', at, `${q('self')} has no kind: sort ${q(sort)} is not declared with ${q('kind')}`, `write ${q(`sort ${sort} kind Family { ... }`)}`);
+
+export const familyMismatch = (at: At, field: string, family: string, other: string, otherFamily: string) =>
+  error('kind-family-mismatch', at, `field ${q(field)} has a kind of family ${q(family)}, but ${other} has one of family ${q(otherFamily)}`, 'only kinds of one family can be equal');
+
+export const unknownKindField = (at: At, name: string, ctor: string, suggestion: string | null) =>
+  error('unknown-kind-field', at, `${q(ctor)} has no field ${q(name)} (and ${q(name)} is not ${q('self')})`, suggestion ? `did you mean ${q(suggestion)}?` : undefined);
+
+export const kindOfItself = (at: At, field: string) =>
+  error('kind-of-itself', at, `field ${q(field)} is given its own kind`, 'name another field or `self`');
+
+export const unknownSlot = (at: At, slot: string, field: string, set: string, slots: readonly string[]) =>
+  error(
+    'unknown-kind-slot',
+    at,
+    `field ${q(field)} (${set}) has no kind slot ${q(slot)}`,
+    slots.length > 0 ? `its slots: ${slots.join(', ')}` : `name set ${q(set)} declares no slots (\`with (slot: Family)\`)`,
+  );
+
+export const neverIntroduced = (at: At, field: string, set: string) =>
+  error(
+    'never-introduced',
+    at,
+    `field ${q(field)} must be ${q('known')}, but no field of the grammar is ${q('enter ' + set)}`,
+    `mark the field that brings ${set} names into a scope as ${q('enter ' + set)}`,
   );
 
 // ---- operators --------------------------------------------------------------------------------

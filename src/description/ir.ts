@@ -39,17 +39,48 @@ export interface TokenClass {
   /** ECMAScript flags written after the closing slash (only `i` and `u` are accepted). */
   readonly flags: string;
   readonly value: ValueKind;
+  /** `kind Family`: variables of this class (`new`/`bound` fields) carry a kind of this family */
+  readonly family: string | null;
   /** When true, no keyword of the grammar (see Grammar.keywords) is a lexeme of this class. */
   readonly reserved: boolean;
   readonly span: Span;
 }
 
-/** An open name set: `names Table of Ident`. Its members are bound at parse/decode time. */
+/**
+ * An open name set: `names Table of Ident`. Its members are bound at parse/decode time.
+ * `names Column of Ident in Table` relates it to another set (each member belongs to one or more
+ * members of `owner`); `names Rel of Name with (subject: Kind, object: Kind)` gives every member
+ * named kind slots. Owners and kinds are bound with the members (see NameFacts).
+ */
 export interface NameSet {
   readonly index: number;
   readonly name: string;
   /** The token class that spells members; each bound member must be a lexeme of it. */
   readonly token: string;
+  /** `in Owner`: the name set whose members own this set's members; null when the set stands alone */
+  readonly owner: string | null;
+  /** `with (slot: Family, ...)`: the kind slots every member carries, in declaration order */
+  readonly slots: readonly KindSlot[];
+  readonly span: Span;
+}
+
+/** One kind slot of a name set: `subject: Kind`. */
+export interface KindSlot {
+  readonly index: number;
+  readonly name: string;
+  /** the kind family (KindFamily.name) of the slot's values */
+  readonly family: string;
+  readonly span: Span;
+}
+
+/**
+ * A family of kinds: `kinds Kind`. Its members (grower, orchard, ...) and their parents
+ * (a kind may be a sub-kind of one other kind) are bound with the names, never written in the
+ * grammar. Two kinds agree when one is the other or an ancestor of it.
+ */
+export interface KindFamily {
+  readonly index: number;
+  readonly name: string;
   readonly span: Span;
 }
 
@@ -61,12 +92,31 @@ export type FieldType =
 export type Cardinality = 'one' | 'optional' | 'list' | 'nonempty';
 
 /**
+ * Field markers.
  * Variable scoping (only on token-typed fields):
- * - 'binds': this field introduces a variable; it is in scope in the fields that follow it in the
- *   same constructor (and everything below them).
- * - 'bound': this field must name a variable introduced by an enclosing 'binds' field.
+ * - 'binds' (`new`): this field introduces a variable; it is in scope in the fields that follow it
+ *   in the same constructor (and everything below them).
+ * - 'bound' (`bound`): this field must name a variable introduced by an enclosing 'binds' field.
+ * Name scopes (only on name-set fields; see docs/design/scopes-and-kinds.md):
+ * - 'enters' (`enter`): the value is introduced into the nearest enclosing scope (the nearest
+ *   ancestor-or-self node whose constructor has `scope: true`; the root when there is none),
+ *   wherever the field stands in the text. A value is introduced at most once per scope.
+ * - 'known' (`known`): the value must resolve in the scope chain — for a set without an owner, it
+ *   was introduced into an enclosing scope; for a set `in Owner`, an introduced owner owns it
+ *   (exactly one in the innermost scope that has any, or the one named by the `by` field).
  */
-export type Scoping = 'none' | 'binds' | 'bound';
+export type Scoping = 'none' | 'binds' | 'bound' | 'enters' | 'known';
+
+/**
+ * A kind constraint on a field, `field: T kind REF`: the field's kind equals REF's kind.
+ * - `self`: the kind of the node itself (its sort is declared `sort S kind Family`);
+ * - `field`: another field of the same constructor; with `slot`, a slot of that name-set field's
+ *   member (`rel.subject`), without it the field's own kind (a kinded sort, a variable of a kinded
+ *   token class, or a name set with exactly one slot).
+ */
+export type KindRef =
+  | { readonly kind: 'self'; readonly span: Span }
+  | { readonly kind: 'field'; readonly field: string; readonly slot: string | null; readonly span: Span };
 
 export interface Field {
   readonly index: number;
@@ -74,6 +124,12 @@ export interface Field {
   readonly type: FieldType;
   readonly card: Cardinality;
   readonly scoping: Scoping;
+  /** `known Column by table`: the field of the same constructor naming the owner; null otherwise */
+  readonly by: string | null;
+  /** `kind REF`: this field's kind equals REF's; null when unconstrained */
+  readonly kindOf: KindRef | null;
+  /** the family of this field's own kind (see KindRef), or null when the field has none */
+  readonly family: string | null;
   readonly span: Span;
 }
 
@@ -120,6 +176,8 @@ export interface Constructor {
   readonly fields: readonly Field[];
   readonly layout: readonly LayoutItem[];
   readonly operator: Operator | null;
+  /** `ctor(...) scope = ...`: the node opens a scope for `enter`/`known` fields below it */
+  readonly scope: boolean;
   readonly span: Span;
 }
 
@@ -130,6 +188,8 @@ export interface Sort {
   readonly constructors: readonly string[];
   /** grouping brackets that may wrap any term of this sort (needed by sorts with operators) */
   readonly parens: { readonly open: string; readonly close: string } | null;
+  /** `sort S kind Family`: every node of this sort has a kind of this family; null otherwise */
+  readonly family: string | null;
   readonly span: Span;
 }
 
@@ -148,11 +208,37 @@ export interface Grammar {
   readonly space: string;
   readonly tokens: readonly TokenClass[];
   readonly nameSets: readonly NameSet[];
+  /** `kinds F` declarations */
+  readonly kindFamilies: readonly KindFamily[];
+  /** true when any field is `enter`/`known` or any kind is declared (names need binding beyond members) */
+  readonly scoped: boolean;
   readonly sorts: readonly Sort[];
   readonly constructors: readonly Constructor[];
   /** every distinct literal text of every layout (and parens), sorted; 'reserved' classes exclude these */
   readonly keywords: readonly string[];
 }
 
-/** Values bound to open name sets: set name → allowed members. */
-export type NameBindings = Readonly<Record<string, readonly string[]>>;
+/** The key under which NameBindings carry owners and kinds (a symbol: set names are strings). */
+export const NAME_FACTS: unique symbol = Symbol.for('treewright.nameFacts');
+
+/**
+ * What is bound with the members, by name, as read from a names file or a database (checked and
+ * turned into integer ids against a grammar by tree/bound.ts).
+ */
+export interface NameFacts {
+  /** set → member → the owner-set members it belongs to (sets declared `in Owner`) */
+  readonly owners: Readonly<Record<string, Readonly<Record<string, readonly string[]>>>>;
+  /** set → member → its kind per slot, in slot order (null: unconstrained) */
+  readonly kinds: Readonly<Record<string, Readonly<Record<string, readonly (string | null)[]>>>>;
+  /** kind family → kind → its parent kind (null: none), in the order given */
+  readonly families: Readonly<Record<string, Readonly<Record<string, string | null>>>>;
+  /** where the facts come from, for messages (a file name) */
+  readonly source: string;
+}
+
+/**
+ * Values bound to open name sets: set name → allowed members. Owners and kinds ride along under
+ * the NAME_FACTS symbol key, non-enumerable (invisible to Object.entries, JSON.stringify and
+ * spreading; tree/names.ts withFacts and mergeNames set and keep it).
+ */
+export type NameBindings = Readonly<Record<string, readonly string[]>> & { readonly [NAME_FACTS]?: NameFacts };

@@ -23,15 +23,23 @@ export const NOTATION_SOURCE = String.raw`
 Twg {
   Description = GrammarDecl Decl* end
   GrammarDecl = grammarKw name
-  Decl = StartDecl | SpaceDecl | TokenDecl | NamesDecl | SortDecl
+  Decl = StartDecl | SpaceDecl | TokenDecl | NamesDecl | KindsDecl | SortDecl
   StartDecl = startKw name
   SpaceDecl = spaceKw string
-  TokenDecl = tokenKw name "=" regex asKw kindWord reservedKw?
-  NamesDecl = namesKw name ofKw name
-  SortDecl = sortKw name ParensDecl? "{" Ctor* "}"
+  TokenDecl = tokenKw name "=" regex asKw kindWord reservedKw? KindClause?
+  NamesDecl = namesKw name ofKw name InClause? WithClause?
+  InClause = inKw name
+  WithClause = withKw "(" ListOf<SlotDecl, ","> ")"
+  SlotDecl = name ":" name
+  KindsDecl = kindsKw name
+  KindClause = kindKw name
+  SortDecl = sortKw name KindClause? ParensDecl? "{" Ctor* "}"
   ParensDecl = parensKw string string
-  Ctor = name "(" ListOf<FieldDecl, ","> ")" "=" Item* OperatorDecl? ";"
-  FieldDecl = name ":" scoping? name card?
+  Ctor = name "(" ListOf<FieldDecl, ","> ")" scopeKw? "=" Item* OperatorDecl? ";"
+  FieldDecl = name ":" scoping? name card? ByClause? FieldKind?
+  ByClause = byKw name
+  FieldKind = kindKw name KindSlotRef?
+  KindSlotRef = "." name
   Item = glue? Atom
   Atom = Group | string | Slot
   Group = "[" Item* "]"
@@ -42,7 +50,7 @@ Twg {
                | prefixKw number        -- prefix
                | postfixKw number       -- postfix
 
-  scoping = newKw | boundKw
+  scoping = newKw | boundKw | enterKw | knownKw
   card = "?" | "*" | "+"
   glue = "~"
   assoc (left, right or none) = (leftKw | rightKw | noneKw)
@@ -77,6 +85,14 @@ Twg {
   sepKw = "sep" ~identPart
   newKw = "new" ~identPart
   boundKw = "bound" ~identPart
+  enterKw = "enter" ~identPart
+  knownKw = "known" ~identPart
+  kindsKw = "kinds" ~identPart
+  kindKw = "kind" ~identPart
+  inKw = "in" ~identPart
+  withKw = "with" ~identPart
+  byKw = "by" ~identPart
+  scopeKw = "scope" ~identPart
   infixKw = "infix" ~identPart
   prefixKw = "prefix" ~identPart
   postfixKw = "postfix" ~identPart
@@ -128,31 +144,51 @@ semantics.addOperation<unknown>('ast', {
   SpaceDecl(_kw: Node, s: Node): DeclAst {
     return { kind: 'space', value: str(s), span: spanOf(this as unknown as Node) };
   },
-  TokenDecl(_kw: Node, n: Node, _eq: Node, re: Node, _as: Node, kind: Node, reserved: Node): DeclAst {
+  TokenDecl(_kw: Node, n: Node, _eq: Node, re: Node, _as: Node, kind: Node, reserved: Node, family: Node): DeclAst {
+    const f = opt(family);
     return {
       kind: 'token',
       name: ident(n),
       regex: re.ast(),
       valueKind: ident(kind),
       reserved: reserved.numChildren > 0,
+      family: f ? ident(f.child(1)) : null,
       span: spanOf(this as unknown as Node),
     };
   },
-  NamesDecl(_kw: Node, n: Node, _of: Node, tok: Node): DeclAst {
-    return { kind: 'names', name: ident(n), token: ident(tok), span: spanOf(this as unknown as Node) };
+  NamesDecl(_kw: Node, n: Node, _of: Node, tok: Node, inClause: Node, withClause: Node): DeclAst {
+    const i = opt(inClause);
+    const w = opt(withClause);
+    return {
+      kind: 'names',
+      name: ident(n),
+      token: ident(tok),
+      owner: i ? ident(i.child(1)) : null,
+      slots: w
+        ? w.child(2).asIteration().children.map((s) => ({ name: ident(s.child(0)), family: ident(s.child(2)), span: spanOf(s) }))
+        : null,
+      slotsSpan: w ? spanOf(w) : null,
+      span: spanOf(this as unknown as Node),
+    };
   },
-  SortDecl(_kw: Node, n: Node, parens: Node, _o: Node, ctors: Node, _c: Node): DeclAst {
+  KindsDecl(_kw: Node, n: Node): DeclAst {
+    return { kind: 'kinds', name: ident(n), span: spanOf(this as unknown as Node) };
+  },
+  SortDecl(_kw: Node, n: Node, family: Node, parens: Node, _o: Node, ctors: Node, _c: Node): DeclAst {
     const p = opt(parens);
+    const f = opt(family);
     return {
       kind: 'sort',
       name: ident(n),
+      family: f ? ident(f.child(1)) : null,
       parens: p ? { open: str(p.child(1)), close: str(p.child(2)), span: spanOf(p) } : null,
       ctors: ctors.children.map((c) => c.ast()),
       span: spanOf(this as unknown as Node),
     };
   },
-  Ctor(n: Node, _o: Node, fields: Node, _c: Node, _eq: Node, items: Node, op: Node, _semi: Node): CtorAst {
+  Ctor(n: Node, _o: Node, fields: Node, _c: Node, scope: Node, _eq: Node, items: Node, op: Node, _semi: Node): CtorAst {
     const o = opt(op);
+    const sc = opt(scope);
     const self = this as unknown as Node;
     return {
       name: ident(n),
@@ -160,17 +196,23 @@ semantics.addOperation<unknown>('ast', {
       layout: items.children.map((i) => i.ast()),
       layoutSpan: items.numChildren > 0 ? { start: items.source.startIdx, end: items.source.endIdx } : { start: _eq.source.startIdx, end: _eq.source.endIdx },
       operator: o ? o.ast() : null,
+      scope: sc ? ident(sc) : null,
       span: spanOf(self),
     };
   },
-  FieldDecl(n: Node, _colon: Node, scoping: Node, type: Node, card: Node): FieldAst {
+  FieldDecl(n: Node, _colon: Node, scoping: Node, type: Node, card: Node, by: Node, kind: Node): FieldAst {
     const s = opt(scoping);
     const c = opt(card);
+    const b = opt(by);
+    const k = opt(kind);
+    const slot = k ? opt(k.child(2)) : null;
     return {
       name: ident(n),
       scoping: s ? ident(s) : null,
       type: ident(type),
       card: c ? ident(c) : null,
+      by: b ? ident(b.child(1)) : null,
+      kindOf: k ? { field: ident(k.child(1)), slot: slot ? ident(slot.child(1)) : null, span: spanOf(k) } : null,
       span: spanOf(this as unknown as Node),
     };
   },

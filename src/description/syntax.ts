@@ -32,12 +32,27 @@ export type DeclAst =
       readonly regex: RegexLit;
       readonly valueKind: Ident;
       readonly reserved: boolean;
+      /** `kind Family` after the value kind */
+      readonly family: Ident | null;
       readonly span: Span;
     }
-  | { readonly kind: 'names'; readonly name: Ident; readonly token: Ident; readonly span: Span }
+  | {
+      readonly kind: 'names';
+      readonly name: Ident;
+      readonly token: Ident;
+      /** `in Owner` */
+      readonly owner: Ident | null;
+      /** `with (slot: Family, ...)`; null when absent */
+      readonly slots: readonly { readonly name: Ident; readonly family: Ident; readonly span: Span }[] | null;
+      readonly slotsSpan: Span | null;
+      readonly span: Span;
+    }
+  | { readonly kind: 'kinds'; readonly name: Ident; readonly span: Span }
   | {
       readonly kind: 'sort';
       readonly name: Ident;
+      /** `kind Family` after the sort name */
+      readonly family: Ident | null;
       readonly parens: { readonly open: StrLit; readonly close: StrLit; readonly span: Span } | null;
       readonly ctors: readonly CtorAst[];
       readonly span: Span;
@@ -45,11 +60,15 @@ export type DeclAst =
 
 export interface FieldAst {
   readonly name: Ident;
-  /** `new` or `bound`, as written */
+  /** `new`, `bound`, `enter` or `known`, as written */
   readonly scoping: Ident | null;
   readonly type: Ident;
   /** `?`, `*` or `+`, as written */
   readonly card: Ident | null;
+  /** `by field` */
+  readonly by: Ident | null;
+  /** `kind self`, `kind field` or `kind field.slot`: the words after `kind` */
+  readonly kindOf: { readonly field: Ident; readonly slot: Ident | null; readonly span: Span } | null;
   readonly span: Span;
 }
 
@@ -78,6 +97,8 @@ export interface CtorAst {
   /** the layout items as a whole (the `=` sign when the layout is empty) */
   readonly layoutSpan: Span;
   readonly operator: OperatorAst | null;
+  /** the `scope` word, when written */
+  readonly scope: Ident | null;
   readonly span: Span;
 }
 
