@@ -33,7 +33,7 @@
  * JSON Schema cannot express variable scoping or numeric token regexes (schema.ts).
  */
 export { validateTree, assertTree, TreeError, type Tree, type TreeValue, type TreeIssue, type ValidateOptions } from './validate.ts';
-export { printTree, printTokens } from './print.ts';
+export { printTree, printTokens, printedBlank, PrintError } from './print.ts';
 export { createParser, ParseError, GrammarFeatureError, type Parser, type ParseOptions } from './parse.ts';
 export { mulberry32 } from '../util/random.ts';
 export { sampleTree, createSampler, SampleError, type Sampler, type SampleOptions } from './sample.ts';

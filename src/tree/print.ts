@@ -12,6 +12,13 @@
  * characters, and after a keyword when the glued text would extend it into a longer keyword
  * (`<` then `=` is printed `< =`, never `<=`).
  *
+ * The blank printed is the description's own (`space`): a space when `space` holds one, else its
+ * first character (a tab for `space "\t"`); with `space ""` nothing can stand between tokens, so
+ * the printer prints none, refuses a tree where two tokens would run together (the two rules
+ * above), and parses what it printed to check that it reads back as the same tree (a glued
+ * grammar's lexemes may merge in other ways: `1` then `2` would read as `12`). Every printed text
+ * parses: what cannot be printed throws PrintError.
+ *
  * Parentheses: an operator node is wrapped in its sort's `parens` exactly when the parser's
  * precedence levels could not read it in that position (see needsParens).
  */
@@ -20,13 +27,48 @@ import { grammarInfo, type GrammarInfo } from './info.ts';
 import { valueToLexeme, type TokenValue } from './lexeme.ts';
 import { isWordCode } from './regex.ts';
 import { assertTree, type Tree, type TreeValue } from './validate.ts';
+import { createParser, ParseError } from './parse.ts';
+
+/** A valid tree that has no text in its grammar (only with `space ""`: two tokens would run together). */
+export class PrintError extends Error {
+  constructor(message: string) {
+    super(message);
+    this.name = 'PrintError';
+  }
+}
+
+/**
+ * The blank the printer puts between tokens: a space when the description's `space` allows one,
+ * else its first character, or '' when `space` is empty. Keep in sync with the README's
+ * "Canonical layout".
+ */
+export function printedBlank(grammar: Grammar): string {
+  if (grammar.space.includes(' ')) return ' ';
+  return grammar.space.length > 0 ? String.fromCodePoint(grammar.space.codePointAt(0)!) : '';
+}
 
 /** Prints a tree of the start sort (validated first; throws TreeError with a JSON path when invalid). */
 export function printTree(grammar: Grammar, tree: unknown, opts: { sort?: string } = {}): string {
   assertTree(grammar, tree, { sort: opts.sort });
   const out = new Output(grammarInfo(grammar));
   printNode(out, tree, false, null);
-  return out.text();
+  const text = out.text();
+  if (out.blank === '' && (opts.sort === undefined || opts.sort === grammar.start)) checkGlued(grammar, tree, text);
+  return text;
+}
+
+/** With `space ""`: the printed text must read back as the tree (else PrintError). */
+function checkGlued(grammar: Grammar, tree: Tree, text: string): void {
+  let back: Tree;
+  try {
+    back = createParser(grammar).parse(text, '<printed>');
+  } catch (e) {
+    if (!(e instanceof ParseError)) throw e;
+    throw new PrintError(`cannot print this tree: its tokens run together as ${JSON.stringify(text)}, which does not parse (the description's space is empty, so nothing can separate them)`);
+  }
+  if (JSON.stringify(back) !== JSON.stringify(tree)) {
+    throw new PrintError(`cannot print this tree: its tokens run together as ${JSON.stringify(text)}, which reads back as another tree (the description's space is empty, so nothing can separate them)`);
+  }
 }
 
 /**
@@ -52,7 +94,9 @@ class Output {
   private last = '';
   private lastIsKeyword = false;
   private readonly longer: ReadonlyMap<string, readonly string[]>;
+  readonly blank: string;
   constructor(readonly info: GrammarInfo) {
+    this.blank = printedBlank(info.grammar);
     const longer = new Map<string, string[]>();
     for (const k of info.grammar.keywords) {
       const ext = info.grammar.keywords.filter((l) => l.length > k.length && l.startsWith(k));
@@ -64,13 +108,18 @@ class Output {
   emit(text: string, glue: boolean, keyword: boolean): void {
     let space = false;
     if (this.parts.length > 0) {
-      space = !glue;
-      if (!space && isWordCode(this.last.charCodeAt(this.last.length - 1)) && isWordCode(text.charCodeAt(0))) space = true;
-      if (!space && this.lastIsKeyword) {
+      let needed = isWordCode(this.last.charCodeAt(this.last.length - 1)) && isWordCode(text.charCodeAt(0));
+      if (!needed && this.lastIsKeyword) {
         const joined = this.last + text;
-        if (this.longer.get(this.last)?.some((l) => joined.startsWith(l))) space = true;
+        if (this.longer.get(this.last)?.some((l) => joined.startsWith(l))) needed = true;
       }
-      if (space) this.parts.push(' ');
+      if (needed && this.blank === '') {
+        throw new PrintError(
+          `cannot print this tree: ${JSON.stringify(this.last)} and ${JSON.stringify(text)} would run together into one token, and the description's space is empty, so nothing can separate them`,
+        );
+      }
+      space = this.blank !== '' && (needed || !glue);
+      if (space) this.parts.push(this.blank);
     }
     this.parts.push(text);
     this.tokens.push({ text, space });

@@ -13,6 +13,9 @@
  * class and `bound` ones are drawn from the variables in scope; other token values are generated
  * from the class regex and kept only when they print back to themselves (validateTree's rule).
  *
+ * With `space ""` a tree whose tokens would run together has no text (print.ts); such trees are
+ * drawn again (up to 200 times), so every sampled tree prints to text that parses back.
+ *
  * Cost: O(nodes) per tree after an O(C · F · rounds) table build (C constructors, F fields).
  */
 import type { Constructor, Field, Grammar, NameBindings } from '../description/ir.ts';
@@ -21,6 +24,7 @@ import { lexemeToValue, nameSpellingProblem, tokenValueProblem, type TokenValue 
 import { generate } from './regex.ts';
 import { mulberry32 } from '../util/random.ts';
 import type { Tree, TreeValue } from './validate.ts';
+import { printedBlank, printTree, PrintError } from './print.ts';
 
 export interface SampleOptions {
   /** any 32-bit integer; the same seed gives the same trees */
@@ -164,7 +168,23 @@ export function createSampler(grammar: Grammar, opts: SampleOptions): Sampler {
     }
   };
 
-  return { next: () => node(sortName, maxDepth, []) };
+  // with `space ""` some trees have no text (two tokens would run together): draw again, so every
+  // sampled tree prints and the printed text parses back (print.ts)
+  if (printedBlank(grammar) !== '' || sortName !== grammar.start) return { next: () => node(sortName, maxDepth, []) };
+  return {
+    next: () => {
+      for (let attempt = 0; attempt < 200; attempt++) {
+        const t = node(sortName, maxDepth, []);
+        try {
+          printTree(grammar, t);
+          return t;
+        } catch (e) {
+          if (!(e instanceof PrintError)) throw e;
+        }
+      }
+      throw new SampleError(`200 sampled ${sortName} trees in a row have no text: with \`space ""\` their tokens run together; give the layout literal separators between word-like items, or weight the constructors that glue them lower`);
+    },
+  };
 }
 
 function lexeme(tok: TokenInfo, rand: () => number): string {

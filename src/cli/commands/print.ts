@@ -5,14 +5,19 @@
  */
 import type { Command } from 'commander';
 import type { Grammar, NameBindings } from '../../description/ir.ts';
-import { printTree, validateTree } from '../../tree/index.ts';
+import { PrintError, printTree, validateTree } from '../../tree/index.ts';
 import { runCommand, UsageError, type RegisterCommand } from '../command.ts';
 import { opt, readInput, withInputs } from '../options.ts';
 
 function printOne(grammar: Grammar, value: unknown, where: string, names: NameBindings | undefined): string {
   const issue = validateTree(grammar, value, { names });
   if (issue !== null) throw new UsageError(`${where}: ${issue.path}: ${issue.message}`);
-  return printTree(grammar, value);
+  try {
+    return printTree(grammar, value);
+  } catch (e) {
+    if (e instanceof PrintError) throw new UsageError(`${where}: ${e.message}`);
+    throw e;
+  }
 }
 
 export const register: RegisterCommand = (program: Command, setExit) => {
