@@ -121,6 +121,9 @@ export const opt = {
     new Option('--prefix <text>', 'text put before each question (default: the model config\'s treewright.prefixes[grammar name], else "to <grammar name>: "; not repeated when the question starts with it)'),
   /** `--cache <dir>`; resolve the value with maskCacheDir (keep the help in sync with defaultCacheDir in src/masks/cache.ts) */
   cache: () => new Option('--cache <dir>', 'mask cache folder (default: treewright/masks in the per-user cache folder, $XDG_CACHE_HOME or ~/.cache; created private, mode 0700)'),
+  /** `--queue-name <name>` of evaluate and worker (the two must agree) */
+  queueName: () =>
+    new Option('--queue-name <name>', 'name of the queue in Redis, for several evaluations on one server (letters, digits, _ - .; default treewright)').default('treewright'),
   /** `--no-cache` */
   noCache: () => new Option('--no-cache', 'leave the mask cache folder alone: compute the masks afresh'),
 };

@@ -9,7 +9,7 @@ import { join } from 'node:path';
 import { ResultsLog, rowKey } from './log.ts';
 import { computeMetrics, computeTaxonomy, type Metrics } from './metrics.ts';
 import { writeReport } from './report.ts';
-import { checkRow, MODES, runEvaluation, type DecodeFn, type EvalItem, type EvalRow, type Scorer } from './run.ts';
+import { checkRow, jobsOf, runEvaluation, type DecodeFn, type EvalItem, type EvalRow, type Job, type RowMaker, type Scorer } from './run.ts';
 
 export interface LoadItemsOptions {
   /** the field holding the gold program (default: the grammar's name, e.g. "sql" or "lf") */
@@ -55,10 +55,32 @@ export function loadItems(file: string, opts: LoadItemsOptions): EvalItem[] {
   return items;
 }
 
+/**
+ * Something that turns jobs into rows elsewhere than in this loop: local worker processes
+ * (pool.ts) or workers pulling from a Redis queue (src/queue/). Rows may come in any order;
+ * `emit` writes each one to results.jsonl at once.
+ */
+export interface RowProducer {
+  /** makes one row per job and calls `emit` with each; resolves when every job has its row */
+  produce(jobs: readonly Job[], emit: (row: EvalRow) => void): Promise<void>;
+}
+
+/** A RowProducer making the rows in this process, one after another, in the jobs' order. */
+export function inProcess(maker: RowMaker): RowProducer {
+  return {
+    async produce(jobs, emit) {
+      for (const j of jobs) emit(await maker.row(j.item, j.mode));
+    },
+  };
+}
+
 export interface EvaluateOptions {
   readonly items: readonly EvalItem[];
-  readonly decode: DecodeFn;
-  readonly scorer: Scorer;
+  /** decoding and scoring in this process (used when no producer is given) */
+  readonly decode?: DecodeFn;
+  readonly scorer?: Scorer;
+  /** makes the rows elsewhere (decode and scorer are then unused) */
+  readonly producer?: RowProducer;
   readonly outDir: string;
   /** shown at the top of the report */
   readonly meta: Readonly<Record<string, string>>;
@@ -74,19 +96,41 @@ export interface EvaluateResult {
   readonly rows: readonly EvalRow[];
 }
 
+/**
+ * Runs (or continues) an evaluation into `outDir`. Metrics, taxonomy and report read the rows in
+ * the data's order (item by item, unconstrained then constrained), whatever order they were
+ * written in, so a run by several workers gives the same figures as a run by one.
+ */
 export async function evaluate(opts: EvaluateOptions): Promise<EvaluateResult> {
   mkdirSync(opts.outDir, { recursive: true });
   const log = new ResultsLog<EvalRow>(join(opts.outDir, 'results.jsonl'), checkRow);
-  const keys = new Set(opts.items.flatMap((it) => MODES.map((mode) => rowKey({ id: it.id, mode }))));
+  const jobs = jobsOf(opts.items);
+  const keys = new Set(jobs.map((j) => rowKey({ id: j.item.id, mode: j.mode })));
   const resumed = log.rows.filter((r) => keys.has(rowKey(r))).length;
   opts.onStart?.(resumed, keys.size);
-  let written: number;
+  let written = 0;
   try {
-    written = await runEvaluation({ items: opts.items, decode: opts.decode, scorer: opts.scorer, log, onRow: opts.onRow });
+    if (opts.producer !== undefined) {
+      const pending = jobs.filter((j) => !log.has(j.item.id, j.mode));
+      const wanted = new Set(pending.map((j) => rowKey({ id: j.item.id, mode: j.mode })));
+      let done = resumed;
+      await opts.producer.produce(pending, (row) => {
+        // a row for another job, or one already written, is dropped (a producer may deliver twice)
+        if (!wanted.has(rowKey(row)) || log.has(row.id, row.mode)) return;
+        log.append(row);
+        written++;
+        done++;
+        opts.onRow?.(row, done, keys.size);
+      });
+    } else {
+      if (opts.decode === undefined || opts.scorer === undefined) throw new Error('evaluate: expected decode and scorer, or a producer');
+      written = await runEvaluation({ items: opts.items, decode: opts.decode, scorer: opts.scorer, log, onRow: opts.onRow });
+    }
   } finally {
     log.close();
   }
-  const rows = log.rows.filter((r) => keys.has(rowKey(r)));
+  const byKey = new Map(log.rows.map((r) => [rowKey(r), r]));
+  const rows = jobs.map((j) => byKey.get(rowKey({ id: j.item.id, mode: j.mode }))).filter((r): r is EvalRow => r !== undefined);
   const metrics = computeMetrics(rows);
   const taxonomy = computeTaxonomy(rows);
   writeFileSync(join(opts.outDir, 'metrics.json'), JSON.stringify(metrics, null, 2) + '\n');

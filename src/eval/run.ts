@@ -175,6 +175,44 @@ interface GoldInfo {
   readonly error: string | null;
 }
 
+/** One unit of work: an item decoded in one mode (one row of results.jsonl). */
+export interface Job {
+  readonly item: EvalItem;
+  readonly mode: Mode;
+}
+
+/**
+ * Produces rows from jobs: decodes, scores and executes one item in one mode at a time. The gold
+ * program of an item is parsed and executed once and kept for the item's other mode (the last
+ * few items are remembered, so jobs of one item that arrive close together share the work).
+ * Every way of running an evaluation — this process, local worker processes, queue workers —
+ * makes its rows with a RowMaker, so the rows are the same whichever runs them.
+ */
+export class RowMaker {
+  private readonly gold = new Map<string, Promise<GoldInfo>>();
+  private static readonly KEEP = 8;
+
+  constructor(
+    private readonly decode: DecodeFn,
+    private readonly scorer: Scorer,
+  ) {}
+
+  async row(item: EvalItem, mode: Mode): Promise<EvalRow> {
+    let gold = this.gold.get(item.id);
+    if (gold === undefined) {
+      gold = scoreGold(this.scorer, item);
+      this.gold.set(item.id, gold);
+      if (this.gold.size > RowMaker.KEEP) this.gold.delete(this.gold.keys().next().value as string);
+    }
+    return scoreOne(this.decode, this.scorer, item, mode, await gold);
+  }
+}
+
+/** The jobs of `items` × `modes` in order (item by item, modes in the given order). */
+export function jobsOf(items: readonly EvalItem[], modes: readonly Mode[] = MODES): Job[] {
+  return items.flatMap((item) => modes.map((mode) => ({ item, mode })));
+}
+
 /** Runs the evaluation; rows already in the log are skipped. Returns the number of rows written. */
 export async function runEvaluation(opts: RunOptions): Promise<number> {
   const modes = opts.modes ?? MODES;
@@ -182,17 +220,14 @@ export async function runEvaluation(opts: RunOptions): Promise<number> {
   let done = 0;
   for (const item of opts.items) for (const mode of modes) if (opts.log.has(item.id, mode)) done++;
   let written = 0;
-  for (const item of opts.items) {
-    let gold: GoldInfo | null = null;
-    for (const mode of modes) {
-      if (opts.log.has(item.id, mode)) continue;
-      gold ??= await scoreGold(opts.scorer, item);
-      const row = await scoreOne(opts, item, mode, gold);
-      opts.log.append(row);
-      written++;
-      done++;
-      opts.onRow?.(row, done, total);
-    }
+  const maker = new RowMaker(opts.decode, opts.scorer);
+  for (const { item, mode } of jobsOf(opts.items, modes)) {
+    if (opts.log.has(item.id, mode)) continue;
+    const row = await maker.row(item, mode);
+    opts.log.append(row);
+    written++;
+    done++;
+    opts.onRow?.(row, done, total);
   }
   return written;
 }
@@ -207,16 +242,16 @@ async function scoreGold(scorer: Scorer, item: EvalItem): Promise<GoldInfo> {
   return { tree: a.tree, answer: r.value, error: null };
 }
 
-async function scoreOne(opts: RunOptions, item: EvalItem, mode: Mode, gold: GoldInfo): Promise<EvalRow> {
+async function scoreOne(decode: DecodeFn, scorer: Scorer, item: EvalItem, mode: Mode, gold: GoldInfo): Promise<EvalRow> {
   const t0 = performance.now();
-  const out = await opts.decode(item, mode);
+  const out = await decode(item, mode);
   const latency = performance.now() - t0;
-  const a = opts.scorer.analyse(out.text, out.truncated);
+  const a = scorer.analyse(out.text, out.truncated);
   let executable = false;
   let answer: unknown = null;
   let failure = a.failure;
   if (a.valid && a.well_typed && a.tree !== null) {
-    const r = await opts.scorer.execute(a.tree);
+    const r = await scorer.execute(a.tree);
     if (r.ok) {
       executable = true;
       answer = r.value;
@@ -225,7 +260,7 @@ async function scoreOne(opts: RunOptions, item: EvalItem, mode: Mode, gold: Gold
     }
   }
   const exact = a.tree !== null && gold.tree !== null && a.well_typed && sameTree(a.tree, gold.tree);
-  const accurate = executable && gold.error === null && gold.tree !== null && opts.scorer.sameAnswer(gold.answer, answer, gold.tree);
+  const accurate = executable && gold.error === null && gold.tree !== null && scorer.sameAnswer(gold.answer, answer, gold.tree);
   return {
     id: item.id,
     split: item.split,

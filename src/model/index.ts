@@ -28,6 +28,6 @@
  *
  * Limits: batch of one question; the question must fit the model's positions; float32 graphs only.
  */
-export { loadModel, Seq2SeqModel, type ModelConfig, type LoadModelOptions, type ModelInput } from './load.ts';
+export { loadModel, prefixFor, readModelConfig, Seq2SeqModel, type ModelConfig, type LoadModelOptions, type ModelInput } from './load.ts';
 export { DecoderRun, type RunnableModel } from './run.ts';
 export { ModelError, InputTooLong, OutputTooLong } from './errors.ts';

@@ -55,6 +55,16 @@ function readJson(file: string): Record<string, unknown> {
   return value as Record<string, unknown>;
 }
 
+/** The prefix rule of Seq2SeqModel.prefixFor, on a config read without loading the model. */
+export function prefixFor(config: ModelConfig, grammarName: string): string {
+  return config.prefixes[grammarName] ?? `to ${grammarName}: `;
+}
+
+/** Reads and checks `<dir>/config.json` alone (no tokenizer, no ONNX sessions). */
+export function readModelConfig(dir: string): ModelConfig {
+  return readConfig(join(dir, 'config.json'));
+}
+
 function readConfig(file: string): ModelConfig {
   const c = readJson(file);
   const int = (key: string, fallback?: number): number => {
@@ -145,7 +155,7 @@ export class Seq2SeqModel {
    * else `"to <name>: "` (the shipped model's convention; `treewright evaluate` uses the same rule).
    */
   prefixFor(grammarName: string): string {
-    return this.config.prefixes[grammarName] ?? `to ${grammarName}: `;
+    return prefixFor(this.config, grammarName);
   }
 
   /** Token ids of a question, as the tokenizer encodes it (EOS appended by its template). */

@@ -1,6 +1,7 @@
 /**
  * `treewright evaluate --model DIR --grammar G --data FILE.jsonl --out DIR [--beam K] [--limit N]
- * [--split NAME] [--db FILE] [--names FILE] [--executor MODULE] [--max-tokens N] [--prefix TEXT]`:
+ * [--split NAME] [--db FILE] [--names FILE] [--executor MODULE] [--max-tokens N] [--prefix TEXT]
+ * [--workers N | --queue redis://HOST:PORT [--queue-name NAME]]`:
  * decodes every item of the data file(s) (--data may be repeated; --limit applies per file) twice (unconstrained, constrained), scores each output
  * (valid, well_typed, executable, exact_match, execution_accuracy, tokens, latency, mask-time
  * share) and writes to --out: results.jsonl (appended row by row; a killed run started again
@@ -11,13 +12,28 @@
  * exporting execute(tree, context), see src/exec/types.ts). The model's input is
  * `<prefix><question>`; the prefix is --prefix, else `treewright.prefixes[<grammar name>]` in the
  * model's config.json, else `to <grammar name>: ` (the shipped model's convention).
+ *
+ * Who decodes: `--workers N` child processes on this machine (default: one per core; rows come
+ * out in the data's order, as with one), or, with `--queue redis://HOST:PORT`, any number of
+ * `treewright worker` processes on any machines (src/queue/; rows in the order they arrive).
+ * Metrics and report read the rows in the data's order, so they do not depend on who decoded.
  * Exit code 0 when the run finished, 1 on an error (printed on stderr, naming the file).
  */
+import { existsSync } from 'node:fs';
+import { availableParallelism } from 'node:os';
+import { join } from 'node:path';
+import { fileURLToPath } from 'node:url';
 import { Option, type Command } from 'commander';
-import type { ExecuteFn } from '../../exec/types.ts';
-import type { DecodeFn, EvalRow, Mode } from '../../eval/run.ts';
+import type { RowProducer } from '../../eval/evaluate.ts';
+import type { EvalRow } from '../../eval/run.ts';
+import type { Decoding } from '../../queue/fingerprint.ts';
 import { runCommand, type RegisterCommand } from '../command.ts';
-import { bindNames, dbBindsNames, integer, loadGrammarFile, openDatabase, opt } from '../options.ts';
+import type { ChildInit } from '../eval-child.ts';
+import { integer, opt } from '../options.ts';
+import { openEvalSetup, openExecution, type EvalSetup, type SetupFlags } from './eval-setup.ts';
+
+/** The queue name when --queue-name is not given (evaluate and worker agree on it). */
+export const DEFAULT_QUEUE_NAME = 'treewright';
 
 interface Flags {
   model: string;
@@ -32,6 +48,9 @@ interface Flags {
   executor?: string;
   maxTokens?: number;
   prefix?: string;
+  workers: number;
+  queue?: string;
+  queueName: string;
 }
 
 export const register: RegisterCommand = (program: Command, setExit) => {
@@ -50,42 +69,30 @@ export const register: RegisterCommand = (program: Command, setExit) => {
     .option('--executor <module>', 'your own executor: an ES module exporting execute(tree, context)')
     .addOption(opt.maxTokens())
     .addOption(opt.inputPrefix())
+    .addOption(
+      new Option('--workers <n>', `decoding processes on this machine, each with its own copy of the model (default: the number of cores, here ${availableParallelism()}); the rows and metrics do not depend on it`)
+        .argParser(integer(1, 256))
+        .default(availableParallelism()),
+    )
+    .addOption(new Option('--queue <url>', 'hand the items to `treewright worker` processes on any machines through Redis at redis://HOST:PORT[/DB]; rows are collected here').conflicts('workers'))
+    .addOption(opt.queueName())
     .action((f: Flags) => runCommand(setExit, () => evaluateCommand(f), 'treewright evaluate'));
 };
 
 async function evaluateCommand(f: Flags): Promise<void> {
-  // loaded here so that other commands start without onnxruntime and the mask engine
-  const { generate, maskEngine } = await import('../../decode/index.ts');
-  const { loadModel } = await import('../../model/index.ts');
-  const { SqlRunner, sqlExecutor, lfExecutor, factsFromDatabase, loadExecutor } = await import('../../exec/index.ts');
-  const { evaluate, loadItems } = await import('../../eval/evaluate.ts');
-  const { createScorer } = await import('../../eval/target.ts');
-
+  const { evaluate, inProcess, loadItems } = await import('../../eval/evaluate.ts');
   const { beam, limit, maxTokens } = f;
-  const grammar = loadGrammarFile(f.grammar);
   const gPath = f.grammar;
-  const db = f.db === undefined ? null : openDatabase(f.db);
-  let closeRunner: (() => void) | null = null;
-  try {
-    let execute: ExecuteFn;
-    if (f.executor !== undefined) execute = await loadExecutor(f.executor);
-    else if (grammar.name === 'sql') {
-      if (db === null) throw new Error(`--db: missing; expected the SQLite database (or .sql script) the ${gPath} programs run on`);
-      const runner = new SqlRunner(db.path);
-      closeRunner = () => runner.close();
-      execute = sqlExecutor(runner, grammar);
-    } else if (grammar.name === 'lf') {
-      if (db === null) throw new Error(`--db: missing; expected the SQLite database (or .sql script) the ${gPath} fact base is read from`);
-      execute = lfExecutor(factsFromDatabase(db.path));
-    } else {
-      throw new Error(`--executor: missing; expected an executor module for grammar ${grammar.name} (${gPath}); the shipped executors cover sql and lf`);
-    }
-    // with your own executor, --db may serve the executor alone: names come from it only when the
-    // grammar declares sets it can bind
-    const names = (await bindNames(grammar, f, db !== null && dbBindsNames(grammar) ? db : null)) ?? {};
+  const decoding: Decoding = { beam: beam ?? null, maxTokens: maxTokens ?? null, prefix: f.prefix ?? null };
+  const setupFlags: SetupFlags = { model: f.model, grammar: f.grammar, db: f.db, names: f.names, executor: f.executor };
 
-    const items = f.data.flatMap((file) => {
-      const got = loadItems(file, { goldField: grammar.name, split: f.split, limit });
+  // the grammar, names and executor are checked here first, whoever decodes
+  const ex = await openExecution(setupFlags);
+  const grammarName = ex.grammar.name;
+  let items;
+  try {
+    items = f.data.flatMap((file) => {
+      const got = loadItems(file, { goldField: grammarName, split: f.split, limit });
       if (got.length === 0) throw new Error(`${file}: no items${f.split !== undefined ? ` in split ${JSON.stringify(f.split)}` : ''}; expected at least one row`);
       return got;
     });
@@ -94,30 +101,58 @@ async function evaluateCommand(f: Flags): Promise<void> {
       if (ids.has(it.id)) throw new Error(`--data: the id ${JSON.stringify(it.id)} occurs in more than one file; expected unique ids`);
       ids.add(it.id);
     }
-    const model = await loadModel(f.model);
-    const prefix = f.prefix ?? model.prefixFor(grammar.name);
-    const decode: DecodeFn = async (item, mode: Mode) => {
-      const r = await generate(model, model.input(item.question, grammar.name, prefix).ids, {
-        grammar,
-        names,
-        unconstrained: mode === 'unconstrained',
-        strategy: beam !== undefined ? 'beam' : 'greedy',
-        beamWidth: beam,
-        maxTokens,
-      });
-      return { text: r.text, tokens: r.tokens.length, model_ms: r.model_ms, mask_ms: r.mask_ms, truncated: r.finished === 'length', token_texts: r.tokenTexts };
-    };
-    // warm-up outside the timed loop: compile the grammar's masks for this vocabulary (or load
-    // them from the cache) and run both modes once, so the first item's latency is not the set-up
-    maskEngine(model, grammar);
-    for (const unconstrained of [true, false]) await generate(model, model.input(items[0].question, grammar.name, prefix).ids, { grammar, names, unconstrained, maxTokens: 4 });
-    const scorer = createScorer({ grammar, names, execute, context: { grammar, db: db?.path } });
+  } catch (e) {
+    ex.dispose();
+    throw e;
+  }
 
+  let setup: EvalSetup | null = null;
+  let producer: RowProducer | undefined;
+  let how: string;
+  try {
+    if (f.queue !== undefined) {
+      const { parseRedisUrl, checkQueueName, fingerprint, queueProducer } = await import('../../queue/index.ts');
+      const target = parseRedisUrl(f.queue);
+      const name = checkQueueName(f.queueName);
+      if (!existsSync(join(f.model, 'config.json'))) throw new Error(`${f.model}: no config.json; expected a model folder (config.json, tokenizer.json, tokenizer_config.json, onnx/…)`);
+      const fp = fingerprint({ modelDir: f.model, grammarFile: gPath, names: ex.names, db: f.db, executor: f.executor, decoding });
+      producer = queueProducer({ target, name, fp, decoding, onNote: (t) => process.stderr.write(`evaluate: ${t}\n`) });
+      how = `queue ${target.display} (${name})`;
+      const workerFlags = [
+        `--queue ${f.queue.replace(/:[^:@/]*@/, ':***@')}`,
+        name !== DEFAULT_QUEUE_NAME ? `--queue-name ${name}` : '',
+        `--model ${f.model}`,
+        `--grammar ${f.grammar}`,
+        f.db !== undefined ? `--db ${f.db}` : '',
+        f.names !== undefined ? `--names ${f.names}` : '',
+        f.executor !== undefined ? `--executor ${f.executor}` : '',
+      ].filter((x) => x !== '');
+      process.stderr.write(`evaluate: rows are made by workers: treewright worker ${workerFlags.join(' ')} (same files on every machine)\n`);
+    } else if (f.workers > 1) {
+      const { processPool } = await import('../../eval/pool.ts');
+      const threads = Math.max(1, Math.floor(availableParallelism() / f.workers));
+      const init: ChildInit = { flags: setupFlags, decoding, threads, warmQuestion: items[0].question };
+      producer = processPool({ size: f.workers, entry: fileURLToPath(new URL('../eval-child.mjs', import.meta.url)), init });
+      how = `${f.workers} worker processes`;
+    } else {
+      ex.dispose();
+      setup = await openEvalSetup(setupFlags);
+      await setup.warmUp(items[0].question, decoding);
+      how = 'this process';
+    }
+  } catch (e) {
+    ex.dispose();
+    throw e;
+  }
+
+  process.stderr.write(`evaluate: rows made by ${how}\n`);
+  try {
+    const { readModelConfig, prefixFor } = await import('../../model/index.ts');
+    const prefix = decoding.prefix ?? (setup !== null ? setup.defaultPrefix : prefixFor(readModelConfig(f.model), grammarName));
     const progress = await makeProgress();
     const result = await evaluate({
       items,
-      decode,
-      scorer,
+      producer: producer ?? inProcess(setup!.maker(decoding)),
       outDir: f.out,
       meta: {
         model: f.model,
@@ -147,10 +182,9 @@ async function evaluateCommand(f: Flags): Promise<void> {
         );
       }
     }
-    await model.dispose();
   } finally {
-    closeRunner?.();
-    db?.dispose();
+    if (setup !== null) await setup.dispose();
+    else ex.dispose();
   }
 }
 

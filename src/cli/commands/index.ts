@@ -15,6 +15,7 @@ import { register as print } from './print.ts';
 import { register as sample } from './sample.ts';
 import { register as schema } from './schema.ts';
 import { register as serve } from './serve.ts';
+import { register as worker } from './worker.ts';
 
 export const COMMANDS: RegisterCommand[] = [
   bench,
@@ -29,4 +30,5 @@ export const COMMANDS: RegisterCommand[] = [
   sample,
   schema,
   serve,
+  worker,
 ];
