@@ -1,0 +1,11 @@
+import { defineConfig } from 'vitest/config';
+
+// Tests check results, never speed (performance lives in `treewright bench`). A shared or loaded
+// machine runs the heavier property tests 5-10x slower than an idle one, so the per-test limit is
+// generous: it only catches hangs.
+export default defineConfig({
+  test: {
+    testTimeout: 60_000,
+    hookTimeout: 60_000,
+  },
+});
