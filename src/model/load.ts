@@ -29,6 +29,14 @@ export interface ModelConfig {
 export interface LoadModelOptions {
   /** onnxruntime intra-op threads (default: onnxruntime's choice). */
   threads?: number;
+  /**
+   * Let onnxruntime's worker threads spin-wait for work between calls (default false: they sleep).
+   * Spinning keeps a core busy after every decoder call; on a machine with few cores (or shared
+   * with other jobs) that core is taken from the decoding thread itself — its masks, logits and
+   * beam bookkeeping run between two calls — so by default the workers sleep (see
+   * docs/design/decode-loop.md).
+   */
+  spinning?: boolean;
   /** Ignore decoder_model_merged.onnx and decode without cache from decoder_model.onnx. */
   noCache?: boolean;
 }
@@ -105,10 +113,14 @@ function readConfig(file: string): ModelConfig {
   };
 }
 
-async function session(file: string, threads: number | undefined): Promise<ort.InferenceSession> {
+async function session(file: string, threads: number | undefined, spinning: boolean): Promise<ort.InferenceSession> {
   if (!existsSync(file)) throw errors.missingFile(file);
   try {
     const opts: ort.InferenceSession.SessionOptions = { graphOptimizationLevel: 'all' };
+    // onnxruntime session config keys session.intra_op.allow_spinning / session.inter_op.allow_spinning
+    // (onnxruntime_session_options_config_keys.h); the Node binding takes them as `extra` strings
+    const spin = spinning ? '1' : '0';
+    opts.extra = { session: { intra_op: { allow_spinning: spin }, inter_op: { allow_spinning: spin } } };
     if (threads !== undefined) {
       opts.intraOpNumThreads = threads;
       opts.interOpNumThreads = 1;
@@ -228,9 +240,9 @@ export async function loadModel(dir: string, options: LoadModelOptions = {}): Pr
   if (!cached && !existsSync(plainFile)) throw errors.missingDecoder(dir);
   const decFile = cached ? mergedFile : plainFile;
 
-  const encoder = await session(encFile, options.threads);
+  const encoder = await session(encFile, options.threads, options.spinning ?? false);
   requireNames(encFile, encoder, ['input_ids'], ['last_hidden_state']);
-  const decoder = await session(decFile, options.threads);
+  const decoder = await session(decFile, options.threads, options.spinning ?? false);
   requireNames(decFile, decoder, ['input_ids', 'encoder_hidden_states'], ['logits']);
   if (cached) {
     const want: string[] = [];

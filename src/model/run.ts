@@ -82,6 +82,34 @@ export class DecoderRun {
     return run;
   }
 
+  /**
+   * Forgets the last `n` positions of every row (the tokens of a speculative run that the
+   * decoder did not confirm): the next step continues as if they had never been fed.
+   */
+  rollback(n: number): void {
+    if (n === 0) return;
+    const t0 = performance.now();
+    if (!Number.isInteger(n) || n < 0) throw new RangeError(`rollback: found ${n}; expected a count of positions ≥ 0`);
+    if (this.model.cached) {
+      for (const [name, t] of Object.entries(this.past)) {
+        // self-attention past [batch, heads, length, d_kv]: keep the first length − n positions
+        const [B, H, L, K] = t.dims;
+        if (n > L) throw new RangeError(`rollback: ${n} positions, the cache holds ${L}`);
+        const src = t.data as Float32Array;
+        const keep = L - n;
+        const out = new Float32Array(B * H * keep * K);
+        for (let bh = 0; bh < B * H; bh++) out.set(src.subarray(bh * L * K, bh * L * K + keep * K), bh * keep * K);
+        this.past[name] = new ort.Tensor('float32', out, [B, H, keep, K]);
+      }
+    } else {
+      for (const p of this.prefixes) {
+        if (n > p.length) throw new RangeError(`rollback: ${n} positions, the prefix holds ${p.length}`);
+        p.length -= n;
+      }
+    }
+    this.modelMs += performance.now() - t0;
+  }
+
   /** Number of rows of the last step (0 before the first). */
   get batch(): number {
     return this.rows;
@@ -103,11 +131,19 @@ export class DecoderRun {
    * (null: row r continues row r; on the first step every row starts from scratch and `tokens`
    * are normally the decoder start id). Returns the logits, row r at `r * vocabSize`.
    * The returned array is owned by the caller (may be modified in place).
+   *
+   * `positions` > 1 feeds several tokens per row in one call (a run of tokens the grammar forces):
+   * `tokens` is row-major [rows × positions], and the result holds the logits after each of them,
+   * row r position p at `(r * positions + p) * vocabSize` — the same logits as `positions` calls of
+   * one token each, up to float rounding (the graph's causal mask sees key j from query i iff
+   * j ≤ i + past length).
    */
-  async step(tokens: ArrayLike<number>, parents: ArrayLike<number> | null): Promise<Float32Array> {
+  async step(tokens: ArrayLike<number>, parents: ArrayLike<number> | null, positions = 1): Promise<Float32Array> {
     const t0 = performance.now();
     const m = this.model;
-    const rows = tokens.length;
+    const T = positions;
+    if (!Number.isInteger(T) || T < 1 || tokens.length % T !== 0) throw new RangeError(`step: ${tokens.length} tokens for ${T} positions per row; expected a multiple`);
+    const rows = tokens.length / T;
     const dec = m.decoder;
     const feeds: Record<string, ort.Tensor> = {};
     let logits: Float32Array;
@@ -129,7 +165,7 @@ export class DecoderRun {
         feeds.encoder_hidden_states = tile(this.hidden, rows);
         feeds.encoder_attention_mask = tile(this.mask, rows);
       }
-      feeds.input_ids = int64(tokens, [rows, 1]);
+      feeds.input_ids = int64(tokens, [rows, T]);
       if (dec.inputNames.includes('use_cache_branch')) feeds.use_cache_branch = new ort.Tensor('bool', [!first], [1]);
       const picked: Record<string, ort.Tensor> = {};
       for (const n of dec.inputNames) picked[n] = feeds[n];
@@ -152,7 +188,9 @@ export class DecoderRun {
       const next: number[][] = [];
       for (let r = 0; r < rows; r++) {
         const base = this.steps === 0 ? [] : prev[parents === null ? r : parents[r]];
-        next.push([...base, tokens[r]]);
+        const row = [...base];
+        for (let p = 0; p < T; p++) row.push(tokens[r * T + p]);
+        next.push(row);
       }
       this.prefixes = next;
       const len = next[0].length;
@@ -165,8 +203,8 @@ export class DecoderRun {
       const out = await dec.run(picked);
       const all = out.logits.data as Float32Array;
       const v = m.vocabSize;
-      logits = new Float32Array(rows * v);
-      for (let r = 0; r < rows; r++) logits.set(all.subarray((r * len + len - 1) * v, (r * len + len) * v), r * v);
+      logits = new Float32Array(rows * T * v);
+      for (let r = 0; r < rows; r++) logits.set(all.subarray((r * len + len - T) * v, (r * len + len) * v), r * T * v);
     }
     this.rows = rows;
     this.steps++;
