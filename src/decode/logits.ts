@@ -111,3 +111,29 @@ export function sampleRow(
   }
   return order[kept - 1];
 }
+
+/**
+ * The token a mask forces, as a draft: when every allowed id spells the same bytes (one trie node
+ * in `tokenNode`, e.g. a letter and its byte-fallback token `<0xNN>`), the highest of those ids —
+ * in sentencepiece vocabularies the byte-fallback tokens come first, so this is the piece the
+ * tokenizer itself writes (common practice, no source); −1 when nothing is allowed, when two
+ * allowed ids spell different bytes, or when an allowed id is not in the trie (EOS, special).
+ * The decoders verify a draft against the model's choice. Stops at the first id of another node.
+ */
+export function forcedDraft(mask: Uint32Array, nWords: number, tokenNode: Uint32Array, noNode: number): number {
+  let node = -1;
+  let best = -1;
+  for (let w = 0; w < nWords; w++) {
+    let bits = mask[w];
+    while (bits !== 0) {
+      const low = bits & -bits;
+      const id = (w << 5) + (31 - Math.clz32(low));
+      bits ^= low;
+      const n = tokenNode[id];
+      if (n === noNode || (node >= 0 && n !== node)) return -1;
+      node = n;
+      best = id;
+    }
+  }
+  return best;
+}

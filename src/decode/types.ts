@@ -31,6 +31,13 @@ export interface DecodeOptions {
    * client that went away).
    */
   signal?: AbortSignal;
+  /**
+   * Constrained decoding: feed a run of tokens the grammar forces (exactly one allowed, not EOS;
+   * for beam search, forced in every live hypothesis) to the decoder in one call with several
+   * positions, instead of one call per token (default true). The output is the same either way;
+   * false is the one-call-per-token reference.
+   */
+  forcedRuns?: boolean;
 }
 
 /** One token as it is chosen (streaming). */
@@ -59,8 +66,14 @@ export interface DecodeResult {
   finished: 'eos' | 'length';
   /** beam: the winning hypothesis's length-normalised score; otherwise the sum of logprobs (EOS included) */
   score: number;
-  /** decoder calls made (one per step; a beam step decodes every live hypothesis in one call) */
+  /** decoder calls made (one per step, or one per forced run; a beam step decodes every live hypothesis in one call) */
   steps: number;
+  /** decoding positions processed: tokens chosen, EOS included (beam: steps of the search); equals
+   * `steps` without forced runs */
+  positions: number;
+  /** steps whose token the grammar forced (greedy, sampling: one allowed token, not EOS; beam: so in
+   * every live hypothesis), the EOS step excluded; 0 unconstrained */
+  forced: number;
   /** milliseconds in onnxruntime (encoder, decoder, cache handling) */
   model_ms: number;
   /** milliseconds computing masks, applying them to logits and advancing constraint states */
