@@ -27,6 +27,7 @@ import { createSampler, namesFromDatabase, loadNames, printTree } from '../../tr
 import { loadVocabulary } from '../../vocab/index.ts';
 import { runCommand, UsageError, type RegisterCommand } from '../command.ts';
 import { FIGURES_FILE, machine, writeFiguresSection } from '../figures.ts';
+import { decodeBenchTable, runDecodeBench } from './bench-decode.ts';
 import { integer, loadGrammarFile, maskCacheDir, opt, withInputs } from '../options.ts';
 
 const ROOT = fileURLToPath(new URL('../../../', import.meta.url));
@@ -243,6 +244,14 @@ interface Flags {
   cache?: string | false;
   replay?: string;
   writeFigures?: string | true;
+  decode?: boolean;
+  model?: string;
+  questions?: string;
+  limit: number;
+  beam: number;
+  maxTokens?: number;
+  prefix?: string;
+  threads?: number;
 }
 
 function figuresFile(flag: string | true | undefined): string | null {
@@ -299,6 +308,14 @@ export const register: RegisterCommand = (program: Command, setExit) => {
     .addOption(opt.json('print the figures as JSON on stdout'))
     .addOption(opt.cache())
     .addOption(opt.noCache())
+    .option('--decode', 'measure the masks inside the decoder loop of a model: needs --model, --grammar and --questions (see bench-decode.ts)')
+    .addOption(new Option('--model <dir>', '--decode: model folder (config.json, tokenizer.json, onnx/…)'))
+    .addOption(new Option('--questions <file>', '--decode: JSON lines with a "question" field'))
+    .addOption(new Option('--limit <n>', '--decode: first N questions').argParser(integer(2)).default(40))
+    .addOption(new Option('--beam <k>', '--decode: beam width of the beam-search runs').argParser(integer(1, 64)).default(4))
+    .addOption(opt.maxTokens())
+    .addOption(opt.inputPrefix())
+    .addOption(new Option('--threads <n>', '--decode: onnxruntime intra-op threads (default: its choice)').argParser(integer(1, 256)))
     .option('--write-figures [file]', 'also write the results into the figures file (default docs/figures.md of the package), replacing this bench\'s section')
     .addOption(new Option('--replay <file>', 'internal: time the masks on the paths in FILE, engine from the cache').hideHelp())
     .action((opts: Flags) =>
@@ -311,6 +328,19 @@ export const register: RegisterCommand = (program: Command, setExit) => {
           return;
         }
         if (opts.all) return benchAll(opts, cache);
+        if (opts.decode) {
+          if (!opts.grammar || !opts.model || !opts.questions) throw new UsageError('bench --decode: expected --model DIR --grammar G --questions FILE.jsonl');
+          const { model, questions } = opts;
+          await withInputs({ ...opts, grammar: opts.grammar }, async ({ grammar, names }) => {
+            const r = await runDecodeBench(grammar, names ?? defaultNames(grammar), { model, questions, limit: opts.limit, beam: opts.beam, maxTokens: opts.maxTokens, prefix: opts.prefix, threads: opts.threads });
+            const file = figuresFile(opts.writeFigures);
+            if (file !== null) {
+              writeFiguresSection({ id: `decode-${r.grammar}`.replace(/[^A-Za-z0-9_.-]+/g, '-'), title: `Decoding: masks inside the decoder loop (${r.grammar}, ${r.model.replace(ROOT, '')})`, command: commandLine(), body: decodeBenchTable(r), data: r, machine: machine() }, file);
+            }
+            process.stdout.write((opts.json ? JSON.stringify(r) : decodeBenchTable(r)) + '\n');
+          });
+          return;
+        }
         if (!opts.grammar || !opts.tokenizer) throw new UsageError('bench: expected --grammar G --tokenizer T, or --all');
         const { grammar: g, tokenizer } = opts;
         await withInputs({ ...opts, grammar: g }, async ({ grammar, names }) => {
