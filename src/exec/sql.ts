@@ -7,12 +7,16 @@
  * 2. the text is the canonical print of that tree (one statement; better-sqlite3 also refuses
  *    more than one statement in a prepare);
  * 3. the statement must be a reader and read-only as SQLite itself classifies it;
- * 4. the database connection is opened `{ readonly: true, fileMustExist: true }`.
+ * 4. the database connection is opened `{ readonly: true, fileMustExist: true }`;
+ * 5. the statement's bytecode (EXPLAIN) opens only the bound tables (default: every table that is
+ *    not SQLite's own) and their indexes — no schema table, no virtual table or pragma function,
+ *    no `sqlite_…()` introspection function (sql-child.mjs).
  *
  * Cost: starting the child costs one process start (~50–100 ms, once, and again after a kill);
  * a query costs an IPC round trip plus SQLite's own time. Queries run one at a time per runner.
- * Limits: `timeoutMs` (default 2000) and `rowCap` (default 10000 rows: more is an error, never a
- * silent truncation, so a capped answer cannot be mistaken for a right one).
+ * Limits: `timeoutMs` (default 2000), `rowCap` (default 10000 rows) and `byteCap` (default 8 MiB):
+ * more is an error, never a silent truncation, so a capped answer cannot be mistaken for a right
+ * one. The child's JavaScript heap is limited to 256 MB.
  */
 import { fork, type ChildProcess } from 'node:child_process';
 import { fileURLToPath } from 'node:url';
@@ -30,6 +34,10 @@ export interface SqlRows {
 export interface SqlRunnerOptions {
   readonly timeoutMs?: number;
   readonly rowCap?: number;
+  /** largest answer in bytes (values as JSON text, roughly; default 8 MiB) */
+  readonly byteCap?: number;
+  /** tables a query may read (default: every table that is not SQLite's own) */
+  readonly tables?: readonly string[];
 }
 
 interface Pending {
@@ -47,6 +55,8 @@ export class SqlRunner {
   readonly dbPath: string;
   readonly timeoutMs: number;
   readonly rowCap: number;
+  readonly byteCap: number;
+  readonly tables: readonly string[] | null;
   private child: ChildProcess | null = null;
   private ready: Promise<string | null> | null = null;
   private pending: Pending | null = null;
@@ -59,6 +69,8 @@ export class SqlRunner {
     this.dbPath = dbPath;
     this.timeoutMs = options.timeoutMs ?? 2000;
     this.rowCap = options.rowCap ?? 10000;
+    this.byteCap = options.byteCap ?? 8 * 1024 * 1024;
+    this.tables = options.tables ?? null;
   }
 
   /** Runs one statement; resolves with rows as arrays, or a one-line error. Never rejects. */
@@ -79,7 +91,9 @@ export class SqlRunner {
 
   private start(): Promise<string | null> {
     if (this.ready) return this.ready;
-    const child = fork(CHILD, [this.dbPath], { execArgv: [], stdio: ['ignore', 'ignore', 'pipe', 'ipc'] });
+    const args = this.tables === null ? [this.dbPath] : [this.dbPath, JSON.stringify(this.tables)];
+    // the child's heap is bounded too: a huge value built inside a query ends the child, not the server
+    const child = fork(CHILD, args, { execArgv: ['--max-old-space-size=256'], stdio: ['ignore', 'ignore', 'pipe', 'ipc'] });
     this.child = child;
     let stderr = '';
     child.stderr?.on('data', (d: Buffer) => {
@@ -141,7 +155,7 @@ export class SqlRunner {
         child.kill('SIGKILL');
       }, this.timeoutMs);
       this.pending = { id, resolve, timer };
-      child.send({ id, sql, rowCap: this.rowCap });
+      child.send({ id, sql, rowCap: this.rowCap, byteCap: this.byteCap });
     });
   }
 }

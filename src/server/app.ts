@@ -40,7 +40,7 @@ const ROUTES: readonly { register(app: FastifyInstance, ctx: ServerContext): voi
 /** Builds the server (not yet listening). Closing the app closes the registry. */
 export async function buildServer(registry: Registry, limits: ServerLimits = {}): Promise<FastifyInstance> {
   const bodyLimit = limits.bodyLimit ?? 1024 * 1024;
-  const ctx = new ServerContext(registry, new Gate(limits.maxActive ?? 2, limits.maxQueued ?? 64), bodyLimit, limits.timeLimitMs ?? 30_000);
+  const ctx = new ServerContext(registry, new Gate(limits.maxActive ?? 2, limits.maxQueued ?? 64), bodyLimit, limits.timeLimitMs ?? 30_000, new Gate(limits.execActive ?? 2, limits.execQueued ?? 16));
   const app = Fastify({
     bodyLimit,
     requestTimeout: 120_000,

@@ -4,11 +4,12 @@
  * into the documented ApiError. Built once per server by app.ts; each file under routes/ gets it.
  */
 import type { NameBindings } from '../description/ir.ts';
+import { BindError } from '../automaton/index.ts';
 import { MaskError } from '../masks/index.ts';
 import { ModelError } from '../model/index.ts';
 import { checkNames, NamesError, ParseError, TreeError } from '../tree/index.ts';
 import { ApiError, notFound, overloaded } from './errors.ts';
-import type { Gate } from './gate.ts';
+import { Gate } from './gate.ts';
 import type { GrammarEntry, ModelEntry, Registry } from './registry.ts';
 
 export interface ServerLimits {
@@ -20,6 +21,10 @@ export interface ServerLimits {
   readonly maxActive?: number;
   /** requests waiting for a slot before the server answers 503 (default 64) */
   readonly maxQueued?: number;
+  /** executor runs (SQL, LF) at once, on their own gate so slow queries never hold model slots (default 2) */
+  readonly execActive?: number;
+  /** executor runs waiting before the server answers 503 (default 16) */
+  readonly execQueued?: number;
 }
 
 /** Counters a server keeps (`app.treewrightStats`): for operators and tests. */
@@ -44,6 +49,8 @@ export class ServerContext {
     readonly gate: Gate,
     readonly bodyLimit: number,
     readonly timeLimitMs: number,
+    /** executors' own gate (SQL and LF runs) */
+    readonly execGate: Gate = new Gate(2, 16),
   ) {
     this.stats = {
       decoded: 0,
@@ -90,12 +97,12 @@ export class ServerContext {
     return g.names;
   }
 
-  /** Runs `work` holding one of the gate's slots; 503 at once when the gate and its queue are full. */
-  async withSlot<T>(work: () => Promise<T>): Promise<T> {
-    const release = await this.gate.enter();
+  /** Runs `work` holding one of the model gate's slots; 503 at once when the gate and its queue are full. */
+  async withSlot<T>(work: () => Promise<T>, gate: Gate = this.gate): Promise<T> {
+    const release = await gate.enter();
     if (release === null) {
       this.stats.refused++;
-      throw overloaded(this.gate.running, this.gate.queued);
+      throw overloaded(gate.running, gate.queued);
     }
     try {
       return await work();
@@ -103,6 +110,11 @@ export class ServerContext {
       release();
     }
   }
+}
+
+/** Runs an executor holding one of the executors' slots (never a model slot); 503 when they are full. */
+export function withExecSlot<T>(ctx: ServerContext, work: () => Promise<T>): Promise<T> {
+  return ctx.withSlot(work, ctx.execGate);
 }
 
 /** A program text that does not parse: 422 at `file:line:col`. */
@@ -120,8 +132,14 @@ export function treeError(e: unknown, base: string): never {
   throw e;
 }
 
-/** A grammar that cannot work with a model's tokenizer (or names that do not fit): 422. */
+/** A grammar that cannot work with a model's tokenizer: 422; names the automaton cannot bind: 400 at `$.names…`. */
 export function modelError(e: unknown): never {
+  if (e instanceof BindError) {
+    // names the request (or the server) bound that the automaton cannot take: a located 400
+    const m = /^names\.([A-Za-z_][A-Za-z0-9_]*)/.exec(e.message);
+    const path = m ? `$.names.${m[1]}` : '$.names';
+    throw new ApiError(400, 'invalid_names', `$.${e.message}`, path);
+  }
   if (e instanceof ModelError || e instanceof MaskError || e instanceof NamesError) throw new ApiError(422, 'grammar_model_mismatch', (e as Error).message, (e as ModelError).file);
   if (e instanceof RangeError) throw new ApiError(400, 'invalid_request', e.message);
   throw e;

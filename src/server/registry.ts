@@ -80,6 +80,38 @@ export interface RegistryOptions {
   readonly warm?: boolean;
   /** most checked descriptions kept (least recently used go first) */
   readonly checkedLimit?: number;
+  /**
+   * Executors bound to startup grammars, `KIND=GRAMMAR` with KIND `sql` or `lf` and GRAMMAR a
+   * --grammar value (`sql=my-sql.twg`). The shipped sql and lf descriptions are bound to theirs
+   * unless this list binds the kind elsewhere. A grammar's name never chooses an executor.
+   */
+  readonly executors?: readonly string[];
+  /** let a description checked through /api/check use the executor of the startup grammar with the same name (default false) */
+  readonly checkedExecutors?: boolean;
+}
+
+/** Executors a server can bind: the SQL runner (read-only child process) and the LF evaluator. */
+export const EXECUTOR_KINDS = ['sql', 'lf'] as const;
+export type ExecutorKind = (typeof EXECUTOR_KINDS)[number];
+
+/** Parses `--executor KIND=GRAMMAR` values into description paths by kind; throws naming the bad value. */
+export function executorBindings(values: readonly string[] | undefined): Map<string, ExecutorKind> {
+  const byFile = new Map<string, ExecutorKind>();
+  const bound = new Set<ExecutorKind>();
+  for (const v of values ?? []) {
+    const m = /^([a-z]+)=(.+)$/.exec(v);
+    if (m === null || !(EXECUTOR_KINDS as readonly string[]).includes(m[1]!)) {
+      throw new Error(`--executor ${v}: expected KIND=GRAMMAR with KIND one of ${EXECUTOR_KINDS.join(', ')} (e.g. sql=my-sql.twg)`);
+    }
+    byFile.set(shippedPath(m[2]!), m[1] as ExecutorKind);
+    bound.add(m[1] as ExecutorKind);
+  }
+  // the shipped descriptions keep their executors unless the operator bound that kind elsewhere
+  for (const kind of EXECUTOR_KINDS) {
+    const shipped = shippedPath(kind);
+    if (!bound.has(kind) && !byFile.has(shipped)) byFile.set(shipped, kind);
+  }
+  return byFile;
 }
 
 /** A --grammar value as a description file: an existing file, else a shipped name (see src/util/package.ts). */
@@ -109,8 +141,13 @@ export class Registry {
   readonly dbPath: string;
   readonly facts: FactBase;
   private readonly checker: Checker;
+  /** description file → executor kind, as the operator configured (executorBindings) */
+  private readonly executorFiles: Map<string, ExecutorKind>;
+  private readonly checkedExecutors: boolean;
 
   private constructor(opts: RegistryOptions, database: DatabaseFile) {
+    this.executorFiles = executorBindings(opts.executors);
+    this.checkedExecutors = opts.checkedExecutors ?? false;
     this.database = database;
     this.dbPath = resolve(database.path);
     this.facts = factsFromDatabase(this.dbPath);
@@ -182,7 +219,7 @@ export class Registry {
   }
 
   /** Names for a grammar: defaults by grammar (SQL schema, LF facts, samples/names.json), then --names. */
-  private namesFor(grammar: Grammar, file: string): { names: NameBindings | null; problem: string | null } {
+  private namesFor(grammar: Grammar, file: string, origin: GrammarEntry['origin']): { names: NameBindings | null; problem: string | null } {
     const declared = new Set(grammar.nameSets.map((n) => n.name));
     if (declared.size === 0) return { names: {}, problem: null };
     const pool: Record<string, readonly string[]> = {};
@@ -191,10 +228,13 @@ export class Registry {
     };
     // a checked description named like a loaded grammar (an edited copy) starts from its names
     for (const g of this.grammars.values()) if (g.grammar.name === grammar.name && g.names !== null) add(g.names);
-    if (grammar.name === 'sql') add(namesFromDatabase(this.dbPath));
-    else if (grammar.name === 'lf') add(factNames(this.facts));
+    const kind = this.executorKind(grammar, file, origin);
+    if (kind === 'sql') add(namesFromDatabase(this.dbPath));
+    else if (kind === 'lf') add(factNames(this.facts));
+    // a startup grammar's own samples/names.json; a checked description's `file` is only a label
+    // for its messages and never names a file the server reads
     const sample = join(dirname(file), 'samples', 'names.json');
-    if (grammar.name !== 'sql' && grammar.name !== 'lf' && existsSync(sample)) add(loadNames(sample));
+    if (origin === 'startup' && kind === null && existsSync(sample)) add(loadNames(sample));
     add(this.extraNames);
     const missing = [...declared].filter((s) => !(s in pool));
     if (missing.length > 0) return { names: null, problem: `no bindings for the name set${missing.length > 1 ? 's' : ''} ${missing.join(', ')} of ${grammar.name}; expected them in --names FILE (or the request's "names")` };
@@ -206,15 +246,29 @@ export class Registry {
     return { names: pool, problem: null };
   }
 
-  private executorFor(grammar: Grammar): ExecuteFn | null {
-    if (grammar.name === 'sql' && grammar.nameSets.some((n) => n.name === 'Table')) return sqlExecutor(this.runner!, grammar);
-    if (grammar.name === 'lf') return lfExecutor(this.facts);
+  /**
+   * The executor kind the operator bound to a description: by its file for startup grammars; for a
+   * checked description only when --checked-executors allows it, and then the kind of the startup
+   * grammar it is named like (an edited copy). Never by the name alone.
+   */
+  private executorKind(grammar: Grammar, file: string, origin: GrammarEntry['origin']): ExecutorKind | null {
+    if (origin === 'startup') return this.executorFiles.get(resolve(file)) ?? null;
+    if (!this.checkedExecutors) return null;
+    for (const g of this.grammars.values()) {
+      if (g.origin === 'startup' && g.grammar.name === grammar.name) return this.executorFiles.get(resolve(g.file)) ?? null;
+    }
+    return null;
+  }
+
+  private executorFor(grammar: Grammar, kind: ExecutorKind | null): ExecuteFn | null {
+    if (kind === 'sql' && grammar.nameSets.some((n) => n.name === 'Table')) return sqlExecutor(this.runner!, grammar);
+    if (kind === 'lf') return lfExecutor(this.facts);
     return null;
   }
 
   private entry(id: string, grammar: Grammar, text: string, file: string, origin: GrammarEntry['origin']): GrammarEntry {
-    const { names, problem } = this.namesFor(grammar, file);
-    return { id, grammar, text, file, origin, names, namesProblem: problem, execute: this.executorFor(grammar) };
+    const { names, problem } = this.namesFor(grammar, file, origin);
+    return { id, grammar, text, file, origin, names, namesProblem: problem, execute: this.executorFor(grammar, this.executorKind(grammar, file, origin)) };
   }
 
   /**

@@ -90,3 +90,138 @@ describe('deep nesting', () => {
     await stillAnswers();
   });
 });
+
+/** A description named `sql` whose one token takes raw text: checked through the API it must not reach the SQL executor. */
+const RAW_SQL = [
+  'grammar sql',
+  'start Q',
+  'space " "',
+  "token Raw = /[A-Za-z_*(),.=']+(?: [A-Za-z_*(),.=']+)*/ as text",
+  'token Id = /[a-z_]+/ as text',
+  'names Table of Id',
+  'sort Q {',
+  '  select(body: Raw) = body;',
+  '  t(table: Table) = "T" table;',
+  '}',
+  '',
+].join('\n');
+
+describe('executors are bound by the operator, not by a grammar name', () => {
+  it('a checked description named sql gets no executor: 422 no_executor, nothing runs', async () => {
+    const c = (await send('/api/check', JSON.stringify({ text: RAW_SQL, file: 'raw.twg' }))).json();
+    expect(c.ok, JSON.stringify(c.diagnostics)).toBe(true);
+    const grammars = (await app.inject({ method: 'GET', url: '/api/grammars' })).json().grammars as { id: string; executor: boolean }[];
+    expect(grammars.find((g) => g.id === c.id)?.executor).toBe(false);
+    const e = documentedError(await send('/api/execute', JSON.stringify({ grammar: c.id, text: 'SELECT sql FROM sqlite_master' })), 422, 'no_executor');
+    expect(e.location).toBe('$.grammar');
+  });
+
+  it('with --checked-executors it runs, and the SQL child still refuses schema tables, pragma functions and PRAGMA', async () => {
+    const registry = await Registry.open({ models: [], warm: false, grammars: ['sql'], checkedExecutors: true });
+    const a = await buildServer(registry);
+    try {
+      const c = (await a.inject({ method: 'POST', url: '/api/check', payload: { text: RAW_SQL, file: 'raw.twg' } })).json();
+      const run = async (sql: string) => (await a.inject({ method: 'POST', url: '/api/execute', payload: { grammar: c.id, text: sql } })).json();
+      expect((await run('SELECT sql FROM sqlite_master')).error.message).toBe("<input>: the query reads SQLite's schema table, which is not bound for queries");
+      expect((await run('SELECT file FROM pragma_database_list')).error.message).toBe('<input>: the query uses a table-valued function or virtual table (pragma_…, json_each, …), which is not allowed');
+      expect((await run('PRAGMA database_list')).error.message).toBe('<input>: only SELECT statements may run (found PRAGMA)');
+      expect((await run('SELECT sqlite_version()')).error.message).toBe('<input>: the query calls sqlite_version(), which is not allowed');
+      expect((await run('SELECT name FROM growers')).ok).toBe(true);
+    } finally {
+      await a.close();
+    }
+  });
+
+  it('a copy of the SQL description given with --grammar has no executor unless --executor binds it', async () => {
+    const { mkdtempSync, copyFileSync } = await import('node:fs');
+    const { tmpdir } = await import('node:os');
+    const { join } = await import('node:path');
+    const dir = mkdtempSync(join(tmpdir(), 'tw-exec-bind-'));
+    const copy = join(dir, 'my-sql.twg');
+    copyFileSync('grammars/sql/sql.twg', copy);
+    for (const [executors, expected] of [[undefined, false], [[`sql=${copy}`], true]] as const) {
+      const registry = await Registry.open({ models: [], warm: false, grammars: [copy, 'lf'], executors });
+      try {
+        expect([registry.grammar('sql')!.execute !== null, registry.grammar('lf')!.execute !== null]).toEqual([expected, true]);
+      } finally {
+        await registry.close();
+      }
+    }
+    await expect(Registry.open({ models: [], warm: false, executors: ['shell=x.twg'] })).rejects.toThrow('--executor shell=x.twg: expected KIND=GRAMMAR with KIND one of sql, lf (e.g. sql=my-sql.twg)');
+  });
+});
+
+describe('the tree route gets the text route\'s checks', () => {
+  it('a table refused as text is refused as a tree, at its JSON path', async () => {
+    const tree = (await send('/api/parse', JSON.stringify({ grammar: 'sql', text: 'SELECT COUNT(*) FROM sheds' }))).json().tree;
+    const asText = documentedError(await send('/api/execute', JSON.stringify({ grammar: 'sql', text: 'SELECT COUNT(*) FROM sqlite_master' })), 422, 'parse_error');
+    expect(asText.message).toMatch(/^<input>:1:22: unknown name 'sqlite_master' for Table/);
+    const e = documentedError(await send('/api/execute', JSON.stringify({ grammar: 'sql', tree: { ...tree, from: 'sqlite_master' } })), 422, 'invalid_tree');
+    expect(e).toMatchObject({ location: '$.tree.from', message: "$.tree.from: unknown name 'sqlite_master' for Table" });
+  });
+});
+
+describe('no request field names a file the server reads', () => {
+  it('/api/check "file" is a label: <folder>/samples/names.json is not read, its content not echoed', async () => {
+    const { mkdtempSync, mkdirSync, writeFileSync } = await import('node:fs');
+    const { tmpdir } = await import('node:os');
+    const { join } = await import('node:path');
+    const dir = mkdtempSync(join(tmpdir(), 'tw-check-file-'));
+    mkdirSync(join(dir, 'samples'));
+    for (const content of ['TOP SECRET: not json', '{"Func": ["leaked_name"]}']) {
+      writeFileSync(join(dir, 'samples', 'names.json'), content);
+      const text = `grammar probe${content.length}\nstart E\nspace " "\ntoken Name = /[a-z_]+/ as text\nnames Func of Name\nsort E { call(fn: Func) = fn "()"; }\n`;
+      const res = await send('/api/check', JSON.stringify({ text, file: join(dir, 'probe.twg') }));
+      expect(res.statusCode).toBe(200);
+      expect(res.body).not.toContain('SECRET');
+      const id = res.json().id as string;
+      const listed = (await app.inject({ method: 'GET', url: '/api/grammars' })).body;
+      expect(listed).not.toContain('SECRET');
+      expect(listed).not.toContain('leaked_name');
+      const g = (JSON.parse(listed).grammars as { id: string; name_sets: Record<string, number> | null; names_problem: string | null }[]).find((x) => x.id === id)!;
+      expect(g.names_problem).toMatch(/^no bindings for the name set Func/);
+    }
+  });
+});
+
+describe('oversized name sets', () => {
+  it('100,000 names are a located 400, not a 500', async () => {
+    const registry = await Registry.open({ models: ['test/fixtures/tiny-seq2seq'], warm: false, threads: 1, grammars: ['arith'] });
+    const a = await buildServer(registry, { bodyLimit: 8 << 20 });
+    try {
+      const names = Array.from({ length: 100_000 }, (_, i) => `f${i.toString(36)}`);
+      const res = await a.inject({ method: 'POST', url: '/api/mask', payload: { grammar: 'arith', prefix: 'f', names: { Func: names } } });
+      const e = documentedError(res, 400, 'invalid_names');
+      expect(e).toMatchObject({ location: '$.names.Func', message: '$.names.Func: the members need more than 65536 trie nodes; expected a smaller name set' });
+    } finally {
+      await a.close();
+    }
+  });
+});
+
+describe('slow SQL never holds the model slots', () => {
+  it('a mask request is answered while slow queries wait for the executors\' own slot', async () => {
+    const registry = await Registry.open({ models: ['test/fixtures/tiny-seq2seq'], warm: false, threads: 1, grammars: ['sql', 'arith'], sqlTimeoutMs: 300 });
+    const a = await buildServer(registry, { maxActive: 1, maxQueued: 16, execActive: 1, execQueued: 16 });
+    try {
+      // a five-table cross product sorted: about 0.7 s in SQLite here, stopped at the 300 ms limit
+      const slow = 'SELECT lots.id FROM lots JOIN sheds ON lots.id = lots.id JOIN growers ON lots.id = lots.id JOIN orchards ON lots.id = lots.id JOIN varieties ON lots.id = lots.id ORDER BY growers.name, orchards.name DESC LIMIT 3';
+      let finished = 0;
+      const queries = Array.from({ length: 6 }, () => a.inject({ method: 'POST', url: '/api/execute', payload: { grammar: 'sql', text: slow } }).then((r) => {
+        finished++;
+        return r;
+      }));
+      await new Promise((r) => setTimeout(r, 20));
+      const mask = await a.inject({ method: 'POST', url: '/api/mask', payload: { grammar: 'arith', prefix: '1 +', names: { Func: ['max'] } } });
+      expect(mask.statusCode).toBe(200);
+      // with one shared gate the mask request would have waited for all six
+      expect(finished).toBeLessThan(6);
+      for (const r of await Promise.all(queries)) {
+        expect([200, 422]).toContain(r.statusCode);
+        if (r.statusCode === 422) expect(r.json().error.message).toMatch(/time limit/);
+      }
+    } finally {
+      await a.close();
+    }
+  });
+});

@@ -3,7 +3,8 @@
  * [--names FILE]`: the JSON API under /api/ and the decoding playground at /, until SIGINT or
  * SIGTERM. Grammars default to the four shipped ones, models to models/coop when it holds an ONNX
  * export, the database to the demo cooperative (built from grammars/sql/coop.sql into a temporary
- * folder). Limits: --body-limit BYTES, --time-limit MS, --max-active N, --max-queued N. Prints one
+ * folder). Limits: --body-limit BYTES, --time-limit MS, --max-active N, --max-queued N, --exec-active N,
+ * --exec-queued N. Executors: --executor KIND=GRAMMAR, --checked-executors. Prints one
  * line `listening on http://HOST:PORT/` on stdout when ready; errors (naming the file) on stderr,
  * exit 1.
  */
@@ -23,6 +24,10 @@ interface Flags {
   timeLimit?: number;
   maxActive?: number;
   maxQueued?: number;
+  executor?: string[];
+  checkedExecutors?: boolean;
+  execActive?: number;
+  execQueued?: number;
 }
 
 export const register: RegisterCommand = (program: Command, setExit) => {
@@ -40,6 +45,10 @@ export const register: RegisterCommand = (program: Command, setExit) => {
     .addOption(new Option('--time-limit <ms>', 'wall-clock limit of one decode request (default 30000)').argParser(integer(1)))
     .addOption(new Option('--max-active <n>', 'model and executor requests running at once (default 2)').argParser(integer(1)))
     .addOption(new Option('--max-queued <n>', 'requests waiting for a slot before answering 503 (default 64)').argParser(integer(0)))
+    .addOption(new Option('--executor <kind=grammar>', 'bind an executor (sql or lf) to a --grammar description, e.g. sql=my-sql.twg (repeatable; default: the shipped sql and lf descriptions)').argParser((v: string, prev: string[] | undefined) => [...(prev ?? []), v]))
+    .option('--checked-executors', 'let descriptions checked through /api/check run with the executor of the startup grammar of the same name (default: they get none)')
+    .addOption(new Option('--exec-active <n>', 'executor runs (SQL, LF) at once, apart from the model slots (default 2)').argParser(integer(1)))
+    .addOption(new Option('--exec-queued <n>', 'executor runs waiting before answering 503 (default 16)').argParser(integer(0)))
     .action((f: Flags) =>
       runCommand(setExit, async () => {
         const { startServer } = await import('../../server/index.ts');
@@ -57,6 +66,10 @@ export const register: RegisterCommand = (program: Command, setExit) => {
             timeLimitMs: f.timeLimit,
             maxActive: f.maxActive,
             maxQueued: f.maxQueued,
+            executors: f.executor,
+            checkedExecutors: f.checkedExecutors,
+            execActive: f.execActive,
+            execQueued: f.execQueued,
           });
         } catch (e) {
           const err = e as NodeJS.ErrnoException;

@@ -12,9 +12,10 @@
 import type { FastifyInstance, FastifyRequest } from 'fastify';
 import { boundConstraint, generate, maskEngine, textOf, type GenerateResult } from '../../decode/index.ts';
 import type { NameBindings } from '../../description/ir.ts';
+import type { Tree as ExecTree } from '../../exec/index.ts';
 import { InputTooLong, OutputTooLong } from '../../model/index.ts';
 import { printTree } from '../../tree/index.ts';
-import { modelError, type ServerContext } from '../context.ts';
+import { modelError, withExecSlot, type ServerContext } from '../context.ts';
 import { ApiError, badField, timeLimit } from '../errors.ts';
 import { decodeSchema } from '../schemas.ts';
 import { replaySteps, treeView } from '../steps.ts';
@@ -86,7 +87,8 @@ export function register(app: FastifyInstance, ctx: ServerContext): void {
     }
     const strategy = b.beam !== undefined ? 'beam' : b.sample ? 'sample' : 'greedy';
     ctx.stats.decoded++;
-    return ctx.withSlot(async () => {
+    let program: ExecTree | null = null;
+    const out = await ctx.withSlot(async () => {
       const { signal, done } = requestSignal(req, ctx.timeLimitMs);
       let r: GenerateResult;
       try {
@@ -126,9 +128,16 @@ export function register(app: FastifyInstance, ctx: ServerContext): void {
       if (b.execute) {
         if (g.execute === null) out.answer = { ok: false, error: `grammar ${g.id} has no executor here` };
         else if (!r.well_typed || r.tree === null) out.answer = { ok: false, error: 'the output is not a well-typed program, so it was not run' };
-        else out.answer = await g.execute(r.tree, { grammar: g.grammar, timeoutMs: ctx.timeLimitMs });
+        else program = r.tree as ExecTree;
       } else out.answer = null;
       return out;
     });
+    // the program runs after the model slot is released, behind the executors' own gate
+    if (program !== null) {
+      const run = g.execute!;
+      const tree = program;
+      out.answer = await withExecSlot(ctx, () => run(tree, { grammar: g.grammar, timeoutMs: ctx.timeLimitMs }));
+    }
+    return out;
   });
 }
