@@ -117,6 +117,8 @@ export async function startWorker(opts: WorkerRunOptions): Promise<RunningWorker
     {
       connection,
       prefix: KEY_PREFIX,
+      // recorded in each job it takes (the job's "pb" field), so one can see who holds a job
+      name: me,
       concurrency: 1,
       autorun: false,
       lockDuration: opts.leaseSeconds * 1000,

@@ -86,6 +86,10 @@ async function evaluateCommand(f: Flags): Promise<void> {
   const decoding: Decoding = { beam: beam ?? null, maxTokens: maxTokens ?? null, prefix: f.prefix ?? null };
   const setupFlags: SetupFlags = { model: f.model, grammar: f.grammar, db: f.db, names: f.names, executor: f.executor };
 
+  const queueMod = f.queue === undefined ? null : await import('../../queue/index.ts');
+  // the URL and the queue name are checked before anything is loaded
+  const target = queueMod?.parseRedisUrl(f.queue!);
+  if (queueMod !== null) queueMod.checkQueueName(f.queueName);
   // the grammar, names and executor are checked here first, whoever decodes
   const ex = await openExecution(setupFlags);
   const grammarName = ex.grammar.name;
@@ -110,10 +114,9 @@ async function evaluateCommand(f: Flags): Promise<void> {
   let producer: RowProducer | undefined;
   let how: string;
   try {
-    if (f.queue !== undefined) {
-      const { parseRedisUrl, checkQueueName, fingerprint, queueProducer } = await import('../../queue/index.ts');
-      const target = parseRedisUrl(f.queue);
-      const name = checkQueueName(f.queueName);
+    if (queueMod !== null && target !== undefined && f.queue !== undefined) {
+      const { fingerprint, queueProducer } = queueMod;
+      const name = f.queueName;
       if (!existsSync(join(f.model, 'config.json'))) throw new Error(`${f.model}: no config.json; expected a model folder (config.json, tokenizer.json, tokenizer_config.json, onnx/…)`);
       const fp = fingerprint({ modelDir: f.model, grammarFile: gPath, names: ex.names, db: f.db, executor: f.executor, decoding });
       producer = queueProducer({ target, name, fp, decoding, onNote: (t) => process.stderr.write(`evaluate: ${t}\n`) });
