@@ -10,6 +10,7 @@ import { ResultsLog, rowKey } from './log.ts';
 import { computeMetrics, computeTaxonomy, type Metrics } from './metrics.ts';
 import { writeReport } from './report.ts';
 import { checkRow, jobsOf, runEvaluation, type DecodeFn, type EvalItem, type EvalRow, type Job, type RowMaker, type Scorer } from './run.ts';
+import { lockOutDir } from './lock.ts';
 
 export interface LoadItemsOptions {
   /** the field holding the gold program (default: the grammar's name, e.g. "sql" or "lf") */
@@ -99,10 +100,21 @@ export interface EvaluateResult {
 /**
  * Runs (or continues) an evaluation into `outDir`. Metrics, taxonomy and report read the rows in
  * the data's order (item by item, unconstrained then constrained), whatever order they were
- * written in, so a run by several workers gives the same figures as a run by one.
+ * written in, so a run by several workers gives the same figures as a run by one. Holds an
+ * exclusive lock on `outDir` while it runs (OutDirLocked when another run holds it).
  */
 export async function evaluate(opts: EvaluateOptions): Promise<EvaluateResult> {
   mkdirSync(opts.outDir, { recursive: true });
+  // one run per folder: a second run fails here instead of interleaving rows (lock.ts)
+  const unlock = lockOutDir(opts.outDir);
+  try {
+    return await evaluateLocked(opts);
+  } finally {
+    unlock();
+  }
+}
+
+async function evaluateLocked(opts: EvaluateOptions): Promise<EvaluateResult> {
   const log = new ResultsLog<EvalRow>(join(opts.outDir, 'results.jsonl'), checkRow);
   const jobs = jobsOf(opts.items);
   const keys = new Set(jobs.map((j) => rowKey({ id: j.item.id, mode: j.mode })));
