@@ -26,7 +26,7 @@
  * and one final node; edges are immutable after `buildRtn` returns.
  */
 import type { Constructor, Field, Grammar, LayoutItem, Sort } from '../description/ir.ts';
-import { compileRegex, literalDfa, RegexError, type ByteDfa } from './regex.ts';
+import { literalDfa, type ByteDfa } from './regex.ts';
 import { lineColumn } from '../util/source.ts';
 import { readFileSync } from 'node:fs';
 
@@ -175,15 +175,7 @@ class Builder {
 
 /** The DFA of every token class of `g` (`reserved` classes minus the keywords), by class index. */
 export function classDfas(g: Grammar): ByteDfa[] {
-  const keywords = g.keywords.map((k) => utf8.encode(k));
-  return g.tokens.map((t) => {
-    try {
-      return compileRegex(t.pattern, t.flags, t.reserved ? keywords : []);
-    } catch (e) {
-      if (e instanceof RegexError) throw located(g, t.span, `token class ${t.name}: ${e.message}`);
-      throw e;
-    }
-  });
+  return g.tokens.map((t) => t.regex.dfa);
 }
 
 /**

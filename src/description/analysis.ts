@@ -25,8 +25,8 @@
  * - numeric digits: an `as int` / `as number` class whose lexemes can hold more than 15 digits
  *   (past 2^53 for integers; past the 15 significant digits a double keeps for numbers), or for
  *   `as number` more than 6 digits after a `.` (JSON.stringify prints 0.0000001 as 1e-7), has
- *   lexemes whose value does not print back as written. Warning. Counted over the regex AST with
- *   each character set reduced to "may be a digit" / "may be a point"; lookarounds count as empty.
+ *   lexemes whose value does not print back as written. Warning. Counted over the regex IR with
+ *   each character set reduced to "may be a digit" / "may be a point".
  *   Limits: exponents are not checked (`[0-9]e[0-9]{3}` admits 9e999).
  *
  * Cost: each fixpoint is O(rounds · L) with rounds ≤ S + 1 (L layout items, S sorts); the
@@ -37,7 +37,7 @@ import type { Constructor, Field, Grammar, LayoutItem, Sort, Span, TokenClass } 
 import * as E from './errors.ts';
 import { stronglyConnected } from './graph.ts';
 import type { Diagnostic } from './errors.ts';
-import regjsparser from 'regjsparser';
+import { runDfa, type Rx } from './regex/index.ts';
 
 /** What can begin (or end) a printed term: literal texts and token classes. */
 interface Edge {
@@ -53,14 +53,12 @@ class Facts {
   readonly nullable = new Set<string>();
   readonly first = new Map<string, Edge>();
   readonly last = new Map<string, Edge>();
-  readonly regexes = new Map<string, RegExp>();
 
   constructor(readonly g: Grammar) {
     for (const s of g.sorts) this.sorts.set(s.name, s);
     for (const c of g.constructors) this.ctors.set(c.name, c);
     for (const t of g.tokens) {
       this.tokens.set(t.name, t);
-      this.regexes.set(t.name, new RegExp(`^(?:${t.pattern})$`, t.flags));
     }
     for (const n of g.nameSets) this.nameSetToken.set(n.name, n.token);
     this.computeNullable();
@@ -311,7 +309,7 @@ function checkLists(g: Grammar, facts: Facts, out: Diagnostic[], at: At): void {
       if (!hit) {
         for (const t of e.tokens) {
           const tok = facts.tokens.get(t)!;
-          if (!tok.reserved && facts.regexes.get(t)!.test(sep)) hit = true;
+          if (!tok.reserved && isLexeme(tok, sep)) hit = true;
         }
       }
       if (hit) {
@@ -438,32 +436,20 @@ interface DigitCount {
 const MAX_EXACT_DIGITS = 15; // every decimal of ≤ 15 significant digits survives a double (IEEE 754 binary64)
 const MAX_PLAIN_FRACTION = 6; // Number::toString switches to exponent form below 1e-6 (ECMA-262)
 
+/** Is `text` a lexeme of the class? (its DFA, the one every stage uses) */
+function isLexeme(t: TokenClass, text: string): boolean {
+  const d = t.regex.dfa;
+  return d.accept[runDfa(d, d.start, new TextEncoder().encode(text))] === 1;
+}
+
 function checkNumericDigits(g: Grammar, out: Diagnostic[], at: At): void {
   for (const t of g.tokens) {
     if (t.value !== 'int' && t.value !== 'number') continue;
-    let root: RxAst;
-    try {
-      root = regjsparser.parse(t.pattern, t.flags, { namedGroups: true, lookbehind: true, unicodePropertyEscape: true }) as unknown as RxAst;
-    } catch {
-      continue; // compile.ts reports a bad regex
-    }
-    const c = countDigits(root);
+    const c = countDigits(t.regex.rx);
     if (t.value === 'int' ? c.digits > MAX_EXACT_DIGITS : c.digits > MAX_EXACT_DIGITS || c.afterPoint > MAX_PLAIN_FRACTION) {
       out.push(t.value === 'int' ? E.unboundedIntDigits(at(t.span), t.name) : E.unboundedNumberDigits(at(t.span), t.name));
     }
   }
-}
-
-/** The regjsparser AST, as far as the digit count reads it. */
-interface RxAst {
-  readonly type: string;
-  readonly body?: RxAst | readonly RxAst[];
-  readonly min?: number | RxAst;
-  readonly max?: number | RxAst;
-  readonly codePoint?: number;
-  readonly value?: string;
-  readonly negative?: boolean;
-  readonly behavior?: string;
 }
 
 const EMPTY: DigitCount = { digits: 0, afterPoint: -Infinity };
@@ -478,74 +464,15 @@ function alt(a: DigitCount, b: DigitCount): DigitCount {
   return { digits: Math.max(a.digits, b.digits), afterPoint: Math.max(a.afterPoint, b.afterPoint) };
 }
 
-/** One character of the set: may it be a digit, may it be `.`. */
-function char(digit: boolean, point: boolean): DigitCount {
-  return { digits: digit ? 1 : 0, afterPoint: point ? 0 : -Infinity };
-}
-
-const inRange = (lo: number, hi: number, c: number) => lo <= c && c <= hi;
-
-/** Whether a character class may match a digit / a point (nested class sets count as "may"). */
-function classChars(node: RxAst): [boolean, boolean] {
-  let digit = false;
-  let allDigits = true;
-  let point = false;
-  const items = (node.body ?? []) as readonly RxAst[];
-  for (let d = 48; d <= 57; d++) {
-    const hit = items.some((it) => itemMatches(it, d));
-    digit ||= hit;
-    allDigits &&= hit;
-  }
-  point = items.some((it) => itemMatches(it, 46));
-  if (node.negative) return [!allDigits, !point];
-  return [digit, point];
-}
-
-function itemMatches(it: RxAst, c: number): boolean {
-  switch (it.type) {
-    case 'value':
-      return it.codePoint === c;
-    case 'characterClassRange':
-      return inRange((it.min as RxAst).codePoint!, (it.max as RxAst).codePoint!, c);
-    case 'characterClassEscape':
-      return escapeMatches(it.value!, c);
-    default:
-      return true;
-  }
-}
-
-function escapeMatches(e: string, c: number): boolean {
-  const digit = inRange(48, 57, c);
-  switch (e) {
-    case 'd':
-      return digit;
-    case 'D':
-      return !digit;
-    case 'w':
-      return digit;
-    case 'W':
-      return !digit;
-    case 's':
-      return false;
-    default:
-      return true;
-  }
-}
-
-function countDigits(node: RxAst): DigitCount {
-  switch (node.type) {
-    case 'alternative':
-      return ((node.body ?? []) as readonly RxAst[]).reduce((acc, n) => seq(acc, countDigits(n)), EMPTY);
-    case 'disjunction':
-      return ((node.body ?? []) as readonly RxAst[]).reduce((acc, n) => alt(acc, countDigits(n)), NONE);
-    case 'group': {
-      if (node.behavior !== 'normal' && node.behavior !== 'ignore') return EMPTY; // lookaround
-      return ((node.body ?? []) as readonly RxAst[]).reduce((acc, n) => seq(acc, countDigits(n)), EMPTY);
-    }
-    case 'quantifier': {
-      const body = ((node.body ?? []) as readonly RxAst[]).reduce((acc, n) => seq(acc, countDigits(n)), EMPTY);
-      const min = node.min as number;
-      const max = (node.max as number | undefined) ?? Infinity;
+function countDigits(rx: Rx): DigitCount {
+  switch (rx.t) {
+    case 'seq':
+      return rx.items.reduce((acc, n) => seq(acc, countDigits(n)), EMPTY);
+    case 'alt':
+      return rx.items.reduce((acc, n) => alt(acc, countDigits(n)), NONE);
+    case 'rep': {
+      const body = countDigits(rx.body);
+      const { min, max } = rx;
       if (max === 0) return EMPTY;
       if (body.digits === -Infinity) return min === 0 ? EMPTY : NONE;
       // k copies: digits k·d; the last point may sit in the first copy, so (k - 1)·d + afterPoint
@@ -553,20 +480,15 @@ function countDigits(node: RxAst): DigitCount {
       const afterPoint = body.afterPoint === -Infinity ? -Infinity : body.digits === 0 ? body.afterPoint : (max - 1) * body.digits + body.afterPoint;
       return { digits, afterPoint };
     }
-    case 'value':
-      return char(inRange(48, 57, node.codePoint!), node.codePoint === 46);
-    case 'dot':
-      return char(true, true);
-    case 'characterClassEscape':
-      return char(escapeMatches(node.value!, 48), escapeMatches(node.value!, 46));
-    case 'characterClass': {
-      const [digit, point] = classChars(node);
-      return char(digit, point);
+    case 'set': {
+      if (rx.set.length === 0) return NONE;
+      let digit = false;
+      let point = false;
+      for (let i = 0; i < rx.set.length; i += 2) {
+        if (rx.set[i]! <= 0x39 && rx.set[i + 1]! >= 0x30) digit = true;
+        if (rx.set[i]! <= 0x2e && rx.set[i + 1]! >= 0x2e) point = true;
+      }
+      return { digits: digit ? 1 : 0, afterPoint: point ? 0 : -Infinity };
     }
-    case 'anchor':
-    case 'reference':
-      return EMPTY;
-    default:
-      return char(true, true); // unicode property escapes and anything newer: assume the worst
   }
 }

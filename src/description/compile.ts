@@ -4,7 +4,6 @@
  * analyses (productivity, reachability, ambiguity, left recursion) live in analysis.ts and run on
  * the IR only when this pass found no error.
  */
-import regjsparser from 'regjsparser';
 import type {
   Cardinality,
   Constructor,
@@ -27,6 +26,7 @@ import * as E from './errors.ts';
 import type { Diagnostic } from './errors.ts';
 import type { CtorAst, DeclAst, DescriptionAst, Ident, ItemAst, RegexLit, StrLit } from './syntax.ts';
 import { lineColumn } from '../util/source.ts';
+import { compileTokenRegex, nullable, runDfa, withoutWords, type TokenRegex } from './regex/index.ts';
 
 const VALUE_KINDS: readonly ValueKind[] = ['text', 'int', 'number', 'json-string', 'sql-string'];
 
@@ -69,12 +69,6 @@ function isWellFormed(s: string): boolean {
     } else if (c >= 0xdc00 && c <= 0xdfff) return false;
   }
   return true;
-}
-
-/** Offset of a regjsparser failure, parsed from its message ("... at position N"). */
-function regexErrorPosition(message: string): number | null {
-  const m = /at position (\d+)/.exec(message);
-  return m ? Number(m[1]) : null;
 }
 
 /**
@@ -216,14 +210,15 @@ export function buildGrammar(ast: DescriptionAst, text: string, file: string, ha
       diags.push(E.unknownValueKind(at(d.valueKind.span), kind));
       ok = false;
     }
-    const re = compileRegex(d.regex, d.name.text);
-    if (!re || !ok) return null;
+    const regex = compileRegex(d.regex, d.name.text);
+    if (!regex || !ok) return null;
     if (d.family) tokenFamilyRefs.push({ family: d.family, token: d.name.text });
     return {
       index,
       name: d.name.text,
       pattern: d.regex.body,
       flags: d.regex.flags,
+      regex,
       value: kind as ValueKind,
       family: d.family?.text ?? null,
       reserved: d.reserved,
@@ -231,7 +226,12 @@ export function buildGrammar(ast: DescriptionAst, text: string, file: string, ha
     };
   }
 
-  function compileRegex(r: RegexLit, token: string): RegExp | null {
+  /**
+   * Parses and compiles a token regex through the regex front-end (./regex/): a syntax error, a
+   * construct it cannot honour exactly, an automaton past its size limits, the empty string or an
+   * empty language are located errors here, so nothing later can fail on the regex.
+   */
+  function compileRegex(r: RegexLit, token: string): TokenRegex | null {
     let ok = true;
     const seen = new Set<string>();
     for (let i = 0; i < r.flags.length; i++) {
@@ -247,34 +247,34 @@ export function buildGrammar(ast: DescriptionAst, text: string, file: string, ha
       seen.add(f);
     }
     if (!ok) return null;
-    // regjsparser locates the problem inside the pattern; the engine's own message words it.
-    let position: number | null = null;
-    let detail: string | null = null;
+    const inPattern = (offset: number, length: number): Span => {
+      const start = r.bodySpan.start + Math.min(offset, Math.max(0, r.body.length - 1));
+      return { start, end: Math.min(start + length, r.bodySpan.end) };
+    };
+    // the engine's own syntax check as well (compiling a RegExp runs nothing on any input)
     try {
-      regjsparser.parse(r.body, r.flags, { namedGroups: true, lookbehind: true, unicodePropertyEscape: true });
-    } catch (e) {
-      const msg = String((e as Error).message ?? e);
-      position = regexErrorPosition(msg);
-      detail = msg.split('\n')[0]!.replace(/ at position \d+/, '');
-    }
-    let compiled: RegExp | null = null;
-    try {
-      compiled = new RegExp(`^(?:${r.body})$`, r.flags);
       new RegExp(r.body, r.flags);
     } catch (e) {
       const msg = String((e as Error).message ?? e);
       const m = /: ([^:]*)$/.exec(msg);
-      detail = m ? m[1]!.trim() : msg;
-      compiled = null;
-    }
-    if (detail !== null || compiled === null) {
-      const p = position === null ? null : Math.min(position, r.body.length - 1);
-      const span = p === null ? r.bodySpan : { start: r.bodySpan.start + p, end: r.bodySpan.start + p + 1 };
-      diags.push(E.badRegex(at(span), detail ?? 'rejected by the engine'));
+      const parsed = compileTokenRegex(r.body, r.flags);
+      const where = 'code' in parsed && parsed.code === 'bad-regex' ? inPattern(parsed.offset, parsed.length) : r.bodySpan;
+      diags.push(E.badRegex(at(where), m ? m[1]!.trim() : msg));
       return null;
     }
-    if (compiled.test('')) {
+    const compiled = compileTokenRegex(r.body, r.flags);
+    if ('code' in compiled) {
+      if (compiled.code === 'regex-too-large') diags.push(E.regexTooLarge(at(r.span), token, compiled.message));
+      else if (compiled.code === 'bad-regex') diags.push(E.badRegex(at(inPattern(compiled.offset, compiled.length)), compiled.message));
+      else diags.push(E.regexUnsupported(at(inPattern(compiled.offset, compiled.length)), token, compiled.message));
+      return null;
+    }
+    if (nullable(compiled.rx)) {
       diags.push(E.regexMatchesEmpty(at(r.span), token));
+      return null;
+    }
+    if (compiled.dfa.start === 0) {
+      diags.push(E.tokenNoLexeme(at(r.span), token, false));
       return null;
     }
     return compiled;
@@ -608,6 +608,36 @@ export function buildGrammar(ast: DescriptionAst, text: string, file: string, ha
     return { index, name: cd.name.text, sort: sortName, fields, layout, operator, scope: cd.scope !== null, span: cd.span };
   }
 
+  // reserved classes lose the keywords; no class may then be empty or begin with a space character
+  const keywordList = [...keywords].sort();
+  const keywordBytes = keywordList.map((k) => new TextEncoder().encode(k));
+  const finalTokens: TokenClass[] = [];
+  const accepts = (d: TokenRegex['dfa'], b: Uint8Array) => d.accept[runDfa(d, d.start, b)] === 1;
+  for (const t of tokens) {
+    const clash = keywordList.filter((_, i) => accepts(t.regex.dfa, keywordBytes[i]!));
+    let tok: TokenClass = { ...t, regex: { ...t.regex, keywords: clash } };
+    if (t.reserved && clash.length > 0) {
+      const dfa = withoutWords(t.regex.dfa, clash.map((k) => new TextEncoder().encode(k)));
+      if (dfa === null) {
+        diags.push(E.regexTooLarge(at(t.span), t.name, 'removing the keywords from it exceeds the automaton limit'));
+        continue;
+      }
+      if (dfa.start === 0) {
+        diags.push(E.tokenNoLexeme(at(t.span), t.name, true));
+        continue;
+      }
+      tok = { ...tok, regex: { ...tok.regex, dfa } };
+    }
+    const d = tok.regex.dfa;
+    for (const c of space ?? '') {
+      if (runDfa(d, d.start, new TextEncoder().encode(c)) !== 0) {
+        diags.push(E.tokenStartsWithSpace(at(t.span), t.name, c));
+        break;
+      }
+    }
+    finalTokens.push(tok);
+  }
+
   if (diags.some((d) => d.severity === 'error')) return { grammar: null, diagnostics: diags };
   const grammar: Grammar = {
     name: ast.grammar.text,
@@ -615,7 +645,7 @@ export function buildGrammar(ast: DescriptionAst, text: string, file: string, ha
     hash,
     start: start!.name,
     space: space!,
-    tokens,
+    tokens: finalTokens,
     nameSets,
     kindFamilies,
     scoped:
@@ -623,7 +653,7 @@ export function buildGrammar(ast: DescriptionAst, text: string, file: string, ha
       constructors.some((c) => c.scope || c.fields.some((f) => f.scoping === 'enters' || f.scoping === 'known' || f.kindOf !== null)),
     sorts,
     constructors,
-    keywords: [...keywords].sort(),
+    keywords: keywordList,
   };
   return { grammar, diagnostics: diags };
 }

@@ -132,6 +132,38 @@ export const badRegexFlag = (at: At, flag: string) =>
 export const duplicateRegexFlag = (at: At, flag: string) =>
   error('duplicate-regex-flag', at, `regular expression flag ${q(flag)} is given twice`);
 
+export const regexUnsupported = (at: At, token: string, detail: string) =>
+  error(
+    'regex-unsupported',
+    at,
+    `token class ${q(token)}: ${detail}`,
+    'token patterns are matched by one finite automaton; see "Token regexes" in README.md for what it supports',
+  );
+
+export const regexTooLarge = (at: At, token: string, detail: string) =>
+  error(
+    'regex-too-large',
+    at,
+    `token class ${q(token)} is too large for the automaton: ${detail}`,
+    'use smaller repetition counts, or `+`/`*` instead of a large `{n}`, and avoid a counted repetition after an open-ended one',
+  );
+
+export const tokenNoLexeme = (at: At, token: string, afterKeywords: boolean) =>
+  error(
+    'token-no-lexeme',
+    at,
+    afterKeywords ? `token class ${q(token)} has no lexeme once the grammar's keywords are removed (it is \`reserved\`)` : `token class ${q(token)} matches no lexeme`,
+    afterKeywords ? 'drop `reserved`, or widen the pattern' : 'an empty class `[]` matches nothing',
+  );
+
+export const tokenStartsWithSpace = (at: At, token: string, ch: string) =>
+  error(
+    'token-starts-with-space',
+    at,
+    `token class ${q(token)} may begin with the space character ${JSON.stringify(ch)}`,
+    'lexemes must start with a non-space character; exclude the `space` characters from the first position',
+  );
+
 export const regexMatchesEmpty = (at: At, token: string) =>
   error(
     'token-matches-empty',

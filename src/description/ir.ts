@@ -12,6 +12,7 @@
  *   when a message is printed (see util/source.ts).
  * The IR is immutable after compilation: stages must not mutate it.
  */
+import type { TokenRegex } from './regex/index.ts';
 
 /** A half-open range of UTF-16 offsets into the description source (defined in util/source.ts). */
 export type { Span } from '../util/source.ts';
@@ -38,6 +39,12 @@ export interface TokenClass {
   readonly pattern: string;
   /** ECMAScript flags written after the closing slash (only `i` and `u` are accepted). */
   readonly flags: string;
+  /**
+   * The pattern parsed once by the regex front-end (regex/): its IR (case-closed character sets)
+   * and the byte DFA of the class's lexemes (for `reserved` classes, without the keywords). Every
+   * later stage reads these, never the pattern text.
+   */
+  readonly regex: TokenRegex;
   readonly value: ValueKind;
   /** `kind Family`: variables of this class (`new`/`bound` fields) carry a kind of this family */
   readonly family: string | null;

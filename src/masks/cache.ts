@@ -6,7 +6,7 @@
  * `$XDG_CACHE_HOME/treewright/masks`; how files are created, read and sealed: cache-files.ts).
  *
  * Layout (little-endian; every section starts on a 4-byte boundary):
- *   "TWMASK01"                      magic (8 bytes)
+ *   CACHE_FORMAT ("TWMASK02")       magic (8 bytes)
  *   u32 headerLength, header JSON   {format, key, grammarHash, vocabBytes, classes: [null | {states, kmax[], exits[]}]}
  *   vocabulary index                Vocabulary.serialize() (its own checksum)
  *   per class with tables: inside bitsets for states 1..W0, then le bitsets (kmax[d] capped at
@@ -29,7 +29,7 @@ import { MAX_LE, type ClassTables } from './class-tables.ts';
 import { Automaton, type ByteDfa } from '../automaton/internal.ts';
 import { CacheFileError, defaultCacheDir, folderSecret, privateDir, readSealed, writeSealed } from './cache-files.ts';
 
-export const CACHE_FORMAT = 'TWMASK01';
+export const CACHE_FORMAT = 'TWMASK02'; // 02: token DFAs from the regex front-end (case folding per ECMAScript, surrogate pairs)
 const MAGIC = Buffer.from(CACHE_FORMAT, 'latin1');
 
 export class CacheError extends Error {}

@@ -1,10 +1,10 @@
 /**
  * Lookup tables over a Grammar that every part of the tree stage shares: constructors, sorts,
- * token classes and name sets by name, compiled token regexes, operator positions. Built once per
+ * token classes and name sets by name, token lexeme tests (the class DFA), operator positions. Built once per
  * Grammar object (the IR is immutable) and cached in a WeakMap.
  */
 import type { Constructor, Field, Grammar, NameSet, Sort, TokenClass } from '../description/ir.ts';
-import { parseRegex, type Rx } from './regex.ts';
+import { runDfa, type Rx } from '../description/regex/index.ts';
 
 /** Where an operator constructor's operands sit in its layout. */
 export interface OperandSlots {
@@ -16,9 +16,12 @@ export interface OperandSlots {
 
 export interface TokenInfo {
   readonly token: TokenClass;
-  /** the class regex anchored to the whole lexeme */
-  readonly whole: RegExp;
-  /** lazily parsed regex IR (throws RegexFeatureError for unsupported features) */
+  /**
+   * Does the class pattern match `text` as a whole lexeme? (keywords included, even for a
+   * `reserved` class). Runs the class DFA: linear time, never a backtracking RegExp.
+   */
+  matches(text: string): boolean;
+  /** the regex IR (parsed once by the description stage) */
   rx(): Rx;
   /** keywords of the grammar that are lexemes of this class (excluded when `reserved`) */
   readonly keywordClash: readonly string[];
@@ -40,6 +43,7 @@ export interface GrammarInfo {
 }
 
 const cache = new WeakMap<Grammar, GrammarInfo>();
+const utf8 = new TextEncoder();
 
 export function grammarInfo(grammar: Grammar): GrammarInfo {
   let info = cache.get(grammar);
@@ -56,13 +60,12 @@ function build(grammar: Grammar): GrammarInfo {
   const nameSet = new Map(grammar.nameSets.map((n) => [n.name, n]));
   const token = new Map<string, TokenInfo>();
   for (const t of grammar.tokens) {
-    const whole = new RegExp(`^(?:${t.pattern})$`, t.flags);
-    let rx: Rx | undefined;
+    const dfa = t.regex.dfa;
     token.set(t.name, {
       token: t,
-      whole,
-      rx: () => (rx ??= parseRegex(t.pattern, t.flags)),
-      keywordClash: grammar.keywords.filter((k) => whole.test(k)),
+      matches: (text) => dfa.accept[runDfa(dfa, dfa.start, utf8.encode(text))] === 1 || t.regex.keywords.includes(text),
+      rx: () => t.regex.rx,
+      keywordClash: t.regex.keywords,
     });
   }
   const fields = new Map<string, Map<string, Field>>();

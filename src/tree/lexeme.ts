@@ -79,7 +79,7 @@ export function tokenValueProblem(tok: TokenInfo, value: unknown): string | null
   if (kind === 'int' && !Number.isSafeInteger(v)) return `expected ${tok.token.name} (${kindWords(kind)})`;
   if (kind === 'number' && !Number.isFinite(v)) return `expected ${tok.token.name} (${kindWords(kind)})`;
   const lexeme = valueToLexeme(kind, v);
-  if (!tok.whole.test(lexeme)) return `${tok.token.name} cannot spell ${JSON.stringify(v)}: ${lexeme} does not match /${tok.token.pattern}/${tok.token.flags}`;
+  if (!tok.matches(lexeme)) return `${tok.token.name} cannot spell ${JSON.stringify(v)}: ${lexeme} does not match /${tok.token.pattern}/${tok.token.flags}`;
   if (tok.token.reserved && tok.keywordClash.includes(lexeme)) return `${tok.token.name} cannot spell the keyword ${JSON.stringify(lexeme)}`;
   if (!Object.is(lexemeToValue(kind, lexeme), v)) return `${tok.token.name} cannot spell ${Object.is(v, -0) ? '-0' : JSON.stringify(v)} exactly (it prints as ${lexeme})`;
   return null;
@@ -87,7 +87,7 @@ export function tokenValueProblem(tok: TokenInfo, value: unknown): string | null
 
 /** Why `name` cannot be a member of a name set spelled by `tok` (regex, reserved keywords), or null. */
 export function nameSpellingProblem(tok: TokenInfo, name: string): string | null {
-  if (!tok.whole.test(name)) return `'${name}' is not a lexeme of ${tok.token.name} /${tok.token.pattern}/${tok.token.flags}`;
+  if (!tok.matches(name)) return `'${name}' is not a lexeme of ${tok.token.name} /${tok.token.pattern}/${tok.token.flags}`;
   if (tok.token.reserved && tok.keywordClash.includes(name)) return `'${name}' is a keyword, not a lexeme of ${tok.token.name}`;
   return null;
 }

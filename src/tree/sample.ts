@@ -189,7 +189,7 @@ export function createSampler(grammar: Grammar, opts: SampleOptions): Sampler {
 
 function lexeme(tok: TokenInfo, rand: () => number): string {
   const parts: string[] = [];
-  generate(tok.rx(), rand, parts);
+  generate(tok.token.regex.rx, rand, parts);
   return parts.join('');
 }
 

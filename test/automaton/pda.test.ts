@@ -159,10 +159,10 @@ describe('grammars the automaton refuses', () => {
     writeFileSync(file, text);
     return loadGrammar(file);
   };
-  it('a token class that may begin with a space character', () => {
-    const g = compile('grammar t\nstart A\nspace " "\ntoken W = /[ a]+/ as text\nsort A {\n  a(w: W) = w;\n}\n');
-    expect(() => new Automaton(g)).toThrow(AutomatonError);
-    expect(() => new Automaton(g)).toThrow(/test\.twg:4:1: error: token class W may begin with the space character " "/);
+  it('a token class that may begin with a space character (refused already by the description check)', () => {
+    expect(() => compile('grammar t\nstart A\nspace " "\ntoken W = /[ a]+/ as text\nsort A {\n  a(w: W) = w;\n}\n')).toThrow(
+      /test\.twg:4:1: error: token class `W` may begin with the space character " "/,
+    );
   });
 });
 

@@ -510,7 +510,8 @@ describe('diagnostics', () => {
     expect(warned('(?:[0-9]{5}){4}', 'int')).toEqual(['unbounded-digits']);
     expect(warned('[1-9][0-9]{1,7}[0-9]{1,8}', 'int')).toEqual(['unbounded-digits']);
     expect(warned('\\d+', 'int')).toEqual(['unbounded-digits']);
-    expect(warned('[^a-z]{1,20}', 'int')).toEqual(['unbounded-digits']);
+    expect(warned('[^a-z ]{1,20}', 'int')).toEqual(['unbounded-digits']);
+    expect(warned('[^a-z]{1,20}', 'int')).toEqual(['token-starts-with-space']); // the space character is in the class
     expect(warned('0|[1-9][0-9]*', 'int')).toEqual(['unbounded-digits']);
     expect(warned('[0-9]{1,8}(?:[.][0-9]{1,6})?', 'number')).toEqual([]);
     expect(warned('[0-9]{1,8}(?:.[0-9]{1,7})?', 'number')).toEqual(['unbounded-digits']);
