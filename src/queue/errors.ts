@@ -27,10 +27,10 @@ export const queueErrors = {
       `--queue ${url}: queue ${JSON.stringify(name)} still has ${pending} unfinished jobs of another evaluation (its ${parts.join(', ')} differ from this one's); ` +
         `expected an idle queue — use another --queue-name, or finish that evaluation first`,
     ),
-  /** `subject`: "job <id>", or the queue whose format record names another set-up */
+  /** `subject`: "job <id>:", or the queue whose format record names another set-up */
   mismatch: (subject: string, parts: readonly (keyof Fingerprint)[], want: Fingerprint, have: Partial<Fingerprint>) =>
     new QueueError(
-      `${subject}: made for another set-up — ${parts.map((p) => `${p} ${short(want[p])}… here ${have[p] === undefined ? '?' : short(have[p]!)}…`).join(', ')}; ` +
+      `${subject} made for another set-up — ${parts.map((p) => `${p} ${short(want[p])}… here ${have[p] === undefined ? '?' : short(have[p]!)}…`).join(', ')}; ` +
         `this worker refuses it; expected this worker's --model, --grammar, --names and --db (or --executor) to be the evaluation's: start the worker with the same files`,
     ),
   badJob: (jobId: string, path: string, expected: string, found: unknown) =>

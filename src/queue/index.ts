@@ -25,4 +25,4 @@ export { QueueError, QUEUE_FORMAT_VERSION } from './errors.ts';
 export { fingerprint, fingerprintKey, modelHash, namesHash, decodingHash, executionHash, fileHash, differingParts, type Fingerprint, type Decoding, type FingerprintInput } from './fingerprint.ts';
 export { jobId, queueNames, readJobData, readRowPost, readFormatRecord, LIMITS, KEY_PREFIX, type JobData, type RowPost, type FormatRecord } from './protocol.ts';
 export { queueProducer, JOB_ATTEMPTS, MAX_STALLED, type CollectOptions } from './collect.ts';
-export { startWorker, workerName, type WorkerRunOptions, type RunningWorker, type LocalFingerprint } from './worker.ts';
+export { startWorker, checkQueue, workerName, type WorkerRunOptions, type RunningWorker, type LocalFingerprint } from './worker.ts';

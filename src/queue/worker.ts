@@ -15,6 +15,7 @@
  * twice; the collector keeps the first (rows are keyed by item and mode).
  */
 import { hostname } from 'node:os';
+import type { Redis } from 'ioredis';
 import { Queue, UnrecoverableError, WaitingError, Worker, type Job as QueueJob } from 'bullmq';
 import type { EvalRow, RowMaker } from '../eval/run.ts';
 import { openRedis, redisOptions } from './connect.ts';
@@ -54,6 +55,29 @@ export function workerName(): string {
   return `${hostname()}:${process.pid}`;
 }
 
+/** Refuses a queue whose format record is not a treewright evaluation's of this format, or names other files. */
+async function checkRecord(client: Redis, target: RedisTarget, name: string, local: LocalFingerprint): Promise<void> {
+  const found = readFormatRecord(await client.get(queueNames(name).format));
+  if (found !== null && 'other' in found) throw queueErrors.otherFormat(target.display, name, found.other);
+  if (found !== null) {
+    const parts = differingParts(found.fp, { ...local, decoding: found.fp.decoding }, LOCAL_PARTS);
+    if (parts.length > 0) throw queueErrors.mismatch(`--queue ${target.display}: queue ${JSON.stringify(name)} holds an evaluation`, parts, found.fp, local);
+  }
+}
+
+/**
+ * The checks startWorker makes before it pulls jobs — Redis reachable, the queue's format, the
+ * evaluation's files — without pulling any: a worker runs them before it loads its model.
+ */
+export async function checkQueue(target: RedisTarget, name: string, local: LocalFingerprint): Promise<void> {
+  const checked = await openRedis(target, () => undefined);
+  try {
+    await checkRecord(checked.client, target, name, local);
+  } finally {
+    await checked.close();
+  }
+}
+
 /** Connects, checks the queue's format record, and starts pulling jobs. */
 export async function startWorker(opts: WorkerRunOptions): Promise<RunningWorker> {
   const url = opts.target.display;
@@ -65,17 +89,11 @@ export async function startWorker(opts: WorkerRunOptions): Promise<RunningWorker
   let posted = 0;
 
   const checked = await openRedis(opts.target, (why) => void stop(queueErrors.lost(url, why)));
-  const found = readFormatRecord(await checked.client.get(names.format));
-  if (found !== null && 'other' in found) {
+  try {
+    await checkRecord(checked.client, opts.target, opts.name, opts.local);
+  } catch (e) {
     await checked.close();
-    throw queueErrors.otherFormat(url, opts.name, found.other);
-  }
-  if (found !== null) {
-    const parts = differingParts(found.fp, { ...opts.local, decoding: found.fp.decoding }, LOCAL_PARTS);
-    if (parts.length > 0) {
-      await checked.close();
-      throw queueErrors.mismatch(`--queue ${url}: the evaluation on queue ${JSON.stringify(opts.name)} was`, parts, found.fp, opts.local);
-    }
+    throw e;
   }
 
   const connection = redisOptions(opts.target);
@@ -101,7 +119,7 @@ export async function startWorker(opts: WorkerRunOptions): Promise<RunningWorker
         if (parts.length > 0) {
           // refuse: back to the waiting list for a worker with the right files, and stop
           await job.moveToWait(token);
-          void stop(queueErrors.mismatch(`job ${id}`, parts, data.fp, opts.local));
+          void stop(queueErrors.mismatch(`job ${id}:`, parts, data.fp, opts.local));
           throw new WaitingError();
         }
         const row = await opts.maker(data.decoding).row(data.item, data.mode);

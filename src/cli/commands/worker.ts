@@ -11,10 +11,12 @@
  * a job, or with exit code 1 on an error (Redis unreachable or lost, a queue of another format,
  * a job for other files).
  */
+import { existsSync } from 'node:fs';
+import { join } from 'node:path';
 import { Option, type Command } from 'commander';
 import { runCommand, type RegisterCommand } from '../command.ts';
 import { decimal, opt } from '../options.ts';
-import { openEvalSetup } from './eval-setup.ts';
+import { openEvalSetup, openExecution } from './eval-setup.ts';
 
 interface Flags {
   queue: string;
@@ -49,13 +51,18 @@ export const register: RegisterCommand = (program: Command, setExit) => {
 };
 
 async function workerCommand(f: Flags): Promise<void> {
-  const { parseRedisUrl, checkQueueName, startWorker, modelHash, fileHash, namesHash, executionHash } = await import('../../queue/index.ts');
-  // the URL and name are checked before the model is loaded
+  const { parseRedisUrl, checkQueueName, checkQueue, startWorker, modelHash, fileHash, namesHash, executionHash } = await import('../../queue/index.ts');
+  // the URL, the name, Redis and the queue are checked before the model is loaded
   const target = parseRedisUrl(f.queue);
   const name = checkQueueName(f.queueName);
-  const setup = await openEvalSetup({ model: f.model, grammar: f.grammar, db: f.db, names: f.names, executor: f.executor });
+  const flags = { model: f.model, grammar: f.grammar, db: f.db, names: f.names, executor: f.executor };
+  const ex = await openExecution(flags);
+  ex.dispose();
+  if (!existsSync(join(f.model, 'config.json'))) throw new Error(`${f.model}: no config.json; expected a model folder (config.json, tokenizer.json, tokenizer_config.json, onnx/…)`);
+  const local = { model: modelHash(f.model), grammar: fileHash(f.grammar), names: namesHash(ex.names), execution: executionHash(f.db, f.executor) };
+  await checkQueue(target, name, local);
+  const setup = await openEvalSetup(flags);
   try {
-    const local = { model: modelHash(f.model), grammar: fileHash(f.grammar), names: namesHash(setup.names), execution: executionHash(f.db, f.executor) };
     await setup.warmUp('warm up', { beam: null, maxTokens: null, prefix: null });
     const w = await startWorker({
       target,
