@@ -94,14 +94,14 @@ export interface RegistryOptions {
 export const EXECUTOR_KINDS = ['sql', 'lf'] as const;
 export type ExecutorKind = (typeof EXECUTOR_KINDS)[number];
 
-/** Parses `--executor KIND=GRAMMAR` values into description paths by kind; throws naming the bad value. */
+/** Parses `--bind-executor KIND=GRAMMAR` values into description paths by kind; throws naming the bad value. */
 export function executorBindings(values: readonly string[] | undefined): Map<string, ExecutorKind> {
   const byFile = new Map<string, ExecutorKind>();
   const bound = new Set<ExecutorKind>();
   for (const v of values ?? []) {
     const m = /^([a-z]+)=(.+)$/.exec(v);
     if (m === null || !(EXECUTOR_KINDS as readonly string[]).includes(m[1]!)) {
-      throw new Error(`--executor ${v}: expected KIND=GRAMMAR with KIND one of ${EXECUTOR_KINDS.join(', ')} (e.g. sql=my-sql.twg)`);
+      throw new Error(`--bind-executor ${v}: expected KIND=GRAMMAR with KIND one of ${EXECUTOR_KINDS.join(', ')} (e.g. sql=my-sql.twg)`);
     }
     byFile.set(shippedPath(m[2]!), m[1] as ExecutorKind);
     bound.add(m[1] as ExecutorKind);

@@ -132,7 +132,7 @@ describe('executors are bound by the operator, not by a grammar name', () => {
     }
   });
 
-  it('a copy of the SQL description given with --grammar has no executor unless --executor binds it', async () => {
+  it('a copy of the SQL description given with --grammar has no executor unless --bind-executor binds it', async () => {
     const { mkdtempSync, copyFileSync } = await import('node:fs');
     const { tmpdir } = await import('node:os');
     const { join } = await import('node:path');
@@ -147,7 +147,7 @@ describe('executors are bound by the operator, not by a grammar name', () => {
         await registry.close();
       }
     }
-    await expect(Registry.open({ models: [], warm: false, executors: ['shell=x.twg'] })).rejects.toThrow('--executor shell=x.twg: expected KIND=GRAMMAR with KIND one of sql, lf (e.g. sql=my-sql.twg)');
+    await expect(Registry.open({ models: [], warm: false, executors: ['shell=x.twg'] })).rejects.toThrow('--bind-executor shell=x.twg: expected KIND=GRAMMAR with KIND one of sql, lf (e.g. sql=my-sql.twg)');
   });
 });
 

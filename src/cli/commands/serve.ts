@@ -4,7 +4,7 @@
  * SIGTERM. Grammars default to the four shipped ones, models to models/coop when it holds an ONNX
  * export, the database to the demo cooperative (built from grammars/sql/coop.sql into a temporary
  * folder). Limits: --body-limit BYTES, --time-limit MS, --max-active N, --max-queued N, --exec-active N,
- * --exec-queued N. Executors: --executor KIND=GRAMMAR, --checked-executors. Prints one
+ * --exec-queued N. Executors: --bind-executor KIND=GRAMMAR, --checked-executors. Prints one
  * line `listening on http://HOST:PORT/` on stdout when ready; errors (naming the file) on stderr,
  * exit 1.
  */
@@ -24,7 +24,7 @@ interface Flags {
   timeLimit?: number;
   maxActive?: number;
   maxQueued?: number;
-  executor?: string[];
+  bindExecutor?: string[];
   checkedExecutors?: boolean;
   execActive?: number;
   execQueued?: number;
@@ -45,7 +45,7 @@ export const register: RegisterCommand = (program: Command, setExit) => {
     .addOption(new Option('--time-limit <ms>', 'wall-clock limit of one decode request (default 30000)').argParser(integer(1)))
     .addOption(new Option('--max-active <n>', 'model and executor requests running at once (default 2)').argParser(integer(1)))
     .addOption(new Option('--max-queued <n>', 'requests waiting for a slot before answering 503 (default 64)').argParser(integer(0)))
-    .addOption(new Option('--executor <kind=grammar>', 'bind an executor (sql or lf) to a --grammar description, e.g. sql=my-sql.twg (repeatable; default: the shipped sql and lf descriptions)').argParser((v: string, prev: string[] | undefined) => [...(prev ?? []), v]))
+    .addOption(new Option('--bind-executor <kind=grammar>', 'bind an executor (sql or lf) to a --grammar description, e.g. sql=my-sql.twg (repeatable; default: the shipped sql and lf descriptions)').argParser((v: string, prev: string[] | undefined) => [...(prev ?? []), v]))
     .option('--checked-executors', 'let descriptions checked through /api/check run with the executor of the startup grammar of the same name (default: they get none)')
     .addOption(new Option('--exec-active <n>', 'executor runs (SQL, LF) at once, apart from the model slots (default 2)').argParser(integer(1)))
     .addOption(new Option('--exec-queued <n>', 'executor runs waiting before answering 503 (default 16)').argParser(integer(0)))
@@ -66,7 +66,7 @@ export const register: RegisterCommand = (program: Command, setExit) => {
             timeLimitMs: f.timeLimit,
             maxActive: f.maxActive,
             maxQueued: f.maxQueued,
-            executors: f.executor,
+            executors: f.bindExecutor,
             checkedExecutors: f.checkedExecutors,
             execActive: f.execActive,
             execQueued: f.execQueued,
