@@ -23,9 +23,11 @@
  * errors.ts the error catalogue; schemas.ts the JSON Schemas behind validation and OpenAPI.
  *
  * Limits: request body (default 1 MiB → 413), a wall-clock limit per decode request (default
- * 30 s, an AbortSignal that decoding checks before every decoder step → 504), at most `maxActive` model/executor requests at
- * once with `maxQueued` waiting (defaults 2 and 64) — beyond that 503 at once, never an unbounded
- * queue. Every error is JSON `{error: {code, message, location?}}`, the location a `file:line:col`
+ * 30 s, an AbortSignal that decoding checks before every decoder step → 504), at most `maxActive` model requests at
+ * once with `maxQueued` waiting (defaults 2 and 64), and apart from them `execActive` executor runs
+ * with `execQueued` waiting (2 and 16) — beyond that 503 at once, never an unbounded queue. Request
+ * bodies and trees nest at most 500 deep, programs within the parser's nesting limit
+ * (src/util/depth.ts). Executors are bound by the operator (registry.ts), never by a grammar name. Every error is JSON `{error: {code, message, location?}}`, the location a `file:line:col`
  * or a JSON path into the request body. Checked descriptions are compiled in a worker thread
  * (checker.ts; 10 s limit → 504, 64 KiB text limit) and cached by content hash (64 most recent).
  * Binds 127.0.0.1 unless told otherwise.

@@ -43,7 +43,7 @@ export const register: RegisterCommand = (program: Command, setExit) => {
     .addOption(new Option('--threads <n>', 'onnxruntime threads per model session').argParser(integer(1)))
     .addOption(new Option('--body-limit <bytes>', 'largest request body (default 1048576)').argParser(integer(1)))
     .addOption(new Option('--time-limit <ms>', 'wall-clock limit of one decode request (default 30000)').argParser(integer(1)))
-    .addOption(new Option('--max-active <n>', 'model and executor requests running at once (default 2)').argParser(integer(1)))
+    .addOption(new Option('--max-active <n>', 'model requests running at once (default 2; executors have --exec-active)').argParser(integer(1)))
     .addOption(new Option('--max-queued <n>', 'requests waiting for a slot before answering 503 (default 64)').argParser(integer(0)))
     .addOption(new Option('--bind-executor <kind=grammar>', 'bind an executor (sql or lf) to a --grammar description, e.g. sql=my-sql.twg (repeatable; default: the shipped sql and lf descriptions)').argParser((v: string, prev: string[] | undefined) => [...(prev ?? []), v]))
     .option('--checked-executors', 'let descriptions checked through /api/check run with the executor of the startup grammar of the same name (default: they get none)')
