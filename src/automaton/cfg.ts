@@ -70,7 +70,18 @@ export interface Rtn {
   readonly startNt: number;
   /** the grammar's space characters as a byte table (1 = skippable) */
   readonly space: Uint8Array;
+  /**
+   * per node: the field whose value the terminal edge into this node reads, as
+   * `ctor.index * FIELD_STRIDE + field.index`, or -1 (literals, nodes no terminal edge enters).
+   * A terminal edge's target node is created for that edge alone, so the node names the edge.
+   */
+  readonly nodeField: Int32Array;
+  /** per nonterminal: the constructor whose layout it is, or -1 (sorts, precedence levels) */
+  readonly ntCtor: Int32Array;
 }
+
+/** Fields per constructor in `Rtn.nodeField`'s encoding. */
+export const FIELD_STRIDE = 1024;
 
 /** A compile error located in the description file. */
 export class AutomatonError extends Error {}
@@ -101,6 +112,8 @@ class Builder {
   terminals: Terminal[] = [];
   termKey = new Map<string, number>();
   curNt = -1;
+  nodeField = new Map<number, number>();
+  ntCtor = new Map<number, number>();
 
   node(): number {
     this.nodeNt.push(this.curNt);
@@ -224,7 +237,12 @@ export function buildRtn(g: Grammar, dfas?: readonly ByteDfa[]): Rtn {
   const sortEntry = new Map<string, number>();
   const ctorNt = new Map<string, number>();
   for (const s of g.sorts) sortEntry.set(s.name, b.declare(s.name));
-  for (const c of g.constructors) if (!c.operator) ctorNt.set(c.name, b.declare(`${c.sort}.${c.name}`));
+  for (const c of g.constructors) {
+    if (c.operator) continue;
+    const nt = b.declare(`${c.sort}.${c.name}`);
+    ctorNt.set(c.name, nt);
+    b.ntCtor.set(nt, c.index);
+  }
 
   /** One occurrence of a field's value. `operandNt` overrides the target for operand slots. */
   const symbol = (f: Field, operandNt: number | undefined): Frag => {
@@ -241,7 +259,11 @@ export function buildRtn(g: Grammar, dfas?: readonly ByteDfa[]): Rtn {
   const slot = (c: Constructor, item: Extract<LayoutItem, { kind: 'slot' }>, present: boolean, operands: Map<string, number>): Frag => {
     const f = c.fields.find((x) => x.name === item.field)!;
     const op = operands.get(f.name);
-    const make = () => symbol(f, op);
+    const make = () => {
+      const frag = symbol(f, op);
+      if (f.type.kind !== 'sort' && op === undefined) b.nodeField.set(frag.e, c.index * FIELD_STRIDE + f.index);
+      return frag;
+    };
     const sep = item.sep !== null ? terminal('lit', item.sep) : null;
     switch (f.card) {
       case 'one':
@@ -316,6 +338,10 @@ export function buildRtn(g: Grammar, dfas?: readonly ByteDfa[]): Rtn {
     const code = ch.codePointAt(0)!;
     if (code < 128) space[code] = 1;
   }
+  const nodeField = new Int32Array(nodeCount).fill(-1);
+  for (const [n, f] of b.nodeField) nodeField[n] = f;
+  const ntCtor = new Int32Array(b.nts.length).fill(-1);
+  for (const [nt, c] of b.ntCtor) ntCtor[nt] = c;
   if (!sortByName.has(g.start)) throw new AutomatonError(`${g.file}: error: start sort ${g.start} is not a sort`);
   return {
     terminals: b.terminals,
@@ -327,6 +353,8 @@ export function buildRtn(g: Grammar, dfas?: readonly ByteDfa[]): Rtn {
     edgeTo,
     startNt: sortEntry.get(g.start)!,
     space,
+    nodeField,
+    ntCtor,
   };
 }
 

@@ -10,7 +10,8 @@
  * - `required`: members that must be introduced before the scope closes (qualified references
  *   `t.c` and plain references to an introduced-set member);
  * - `unqualified`: referred members that must have exactly one owner among the scope's members
- *   (SQLite's rule: otherwise "ambiguous column name" or "no such column").
+ *   (SQLite's rule: otherwise "ambiguous column name" or "no such column");
+ * - `optional`: referred members with at most one owner (none: an enclosing scope resolves them).
  * The scope may still take between `minMore` and `maxMore` introductions (from the grammar
  * position: e.g. a FROM still to come is 1..1 in a subquery without joins, 1..∞ with joins).
  *
@@ -19,10 +20,9 @@
  * own no unqualified reference ("free" members) can pad X at no risk, so the sizes of valid X are
  * what the search below needs: the smallest valid |X| (`m`) and the number of free members (`F`).
  * A valid X with minMore ≤ |X| ≤ maxMore exists if m ≤ maxMore and m + F ≥ minMore (pad a
- * smallest one with free members); when m + F < minMore (only possible for minMore ≥ 2: with
- * m = 0 every reference is covered and any non-free member would cover one twice) a second
- * search looks for a larger cover. Valid sets are not closed under size in between: covers of
- * sizes 1 and 3 may exist without one of size 2, hence the second search instead of a formula.
+ * smallest one with free members); when m + F < minMore a second search looks for a larger set
+ * (other covers, grown with members that touch only optional references). Valid sets are not
+ * closed under size: covers of sizes 1 and 3 may exist without one of size 2, hence the search.
  *
  * Search: exact cover by depth-first search on the uncovered reference with the fewest candidate
  * owners (candidates: not in S and owning no already-covered reference); depth ≤ number of
@@ -74,6 +74,8 @@ export class Relation {
   }
 }
 
+const NONE = new Int32Array(0);
+
 /** Unbounded number of further introductions. */
 export const MANY = 0x3fffffff;
 /** Search nodes per question before giving up (answer: infeasible). */
@@ -110,18 +112,11 @@ export class ScopeSolver {
    * via `free()` right after, the number of free members. `intro`, `required`, `unqualified` are
    * member lists (duplicates allowed).
    */
-  minMore(intro: ArrayLike<number>, required: ArrayLike<number>, unqualified: ArrayLike<number>): number {
+  minMore(intro: ArrayLike<number>, required: ArrayLike<number>, unqualified: ArrayLike<number>, optional: ArrayLike<number> = NONE): number {
     const rel = this.rel;
     const { inS, cover, isRef, refs } = this;
     this.exhausted = false;
-    this.nRefs = 0;
-    for (let i = 0; i < unqualified.length; i++) {
-      const r = unqualified[i];
-      if (isRef[r] === 0) {
-        isRef[r] = 1;
-        refs[this.nRefs++] = r;
-      }
-    }
+    this.markRefs(unqualified, optional);
     let added = 0;
     let ok = true;
     for (let i = 0; i < intro.length && ok; i++) ok = this.add(intro[i]);
@@ -163,26 +158,39 @@ export class ScopeSolver {
    * True when some valid final set takes between `lo` and `hi` further introductions.
    * (`hi` = MANY: unbounded.)
    */
-  feasible(intro: ArrayLike<number>, required: ArrayLike<number>, unqualified: ArrayLike<number>, lo: number, hi: number): boolean {
-    const m = this.minMore(intro, required, unqualified);
+  feasible(intro: ArrayLike<number>, required: ArrayLike<number>, unqualified: ArrayLike<number>, lo: number, hi: number, optional: ArrayLike<number> = NONE): boolean {
+    const m = this.minMore(intro, required, unqualified, optional);
     if (m >= MANY || m > hi) return false;
     if (m + this.lastFree >= lo) return true;
-    // a larger cover is needed (lo ≥ 2 only: with m = 0 every cover is empty): search for one
-    // of size ≥ lo − F and ≤ hi
-    return this.coverAtLeast(intro, required, unqualified, lo - this.lastFree, hi);
+    // a larger set is needed: search for one of size ≥ lo and ≤ hi (grown with members that
+    // cover only optional references or none)
+    return this.coverAtLeast(intro, required, unqualified, optional, lo, hi);
   }
 
-  /** Some valid X (without padding) has need ≤ |X| ≤ hi. Same scratch protocol as minMore. */
-  private coverAtLeast(intro: ArrayLike<number>, required: ArrayLike<number>, unqualified: ArrayLike<number>, need: number, hi: number): boolean {
-    const { inS, cover, isRef, refs } = this;
+  /** Marks the references of a question: 1 mandatory (exactly one owner), 2 optional (at most one). */
+  private markRefs(unqualified: ArrayLike<number>, optional: ArrayLike<number>): void {
+    const { isRef, refs } = this;
     this.nRefs = 0;
     for (let i = 0; i < unqualified.length; i++) {
       const r = unqualified[i];
-      if (isRef[r] === 0) {
+      if (isRef[r] !== 1) {
+        if (isRef[r] === 0) refs[this.nRefs++] = r;
         isRef[r] = 1;
+      }
+    }
+    for (let i = 0; i < optional.length; i++) {
+      const r = optional[i];
+      if (isRef[r] === 0) {
+        isRef[r] = 2;
         refs[this.nRefs++] = r;
       }
     }
+  }
+
+  /** Some valid X (without padding) has need ≤ |X| ≤ hi. Same scratch protocol as minMore. */
+  private coverAtLeast(intro: ArrayLike<number>, required: ArrayLike<number>, unqualified: ArrayLike<number>, optional: ArrayLike<number>, need: number, hi: number): boolean {
+    const { inS, cover, isRef, refs } = this;
+    this.markRefs(unqualified, optional);
     let added = 0;
     for (let i = 0; i < intro.length; i++) this.add(intro[i]);
     for (let i = 0; i < required.length; i++) {
@@ -202,7 +210,7 @@ export class ScopeSolver {
     return found;
   }
 
-  private searchSize(size: number, need: number, hi: number): boolean {
+  private searchSize(size: number, need: number, hi: number, from = 0): boolean {
     if (size > hi) return false;
     if (++this.steps > MAX_STEPS) {
       this.exhausted = true;
@@ -210,13 +218,25 @@ export class ScopeSolver {
     }
     const { ownStart, owners } = this.rel;
     let pick = -1;
-    for (let i = 0; i < this.nRefs && pick < 0; i++) if (this.cover[this.refs[i]] === 0) pick = this.refs[i];
-    if (pick < 0) return size >= need;
+    for (let i = 0; i < this.nRefs && pick < 0; i++) if (this.cover[this.refs[i]] === 0 && this.isRef[this.refs[i]] === 1) pick = this.refs[i];
+    if (pick < 0) {
+      if (size >= need) return true;
+      // every mandatory reference is covered: grow with members that cover only optional ones
+      // (in increasing order, so each set is tried once)
+      for (let t = from; t < this.rel.introCount; t++) {
+        if (!this.candidate(t)) continue;
+        this.add(t);
+        const ok = this.searchSize(size + 1, need, hi, t + 1);
+        this.remove(t);
+        if (ok || this.exhausted) return ok;
+      }
+      return false;
+    }
     for (let k = ownStart[pick], e = ownStart[pick + 1]; k < e; k++) {
       const t = owners[k];
       if (!this.candidate(t)) continue;
       this.add(t);
-      const ok = this.searchSize(size + 1, need, hi);
+      const ok = this.searchSize(size + 1, need, hi, from);
       this.remove(t);
       if (ok) return true;
     }
@@ -225,7 +245,7 @@ export class ScopeSolver {
 
   private ownsNoRef(t: number): boolean {
     const { members, memStart } = this.rel;
-    for (let i = memStart[t], e = memStart[t + 1]; i < e; i++) if (this.isRef[members[i]] === 1) return false;
+    for (let i = memStart[t], e = memStart[t + 1]; i < e; i++) if (this.isRef[members[i]] !== 0) return false;
     return true;
   }
 
@@ -237,7 +257,7 @@ export class ScopeSolver {
     let ok = true;
     for (let i = memStart[t], e = memStart[t + 1]; i < e; i++) {
       const r = members[i];
-      if (this.isRef[r] === 1 && ++this.cover[r] > 1) ok = false;
+      if (this.isRef[r] !== 0 && ++this.cover[r] > 1) ok = false;
     }
     return ok;
   }
@@ -247,7 +267,7 @@ export class ScopeSolver {
     const { members, memStart } = this.rel;
     for (let i = memStart[t], e = memStart[t + 1]; i < e; i++) {
       const r = members[i];
-      if (this.isRef[r] === 1) this.cover[r]--;
+      if (this.isRef[r] !== 0) this.cover[r]--;
     }
   }
 
@@ -257,7 +277,7 @@ export class ScopeSolver {
     const { members, memStart } = this.rel;
     for (let i = memStart[t], e = memStart[t + 1]; i < e; i++) {
       const r = members[i];
-      if (this.isRef[r] === 1 && this.cover[r] !== 0) return false;
+      if (this.isRef[r] !== 0 && this.cover[r] !== 0) return false;
     }
     return true;
   }
@@ -274,7 +294,7 @@ export class ScopeSolver {
     let pickCount = MANY;
     for (let i = 0; i < this.nRefs; i++) {
       const r = this.refs[i];
-      if (this.cover[r] !== 0) continue;
+      if (this.cover[r] !== 0 || this.isRef[r] !== 1) continue;
       let n = 0;
       for (let k = ownStart[r], e = ownStart[r + 1]; k < e && n < pickCount; k++) if (this.candidate(owners[k])) n++;
       if (n < pickCount) {
