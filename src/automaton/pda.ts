@@ -25,6 +25,7 @@
 import type { Grammar, NameBindings } from '../description/ir.ts';
 import { AutomatonError, buildRtn, closures, EDGE_EPS, EDGE_TERM, type Option, type Rtn } from './cfg.ts';
 import { runDfa, type ByteDfa } from './regex.ts';
+import { ALLOWED, LIVE, ROLE_NONE, ScopeBinding, ScopePlan, type Res } from './scopes.ts';
 
 export const INF = 0x3fffffff;
 
@@ -54,7 +55,11 @@ export class Frame {
     readonly rest: number,
     /** the first terminal of that completion starts with a word byte (its separating space is counted) */
     readonly restFirstWord = false,
-  ) {}
+  ) {
+    this.depth = next === null ? 1 : next.depth + 1;
+  }
+  /** frames in this stack (1 for a frame with nothing below): name scopes close by depth */
+  readonly depth: number;
 }
 
 export class Thread {
@@ -65,6 +70,8 @@ export class Thread {
     readonly text: string,
     readonly frames: Frame | null,
     readonly env: Env | null,
+    /** the name scopes (scopes.ts); null when the grammar has none */
+    readonly res: Res | null = null,
   ) {}
 }
 
@@ -115,6 +122,10 @@ export class Automaton {
   readonly canPop: Uint8Array;
   /** the start sort's entry node (BETWEEN thread of the start state) */
   readonly startNode: number;
+  /** name scopes: roles of terminal edges, scope nonterminals, introduction windows */
+  readonly scopes: ScopePlan;
+  /** per option: the push positions i (1-based: the i-th nonterminal entered) that open a scope, or null */
+  readonly optOpens: readonly (Int32Array | null)[];
 
   /** `dfas`: precompiled class DFAs (by class index), e.g. from the mask cache. */
   constructor(readonly grammar: Grammar, dfas?: readonly ByteDfa[]) {
@@ -133,6 +144,17 @@ export class Automaton {
     this.optTarget = Int32Array.from(all.map((o) => o.target));
     this.optPush = all.map((o) => o.push);
     this.startNode = this.rtn.nts[this.rtn.startNt].start;
+    this.scopes = new ScopePlan(grammar, this.rtn);
+    const nodeNt = this.rtn.nodeNt;
+    this.optOpens = this.optPush.map((push, o) => {
+      if (!this.scopes.active) return null;
+      const out: number[] = [];
+      for (let i = 1; i <= push.length; i++) {
+        const nt = nodeNt[i < push.length ? push[i] : this.optTarget[o]];
+        if (this.scopes.scopeNt[nt]) out.push(i);
+      }
+      return out.length === 0 ? null : Int32Array.from(out);
+    });
   }
 
   /**
@@ -225,6 +247,10 @@ export class AutomatonInstance {
   readonly newVarLen: number;
   readonly termCost: Int32Array;
   readonly start: PdaState;
+  /** name scopes under this binding; null when the grammar has none */
+  readonly scopes: ScopeBinding | null;
+  /** scratch for window computations (two numbers) */
+  private readonly win = new Int32Array(2);
 
   constructor(readonly automaton: Automaton, names: NameBindings) {
     const g = automaton.grammar;
@@ -377,7 +403,39 @@ export class AutomatonInstance {
     if (dist0[automaton.startNode] >= INF) {
       throw new BindError(`names: no program of grammar ${g.name} can be written with the bound names (${g.nameSets.map((s) => `${s.name}: ${names[s.name]?.length ?? 0}`).join(', ')}); expected non-empty name sets where the start sort needs them`);
     }
-    this.start = { threads: [new Thread(automaton.startNode, -1, 0, '', null, null)], prevWord: false, prev: null };
+    this.scopes = automaton.scopes.active ? new ScopeBinding(automaton.scopes, names, sets) : null;
+    this.start = { threads: [new Thread(automaton.startNode, -1, 0, '', null, null, this.scopes === null ? null : this.scopes.root)], prevWord: false, prev: null };
+  }
+
+  /** The scope state for a return level on `frames` of a thread whose state is `res` (null: a scope cannot close). */
+  levelRes(res: Res, node: number, frames: Frame | null): Res | null {
+    const sc = this.scopes!;
+    const r = sc.atDepth(res, frames === null ? 0 : frames.depth);
+    if (r === null || r === res) return r;
+    // references moved out of closed scopes: the enclosing ones must still resolve from here
+    return sc.feasibleAt(r, node, frames, this.win) ? r : null;
+  }
+
+  /**
+   * The scope state once option `o` starts from a level on `frames` in state `res` (scopes it
+   * enters are opened), or null when a scope could then no longer resolve.
+   */
+  optionRes(o: number, res: Res, frames: Frame | null): Res | null {
+    const sc = this.scopes!;
+    const a = this.automaton;
+    const opens = a.optOpens[o];
+    let r = res;
+    if (opens !== null) {
+      const base = frames === null ? 0 : frames.depth;
+      for (let i = 0; i < opens.length; i++) r = sc.open(r, base + opens[i]);
+    }
+    return sc.feasibleAfter(r, a.optTarget[o], a.optPush[o], frames, this.win) ? r : null;
+  }
+
+  /** The filter of a role terminal ending at `node` (scopes.ts), or null when the edge has no role. */
+  roleFilter(node: number, res: Res | null, frames: Frame | null): Uint8Array | null {
+    if (res === null || this.automaton.scopes.role[node] === ROLE_NONE) return null;
+    return this.scopes!.filter(res, node, frames, this.win);
   }
 
   /** Level visitor of `stepThread`: starts every viable option of a level with byte `b` into `out`. */
@@ -385,6 +443,11 @@ export class AutomatonInstance {
     visitLevel: (out, b, node, frames, env) => {
       const a = this.automaton;
       const ok = this.optOk[env === null ? 0 : 1];
+      let res: Res | null = null;
+      if (this.scopes !== null) {
+        res = this.levelRes(this.stepRes!, node, frames);
+        if (res === null) return;
+      }
       for (let o = a.optStart[node]; o < a.optStart[node + 1]; o++) {
         if (!ok[o]) continue;
         const term = a.optTerm[o];
@@ -392,10 +455,21 @@ export class AutomatonInstance {
         if (s === 0) continue;
         const t = a.rtn.terminals[term];
         const text = t.kind === 'newvar' || t.kind === 'boundvar' ? String.fromCharCode(b) : '';
-        out.push(new Thread(a.optTarget[o], term, s, text, this.pushFrames(o, frames, env), env));
+        let r = res;
+        if (r !== null) {
+          r = this.optionRes(o, r, frames);
+          if (r === null) continue;
+        }
+        const pushed = this.pushFrames(o, frames, env);
+        const target = a.optTarget[o];
+        const filter = this.roleFilter(target, r, pushed);
+        if (filter !== null && (filter[s] & LIVE) === 0) continue;
+        out.push(new Thread(target, term, s, text, pushed, env, r));
       }
     },
   };
+  /** the scope state of the thread `optionStarter` is stepping */
+  private stepRes: Res | null = null;
 
   private readonly dispatchCache: (Dispatch | undefined)[] = [];
   private readonly classCache: (Int32Array | undefined)[] = [];
@@ -548,6 +622,7 @@ export class AutomatonInstance {
         return;
       }
       if (prevWord && WORD[b]) return;
+      this.stepRes = th.res;
       a.forEachLevel(this.optionStarter, out, b, th.node, th.frames, th.env, null);
       return;
     }
@@ -568,13 +643,25 @@ export class AutomatonInstance {
         next = this.termDfa[th.term].trans[th.lex * 256 + b];
     }
     if (next === 0) return null;
+    if (th.res !== null) {
+      const filter = this.roleFilter(th.node, th.res, th.frames);
+      if (filter !== null && (filter[next] & LIVE) === 0) return null;
+    }
     const text = t.kind === 'newvar' || t.kind === 'boundvar' ? th.text + String.fromCharCode(b) : '';
-    return new Thread(th.node, th.term, next, text, th.frames, th.env);
+    return new Thread(th.node, th.term, next, text, th.frames, th.env, th.res);
   }
 
   /** The BETWEEN thread after the lexeme of LEX thread `th` ends here. */
   endLexeme(th: Thread): Thread {
-    return new Thread(th.node, -1, 0, '', th.frames, this.envAfterLexeme(th));
+    return new Thread(th.node, -1, 0, '', th.frames, this.envAfterLexeme(th), this.resAfterLexeme(th));
+  }
+
+  /** The scope state once the lexeme of LEX thread `th` ends here (a role name updates it). */
+  resAfterLexeme(th: Thread): Res | null {
+    const res = th.res;
+    if (res === null || this.automaton.scopes.role[th.node] === ROLE_NONE) return res;
+    const set = this.automaton.scopes.roleSet[th.node];
+    return this.scopes!.afterLexeme(res, th.node, this.scopes!.member(set, th.lex));
   }
 
   /** The variables in scope once the lexeme of LEX thread `th` ends here (a `new` field adds one). */
@@ -586,7 +673,10 @@ export class AutomatonInstance {
   lexAccepting(th: Thread): boolean {
     const t = this.automaton.rtn.terminals[th.term];
     if (t.kind === 'boundvar') return boundHas(th.env, th.text);
-    return this.termDfa[th.term].accept[th.lex] === 1;
+    if (this.termDfa[th.term].accept[th.lex] !== 1) return false;
+    if (th.res === null) return true;
+    const filter = this.roleFilter(th.node, th.res, th.frames);
+    return filter === null || (filter[th.lex] & ALLOWED) !== 0;
   }
 
   /**
@@ -599,8 +689,8 @@ export class AutomatonInstance {
 
   /** True when thread `th` can finish the program here (a lexeme in progress must be able to end). */
   threadComplete(th: Thread): boolean {
-    if (th.term < 0) return this.canFinish(th.node, th.frames);
-    return this.lexAccepting(th) && this.canFinish(th.node, th.frames);
+    if (th.term < 0) return this.canFinish(th.node, th.frames) && (th.res === null || this.scopes!.closesAll(th.res));
+    return this.lexAccepting(th) && this.canFinish(th.node, th.frames) && (th.res === null || this.scopes!.closesAll(this.resAfterLexeme(th)!));
   }
 
   /** The state after `bytes`; a dead state (no threads) when they are not a viable continuation. */
@@ -643,7 +733,7 @@ function dedupe(threads: Thread[]): Thread[] {
   const out: Thread[] = [];
   outer: for (const t of threads) {
     for (const u of out) {
-      if (u === t || (u.node === t.node && u.term === t.term && u.lex === t.lex && u.text === t.text && u.frames === t.frames && u.env === t.env)) continue outer;
+      if (u === t || (u.node === t.node && u.term === t.term && u.lex === t.lex && u.text === t.text && u.frames === t.frames && u.env === t.env && u.res === t.res)) continue outer;
     }
     out.push(t);
   }
