@@ -15,4 +15,5 @@ export {
   type Dispatch, type LevelVisitor, type LevelsEnd, type PdaState,
 } from './pda.ts';
 export type { Rtn, Terminal, TerminalKind } from './cfg.ts';
+export { ALLOWED, LIVE, type Res } from './scopes.ts';
 export type { ByteDfa } from './regex.ts';

@@ -295,6 +295,28 @@ export class AutomatonInstance {
       else s = dfa.shortest ? Buffer.from(dfa.shortest).toString('latin1') : null;
       termCost[t.index] = s === null ? INF : t.kind === 'boundvar' ? 1 : s.length + (s.length > 0 && WORD[s.charCodeAt(0)] ? 1 : 0);
     }
+    // names read by scope roles count their longest member: which member resolves is known only
+    // at run time, so the shortest one would not be an achievable bound (docs/design/scope-masks.md)
+    if (automaton.scopes.active) {
+      const plan = automaton.scopes;
+      for (let node = 0; node < plan.role.length; node++) {
+        if (plan.role[node] === 0) continue;
+        const set = plan.roleSet[node];
+        const term = rtn.terminals.find((t) => t.kind === 'names' && t.nameSet === set);
+        const members = names[g.nameSets[set].name];
+        if (term === undefined || members === undefined || members.length === 0) continue;
+        let longest = 0;
+        let word = false;
+        for (const m of members) {
+          const b = utf8.encode(m);
+          if (b.length > longest) {
+            longest = b.length;
+            word = WORD[b[0]] === 1;
+          }
+        }
+        termCost[term.index] = longest + (word ? 1 : 0);
+      }
+    }
     this.termCost = termCost;
     const n = rtn.nodeNt.length;
     const dist0 = new Int32Array(n).fill(INF);
@@ -403,7 +425,7 @@ export class AutomatonInstance {
     if (dist0[automaton.startNode] >= INF) {
       throw new BindError(`names: no program of grammar ${g.name} can be written with the bound names (${g.nameSets.map((s) => `${s.name}: ${names[s.name]?.length ?? 0}`).join(', ')}); expected non-empty name sets where the start sort needs them`);
     }
-    this.scopes = automaton.scopes.active ? new ScopeBinding(automaton.scopes, names, sets) : null;
+    this.scopes = automaton.scopes.active ? new ScopeBinding(automaton.scopes, names, sets, dist0, termCost) : null;
     this.start = { threads: [new Thread(automaton.startNode, -1, 0, '', null, null, this.scopes === null ? null : this.scopes.root)], prevWord: false, prev: null };
   }
 
@@ -432,10 +454,38 @@ export class AutomatonInstance {
     return sc.feasibleAfter(r, a.optTarget[o], a.optPush[o], frames, this.win) ? r : null;
   }
 
+  /** `roleFar` for the position option `o` reaches from a level on `frames` (builds no frames). */
+  roleFarAfter(o: number, res: Res | null, frames: Frame | null): Int32Array | null {
+    const a = this.automaton;
+    const target = a.optTarget[o];
+    if (res === null || a.scopes.role[target] === ROLE_NONE) return null;
+    return this.scopes!.farAfter(res, target, a.optPush[o], frames);
+  }
+
+  /** Penalty (bytes) of the scopes at the position option `o` reaches from a level on `frames`; 0 without scopes. */
+  penaltyAfter(o: number, res: Res | null, frames: Frame | null): number {
+    if (res === null) return 0;
+    const a = this.automaton;
+    return this.scopes!.penaltyAfter(res, a.optTarget[o], a.optPush[o], frames);
+  }
+
+  /** Penalty (bytes) of the scopes at a BETWEEN position; 0 without scopes. */
+  penaltyAt(res: Res | null, node: number, frames: Frame | null): number {
+    return res === null ? 0 : this.scopes!.penaltyAt(res, node, frames);
+  }
+
+  /** `roleFilter` for the position option `o` reaches from a level on `frames` (builds no frames). */
+  roleFilterAfter(o: number, res: Res | null, frames: Frame | null): Uint8Array | null {
+    const a = this.automaton;
+    const target = a.optTarget[o];
+    if (res === null || a.scopes.role[target] === ROLE_NONE) return null;
+    return this.scopes!.filterAfter(res, target, a.optPush[o], frames);
+  }
+
   /** The filter of a role terminal ending at `node` (scopes.ts), or null when the edge has no role. */
   roleFilter(node: number, res: Res | null, frames: Frame | null): Uint8Array | null {
     if (res === null || this.automaton.scopes.role[node] === ROLE_NONE) return null;
-    return this.scopes!.filter(res, node, frames, this.win);
+    return this.scopes!.filter(res, node, frames);
   }
 
   /** Level visitor of `stepThread`: starts every viable option of a level with byte `b` into `out`. */
@@ -557,6 +607,7 @@ export class AutomatonInstance {
 
   /** Shortest completion (bytes) of any thread; `prevWord`: the last byte read was a word byte. */
   threadDist(th: Thread, prevWord = true): number {
+    if (th.res !== null) return this.scopedThreadDist(th, prevWord);
     if (th.term < 0) return this.betweenDist(th.node, th.env, th.frames, prevWord);
     const t = this.automaton.rtn.terminals[th.term];
     let lexRest: number;
@@ -573,6 +624,35 @@ export class AutomatonInstance {
       }
     }
     return lexRest + this.betweenDist(th.node, env, th.frames);
+  }
+
+  /**
+   * `threadDist` with name scopes: the references still pending add the introductions they need
+   * (ScopeBinding.penaltyAt); a role name in progress counts its farthest allowed completion
+   * (`far` of its filter: remaining bytes plus that member's own penalty).
+   */
+  private scopedThreadDist(th: Thread, prevWord: boolean): number {
+    const sc = this.scopes!;
+    const res = th.res!;
+    if (th.term < 0) return this.betweenDist(th.node, th.env, th.frames, prevWord) + sc.penaltyAt(res, th.node, th.frames);
+    const far = this.roleFar(th.node, res, th.frames);
+    if (far !== null) {
+      const f = far[th.lex];
+      return f >= INF ? INF : f + this.betweenDist(th.node, th.env, th.frames);
+    }
+    const t = this.automaton.rtn.terminals[th.term];
+    if (t.kind === 'boundvar' || t.kind === 'newvar') return this.threadDistPlain(th, prevWord) + sc.penaltyAt(res, th.node, th.frames);
+    return this.termDfa[th.term].minAccept[th.lex] + this.betweenDist(th.node, th.env, th.frames) + sc.penaltyAt(res, th.node, th.frames);
+  }
+
+  private threadDistPlain(th: Thread, prevWord: boolean): number {
+    return this.threadDist(new Thread(th.node, th.term, th.lex, th.text, th.frames, th.env, null), prevWord);
+  }
+
+  /** The `far` table of a role terminal ending at `node` (null when the edge has no role). */
+  roleFar(node: number, res: Res | null, frames: Frame | null): Int32Array | null {
+    if (res === null || this.automaton.scopes.role[node] === ROLE_NONE) return null;
+    return this.scopes!.farOf(res, node, frames);
   }
 
   /** Pushes frames for option `o` on top of `frames` (caller scope `env`). */

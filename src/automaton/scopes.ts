@@ -23,6 +23,8 @@ import { EDGE_CALL, EDGE_EPS, EDGE_TERM, FIELD_STRIDE, type Rtn } from './cfg.ts
 import type { ByteDfa } from './regex.ts';
 import { MANY, Relation, ScopeSolver } from './scope-solver.ts';
 
+const INF = 0x3fffffff; // keep in sync with pda.ts
+
 export const ROLE_NONE = 0;
 export const ROLE_ENTER = 1;
 export const ROLE_KNOWN = 2;
@@ -164,13 +166,16 @@ export class ScopeRec {
     readonly unq: readonly Int32Array[],
   ) {
     this.feas = new Int8Array(intro.length * 16).fill(-1);
+    this.need = new Int32Array(intro.length).fill(-1);
   }
+  /** per slot: fewest further introductions that resolve the scope (memo, -1 unknown) */
+  readonly need: Int32Array;
 }
 
 /** The scope state of a thread. */
 export class Res {
   /** per target node of a role edge: the filter over its names automaton's states (memo) */
-  filters: Map<number, { readonly frames: unknown; readonly bits: Uint8Array }> | null = null;
+  filters: Map<number, Filter> | null = null;
   /** after a role lexeme: key node * 2^20 + member → Res (memo; null: not allowed) */
   after: Map<number, Res | null> | null = null;
 
@@ -179,6 +184,12 @@ export class Res {
     /** the qualifier register: the owner member named by a `by` field just read, or -1 */
     readonly qual: number,
   ) {}
+}
+
+/** A member filter: bits (LIVE, ALLOWED) and farthest completions per names-automaton state. */
+export interface Filter {
+  readonly bits: Uint8Array;
+  readonly far: Int32Array;
 }
 
 /** Filter bits per names-automaton state: some allowed member at or below / this state's member allowed. */
@@ -221,12 +232,22 @@ export class ScopeBinding {
   private readonly mand: Int32Array;
   private readonly opt: Int32Array;
 
+  /** per slot: [dist1, dist2]: shortest completion of a node to its nonterminal's end reading ≥ 1 / ≥ 2 introductions of the slot */
+  private readonly distK: (readonly [Int32Array, Int32Array])[];
+  /** per slot: an upper bound on the cost of one more introduction beyond the second (loops) */
+  private readonly cycle: Int32Array;
+  private readonly dist0: Int32Array;
+
   constructor(
     readonly plan: ScopePlan,
     names: NameBindings,
     /** per name set: its names automaton under this binding (null when unbound) */
     dfas: readonly (ByteDfa | null)[],
+    /** the instance's shortest completions (bytes) with no introduction counted, and terminal costs */
+    dist0: Int32Array,
+    termCost: Int32Array,
   ) {
+    this.dist0 = dist0;
     const g = plan.grammar;
     const members = g.nameSets.map((s) => (names[s.name] ?? []) as readonly string[]);
     this.count = Int32Array.from(members.map((m) => m.length));
@@ -286,6 +307,126 @@ export class ScopeBinding {
     const k = plan.introSets.length;
     const none = Array.from({ length: k }, () => EMPTY);
     this.root = new Res(new ScopeRec(null, 0, none, none, none), -1);
+    this.distK = plan.introSets.map((set) => this.introDistances(set, dist0, termCost));
+    this.cycle = Int32Array.from(plan.introSets.map((_, slot) => {
+      const [d1, d2] = this.distK[slot];
+      const ma = plan.maxIntro[slot];
+      let c = 0;
+      for (let n = 0; n < d1.length; n++) if (ma[n] >= CAP && d1[n] < INF && d2[n] < INF) c = Math.max(c, d2[n] - d1[n]);
+      return c;
+    }));
+  }
+
+  /** dist1 / dist2 of one entered set (see `distK`): the dist0 recurrence with a counter. */
+  private introDistances(set: number, dist0: Int32Array, termCost: Int32Array): [Int32Array, Int32Array] {
+    const rtn = this.plan.rtn;
+    const n = rtn.nodeNt.length;
+    const d = [dist0, new Int32Array(n).fill(INF), new Int32Array(n).fill(INF)];
+    const add = (a: number, b: number) => (a >= INF || b >= INF ? INF : a + b);
+    for (let changed = true; changed; ) {
+      changed = false;
+      for (let m = n - 1; m >= 0; m--) {
+        for (let e = rtn.edgeStart[m]; e < rtn.edgeStart[m + 1]; e++) {
+          const to = rtn.edgeTo[e];
+          const kind = rtn.edgeKind[e];
+          for (let k = 1; k <= 2; k++) {
+            let c: number;
+            if (kind === EDGE_EPS) c = d[k][to];
+            else if (kind === EDGE_TERM) {
+              const enter = this.plan.role[to] === ROLE_ENTER && this.plan.roleSet[to] === set ? 1 : 0;
+              c = add(termCost[rtn.edgeArg[e]], d[k - enter][to]);
+            } else {
+              const callee = rtn.edgeArg[e];
+              const st = rtn.nts[callee].start;
+              if (this.plan.scopeNt[callee]) c = add(dist0[st], d[k][to]);
+              else {
+                c = INF;
+                for (let j = 0; j <= k; j++) c = Math.min(c, add(d[j][st], d[k - j][to]));
+              }
+            }
+            if (c < d[k][m]) {
+              d[k][m] = c;
+              changed = true;
+            }
+          }
+        }
+      }
+    }
+    return [d[1], d[2]];
+  }
+
+  /** Fewest further introductions of slot s that resolve scope `rec` (MANY: none does). */
+  needOf(rec: ScopeRec, s: number): number {
+    const v = rec.need[s];
+    if (v >= 0) return v;
+    const solver = this.solver[s];
+    const rel = this.rel[s];
+    let nm = 0;
+    let no = 0;
+    for (const r of rec.unq[s]) {
+      if (rel !== null && this.outwardResolves(rec.parent, s, r)) this.opt[no++] = r;
+      else this.mand[nm++] = r;
+    }
+    const m = solver.minMore(rec.intro[s], rec.req[s], this.mand.subarray(0, nm), this.opt.subarray(0, no));
+    rec.need[s] = m;
+    return m;
+  }
+
+  /**
+   * Bytes that pending references add to the shortest completion at the position (node, frames):
+   * per scope and slot needing m ≥ 1 further introductions, the shortest path through its levels
+   * that reads m of them (exact for m ≤ 2 — the counted recurrence —, beyond that `cycle` bytes
+   * per introduction) minus the shortest path. An achievable upper bound (docs/design/scope-masks.md).
+   */
+  penaltyAt(res: Res, node: number, frames: FrameLike | null): number {
+    return this.penalty(res, node, EMPTY, frames, false);
+  }
+
+  /** `penaltyAt` for the position option (target, push) reaches from a level on `frames`. */
+  penaltyAfter(res: Res, target: number, push: Int32Array, frames: FrameLike | null): number {
+    return this.penalty(res, target, push, frames, true);
+  }
+
+  private penalty(res: Res, node: number, push: Int32Array, frames: FrameLike | null, after: boolean): number {
+    const k = this.plan.introSets.length;
+    let total = 0;
+    let upper = MANY;
+    const base = frames === null ? 0 : frames.depth;
+    for (let rec: ScopeRec | null = res.scope; rec !== null; rec = rec.parent) {
+      for (let s = 0; s < k; s++) {
+        const m = this.needOf(rec, s);
+        if (m <= 0 || m >= MANY) continue;
+        const [d1, d2] = this.distK[s];
+        const d0 = this.dist0;
+        // min-plus convolution (k = 0, 1, 2) over the levels that belong to rec
+        let a0 = 0;
+        let a1 = INF;
+        let a2 = INF;
+        const level = (n: number) => {
+          const b0 = d0[n];
+          const b1 = d1[n];
+          const b2 = d2[n];
+          const n2 = Math.min(a0 + b2, a1 + b1, a2 + b0);
+          const n1 = Math.min(a0 + b1, a1 + b0);
+          a0 = a0 + b0;
+          a1 = n1;
+          a2 = n2;
+        };
+        const d = rec.depth;
+        if (after) {
+          const top = base + push.length;
+          if (top >= d && top < upper) level(node);
+          for (let j = push.length - 1; j >= 0; j--) if (base + j >= d && base + j < upper) level(push[j]);
+        } else if (base >= d && base < upper) level(node);
+        for (let f = frames; f !== null && f.depth > d; f = f.next) if (f.depth - 1 < upper) level(f.ret);
+        if (a0 >= INF) continue;
+        const am = m === 1 ? a1 : a2;
+        if (am >= INF) continue; // no path reads that many here: feasibility rules the position out
+        total += am - a0 + (m > 2 ? (m - 2) * this.cycle[s] : 0);
+      }
+      upper = rec.depth;
+    }
+    return total;
   }
 
   /** The member id of names-automaton state `st` of set `set` (-1: not a whole member). */
@@ -537,36 +678,127 @@ export class ScopeBinding {
     return -1;
   }
 
+  /** Scratch: the windows (lo, hi) of every scope of a chain, innermost first, slot-major per scope. */
+  private readonly W = new Int32Array(64);
+  private nW = 0;
+
+  /** Fills W with the windows of res's scopes at the position (node, frames). */
+  private windowsAt(res: Res, node: number, frames: FrameLike | null): void {
+    const k = this.plan.introSets.length;
+    const tmp = this.tmp;
+    let i = 0;
+    let upper = MANY;
+    for (let rec: ScopeRec | null = res.scope; rec !== null && i + 2 * k <= this.W.length; rec = rec.parent) {
+      for (let s = 0; s < k; s++) {
+        this.window(rec, upper, s, node, frames, tmp);
+        this.W[i++] = tmp[0];
+        this.W[i++] = tmp[1];
+      }
+      upper = rec.depth;
+    }
+    this.nW = i;
+  }
+
+  /** Fills W with the windows of res's scopes at the position option (target, push) reaches from `frames`. */
+  private windowsAfter(res: Res, target: number, push: Int32Array, frames: FrameLike | null): void {
+    const k = this.plan.introSets.length;
+    const tmp = this.tmp;
+    let i = 0;
+    let upper = MANY;
+    for (let rec: ScopeRec | null = res.scope; rec !== null && i + 2 * k <= this.W.length; rec = rec.parent) {
+      for (let s = 0; s < k; s++) {
+        this.windowAfter(rec, upper, s, target, push, frames, tmp);
+        this.W[i++] = tmp[0];
+        this.W[i++] = tmp[1];
+      }
+      upper = rec.depth;
+    }
+    this.nW = i;
+  }
+  private readonly tmp = new Int32Array(2);
+
   /**
-   * The filter of the role edge into `node` for a thread whose scope state is `res` at the
-   * position (node, frames) after the lexeme: per state of the set's names automaton, LIVE when
-   * an allowed member is at or below it, ALLOWED when its own member is allowed. Memoised per
-   * (res, node) for the first frames seen (the usual single parse); other frames recompute.
+   * The filter of the role edge into `node` for a thread in scope state `res` standing at
+   * (node, frames) once the lexeme ends: per state of the set's names automaton, LIVE when an
+   * allowed member is at or below it, ALLOWED when its own member is allowed (the program can
+   * still resolve after it). Memoised per (res, node, windows of res's scopes there).
    */
-  filter(res: Res, node: number, frames: FrameLike | null, scratch: Int32Array): Uint8Array {
-    if (res.filters === null) res.filters = new Map();
-    const hit = res.filters.get(node);
-    if (hit !== undefined && hit.frames === frames) return hit.bits;
+  filter(res: Res, node: number, frames: FrameLike | null): Uint8Array {
+    this.windowsAt(res, node, frames);
+    return this.filterW(res, node, EMPTY, frames, false).bits;
+  }
+
+  /** `filter` for the position option (target, push) reaches from a level on `frames` (no frames built). */
+  filterAfter(res: Res, target: number, push: Int32Array, frames: FrameLike | null): Uint8Array {
+    this.windowsAfter(res, target, push, frames);
+    return this.filterW(res, target, push, frames, true).bits;
+  }
+
+  /**
+   * Per state of the names automaton: the farthest completion of the lexeme among the allowed
+   * members at or below it, in bytes, plus that member's penalty (INF where none is allowed).
+   * An upper bound that drops by at least one per byte along any allowed member (the budget's
+   * induction, masks/constraint.ts).
+   */
+  farOf(res: Res, node: number, frames: FrameLike | null): Int32Array {
+    this.windowsAt(res, node, frames);
+    return this.filterW(res, node, EMPTY, frames, false).far;
+  }
+
+  /** `farOf` for the position option (target, push) reaches from a level on `frames`. */
+  farAfter(res: Res, target: number, push: Int32Array, frames: FrameLike | null): Int32Array {
+    this.windowsAfter(res, target, push, frames);
+    return this.filterW(res, target, push, frames, true).far;
+  }
+
+  private filterW(res: Res, node: number, push: Int32Array, frames: FrameLike | null, after: boolean): Filter {
+    // the windows, capped, as a key (at most 6 scope × slot pairs; beyond that no memo)
+    let sig = 0;
+    const W = this.W;
+    if (this.nW <= 12) for (let i = 0; i < this.nW; i += 2) sig = sig * 16 + Math.min(W[i], 3) * 4 + (W[i + 1] >= CAP ? 3 : W[i + 1]);
+    else sig = -1;
+    const key = node * 16777216 + sig;
+    if (sig >= 0) {
+      if (res.filters === null) res.filters = new Map();
+      const hit = res.filters.get(key);
+      if (hit !== undefined) return hit;
+    }
     const set = this.plan.roleSet[node];
     const dfa = this.dfaOf[set]!;
     const at = this.memberAt[set]!;
     const parent = this.parentOf[set]!;
     const bits = new Uint8Array(dfa.stateCount);
+    const far = new Int32Array(dfa.stateCount).fill(-1);
     for (let st = 1; st < dfa.stateCount; st++) {
       const m = at[st];
       if (m < 0) continue;
-      if (this.allowed(res, node, m, frames, scratch)) bits[st] = ALLOWED | LIVE;
+      const next = this.allowedW(res, node, m);
+      if (next === null) continue;
+      bits[st] = ALLOWED | LIVE;
+      far[st] = this.penalty(next, node, push, frames, after);
     }
-    for (let st = dfa.stateCount - 1; st > 1; st--) if (bits[st] & LIVE) bits[parent[st]] |= LIVE;
-    if (hit === undefined) res.filters.set(node, { frames, bits });
-    return bits;
+    for (let st = dfa.stateCount - 1; st > 1; st--) {
+      if ((bits[st] & LIVE) === 0) continue;
+      const p = parent[st];
+      bits[p] |= LIVE;
+      if (far[st] + 1 > far[p]) far[p] = far[st] + 1;
+    }
+    for (let st = 0; st < far.length; st++) if (far[st] < 0) far[st] = INF;
+    const out: Filter = { bits, far };
+    if (sig >= 0) res.filters!.set(key, out);
+    return out;
   }
 
-  /** Member m may be written by the role edge into `node` (the program can still resolve after it). */
-  private allowed(res: Res, node: number, m: number, frames: FrameLike | null, scratch: Int32Array): boolean {
+  /** The Res after member m at the role edge into `node` when every scope stays feasible in the windows W, else null. */
+  private allowedW(res: Res, node: number, m: number): Res | null {
     const next = this.afterLexeme(res, node, m);
-    if (next === null) return false;
-    if (next === res || next.scope === res.scope) return true;
-    return this.feasibleAt(next, node, frames, scratch);
+    if (next === null) return null;
+    if (next.scope === res.scope) return next;
+    const k = this.plan.introSets.length;
+    let i = 0;
+    for (let rec: ScopeRec | null = next.scope; rec !== null && i < this.nW; rec = rec.parent) {
+      for (let s = 0; s < k; s++, i += 2) if (!this.feasible(rec, s, this.W[i], this.W[i + 1])) return null;
+    }
+    return next;
   }
 }

@@ -10,7 +10,7 @@
  *   nodes where SENTINEL was popped, and never uses kept masks itself — so kept-mask computations
  *   never nest, and starting one in the middle of a live walk leaves the live context untouched.
  */
-import { INF, type Thread } from '../automaton/internal.ts';
+import { INF, type Res, type Thread } from '../automaton/internal.ts';
 import type { VocabTables } from './vocab-tables.ts';
 
 const NO_MASK: Uint32Array<ArrayBufferLike> = new Uint32Array(0);
@@ -24,6 +24,11 @@ export class WalkContext {
   rootPrevWord = false;
   /** largest completion distance among the tokens marked since `begin…` (kept masks keep it) */
   maxSeen = 0;
+  /**
+   * the name-scope state of the position being walked (automaton/scopes.ts; null without scopes):
+   * set per thread, replaced while a walk continues inside an option that changes it, restored after
+   */
+  res: Res | null = null;
   /** keep context, sub-local walks: marked token ids are appended here instead of set in `mask` */
   collect: number[] | null = null;
   /** keep context: the trie nodes where the stand-in frame was popped */
@@ -66,6 +71,7 @@ export class WalkContext {
   end(): void {
     this.mask = NO_MASK;
     this.collect = null;
+    this.res = null;
   }
 
   /** Records that the walk popped the stand-in frame at trie node x (kept-mask computations only). */

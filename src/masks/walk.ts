@@ -23,7 +23,7 @@
  * Distances: a token is marked when the shortest completion after it (bytes, automaton/pda.ts)
  * is ≤ `ctx.lim`; see constraint.ts for why that keeps every output within the budget.
  */
-import { Frame, LEVELS_STOP, Thread, WORD, type Automaton, type AutomatonInstance, type Dispatch, type Env, type LevelVisitor, type Rtn } from '../automaton/internal.ts';
+import { ALLOWED, Frame, LEVELS_STOP, LIVE, Thread, WORD, type Automaton, type AutomatonInstance, type Dispatch, type Env, type LevelVisitor, type Res, type Rtn } from '../automaton/internal.ts';
 import type { Vocabulary } from '../vocab/index.ts';
 import type { WalkContext } from './context.ts';
 import { MAX_LE, wMinAccept, wStep, type ClassTables } from './class-tables.ts';
@@ -71,6 +71,7 @@ export class TrieWalker implements LevelVisitor<WalkContext> {
   /** Marks the tokens one thread can read next. */
   maskThread(ctx: WalkContext, th: Thread): void {
     const pda = this.pda;
+    ctx.res = th.res;
     if (th.term < 0) {
       this.maskBetween(ctx, th.node, th.frames, th.env);
       return;
@@ -81,7 +82,7 @@ export class TrieWalker implements LevelVisitor<WalkContext> {
       const tables = this.classes[t.tokenClass]!;
       const d = th.lex;
       if (this.kept !== null && ctx.live && th.env === null && this.kept.lexeme(ctx, tables, th.node, d, th.frames)) return;
-      const rest = pda.betweenDist(th.node, th.env, th.frames);
+      const rest = pda.betweenDist(th.node, th.env, th.frames) + pda.penaltyAt(th.res, th.node, th.frames);
       this.orInside(ctx, tables, d, ctx.lim - rest, false);
       const ex = tables.exits[d];
       for (let i = 0; i < ex.length; i++) this.walkBetween(ctx, ex[i], th.node, th.frames, th.env);
@@ -90,9 +91,16 @@ export class TrieWalker implements LevelVisitor<WalkContext> {
     }
     // literals, names, variables: the end of the lexeme here is a BETWEEN mask at the root;
     // continuing the lexeme is a (short) walk.
-    if (pda.lexAccepting(th)) this.maskBetween(ctx, th.node, th.frames, pda.envAfterLexeme(th));
+    if (pda.lexAccepting(th)) {
+      ctx.res = pda.resAfterLexeme(th);
+      this.maskBetween(ctx, th.node, th.frames, pda.envAfterLexeme(th));
+      ctx.res = th.res;
+    }
     if (t.kind === 'lit' || t.kind === 'names') {
-      this.walkLex(ctx, 0, th.term, th.node, -1, th.frames, th.env, th.lex, pda.betweenDist(th.node, th.env, th.frames));
+      const filter = t.kind === 'names' ? pda.roleFilter(th.node, th.res, th.frames) : null;
+      const far = filter === null ? null : pda.roleFar(th.node, th.res, th.frames);
+      const rest = pda.betweenDist(th.node, th.env, th.frames) + (far === null ? pda.penaltyAt(th.res, th.node, th.frames) : 0);
+      this.walkLex(ctx, 0, th.term, th.node, -1, th.frames, th.env, th.lex, rest, filter, far);
       return;
     }
     const { byte, end } = this;
@@ -107,7 +115,7 @@ export class TrieWalker implements LevelVisitor<WalkContext> {
   /** Marks the tokens a BETWEEN position (node, frames, env) can read from the trie root. */
   maskBetween(ctx: WalkContext, node: number, frames: Frame | null, env: Env | null): void {
     if (this.kept !== null && ctx.live && this.kept.between(ctx, node, frames)) return;
-    const dist = this.pda.betweenDist(node, env, frames, false); // after a space
+    const dist = this.pda.betweenDist(node, env, frames, false) + this.pda.penaltyAt(ctx.res, node, frames); // after a space
     if (dist <= ctx.lim) {
       if (dist > ctx.maxSeen) ctx.maxSeen = dist;
       ctx.markIds(this.vt.wsTokenIds);
@@ -121,7 +129,7 @@ export class TrieWalker implements LevelVisitor<WalkContext> {
     if (this.kept !== null && ctx.live && env === null && this.kept.below(ctx, x, node, frames)) return;
     const { byte, end, vt } = this;
     const space = this.rtn.space;
-    const dist = this.pda.betweenDist(node, env, frames, false); // after a space
+    const dist = this.pda.betweenDist(node, env, frames, false) + this.pda.penaltyAt(ctx.res, node, frames); // after a space
     let starts = true;
     if (vt.wide[x] >= 0) {
       const sp = vt.spaceBytes;
@@ -154,6 +162,29 @@ export class TrieWalker implements LevelVisitor<WalkContext> {
    */
   visitLevel(ctx: WalkContext, x: number, node: number, frames: Frame | null, env: Env | null): void {
     const pda = this.pda;
+    const base = ctx.res;
+    if (base !== null) {
+      // the scope state at this return level (scopes deeper than it close); walks of its options
+      // run with their own states, and ctx.res is the base again for the next level
+      const lr = pda.levelRes(base, node, frames);
+      if (lr === null) return;
+      ctx.res = lr;
+      this.visitOptions(ctx, x, node, frames, env);
+      ctx.res = base;
+      return;
+    }
+    this.visitOptions(ctx, x, node, frames, env);
+  }
+
+  /** The scope state for option o from the level (ctx.res at that level); null when it cannot resolve. */
+  private optionRes(ctx: WalkContext, o: number, frames: Frame | null): Res | null | undefined {
+    const lr = ctx.res;
+    if (lr === null) return undefined;
+    return this.pda.optionRes(o, lr, frames);
+  }
+
+  private visitOptions(ctx: WalkContext, x: number, node: number, frames: Frame | null, env: Env | null): void {
+    const pda = this.pda;
     const vt = this.vt;
     const mode = env === null ? 0 : 1;
     if (x === 0) {
@@ -161,11 +192,15 @@ export class TrieWalker implements LevelVisitor<WalkContext> {
       const space = this.rtn.space;
       const pw = ctx.rootPrevWord;
       const cls = pda.classOptions(node, mode);
+      const lr = ctx.res;
       for (let i = 0; i < cls.length; i++) {
         const o = cls[i];
+        const r = this.optionRes(ctx, o, frames);
+        if (r === null) continue;
+        if (r !== undefined) ctx.res = r;
         const tables = this.classes[this.rtn.terminals[a.optTerm[o]].tokenClass]!;
         const target = a.optTarget[o];
-        const rest = pda.nodeDist(target, env) + pda.pushedRest(o, frames, env);
+        const rest = pda.nodeDist(target, env) + pda.pushedRest(o, frames, env) + pda.penaltyAfter(o, ctx.res, frames);
         this.orInside(ctx, tables, tables.w0, ctx.lim - rest, pw);
         // the lexeme ends inside a token at an exit: the walk continues with the pushed frames,
         // built only then
@@ -177,6 +212,7 @@ export class TrieWalker implements LevelVisitor<WalkContext> {
           if (pushed === undefined) pushed = pda.pushFrames(o, frames, env);
           this.walkBetween(ctx, ex[j], target, pushed, env);
         }
+        ctx.res = lr;
       }
       const d = pda.dispatch(node, mode, true);
       const bytes = d.bytes;
@@ -220,6 +256,7 @@ export class TrieWalker implements LevelVisitor<WalkContext> {
     const pda = this.pda;
     const a = this.a;
     const end = this.end;
+    const lr = ctx.res;
     for (let k = d.off[i]; k < d.off[i + 1]; k++) {
       const o = d.opts[k];
       const term = a.optTerm[o];
@@ -227,15 +264,32 @@ export class TrieWalker implements LevelVisitor<WalkContext> {
       if (s === 0) continue;
       const kind = this.rtn.terminals[term].kind;
       const target = a.optTarget[o];
+      let filter: Uint8Array | null = null;
+      let far: Int32Array | null = null;
+      let pen = 0;
+      if (lr !== null) {
+        const r = pda.optionRes(o, lr, frames);
+        if (r === null) continue;
+        if (kind === 'names') {
+          filter = pda.roleFilterAfter(o, r, frames);
+          if (filter !== null) {
+            if ((filter[s] & LIVE) === 0) continue;
+            far = pda.roleFarAfter(o, r, frames);
+          }
+        }
+        if (far === null) pen = pda.penaltyAfter(o, r, frames);
+        ctx.res = r;
+      }
       if (kind === 'lit' || kind === 'class' || kind === 'names') {
-        const rest = pda.nodeDist(target, env) + pda.pushedRest(o, frames, env);
-        ctx.markNode(c, pda.termDfa[term].minAccept[s] + rest);
-        if (end[c] > c + 1) this.walkLex(ctx, c, term, target, o, frames, env, s, rest);
+        const rest = pda.nodeDist(target, env) + pda.pushedRest(o, frames, env) + pen;
+        ctx.markNode(c, (far === null ? pda.termDfa[term].minAccept[s] : far[s]) + rest);
+        if (end[c] > c + 1) this.walkLex(ctx, c, term, target, o, frames, env, s, rest, filter, far);
       } else {
-        const nt = new Thread(target, term, s, String.fromCharCode(b), pda.pushFrames(o, frames, env), env);
+        const nt = new Thread(target, term, s, String.fromCharCode(b), pda.pushFrames(o, frames, env), env, ctx.res);
         ctx.markNode(c, pda.threadDist(nt, WORD[b] === 1));
         if (end[c] > c + 1) this.walkGeneric(ctx, c, nt);
       }
+      ctx.res = lr;
     }
   }
 
@@ -245,28 +299,38 @@ export class TrieWalker implements LevelVisitor<WalkContext> {
    * `frames` with the frames of option `o` pushed (o < 0: `frames` as is), built only when the
    * lexeme ends inside a token and the walk goes on below (distances come from `rest`).
    */
-  private walkLex(ctx: WalkContext, x: number, term: number, node: number, o: number, frames: Frame | null, env: Env | null, s: number, rest: number): void {
+  private walkLex(ctx: WalkContext, x: number, term: number, node: number, o: number, frames: Frame | null, env: Env | null, s: number, rest: number, filter: Uint8Array | null, far: Int32Array | null = null): void {
     const dfa = this.pda.termDfa[term];
     const { byte, end } = this;
-    if (x !== 0 && dfa.accept[s] && end[x] > x + 1) this.walkBetween(ctx, x, node, o < 0 ? frames : this.pda.pushFrames(o, frames, env), env);
+    if (x !== 0 && dfa.accept[s] && end[x] > x + 1) {
+      if (filter === null) this.walkBetween(ctx, x, node, o < 0 ? frames : this.pda.pushFrames(o, frames, env), env);
+      else if ((filter[s] & ALLOWED) !== 0) {
+        // a name ends inside the token: the walk below goes on with the scope state after it
+        const r = ctx.res!;
+        const set = this.a.scopes.roleSet[node];
+        ctx.res = this.pda.scopes!.afterLexeme(r, node, this.pda.scopes!.member(set, s));
+        this.walkBetween(ctx, x, node, o < 0 ? frames : this.pda.pushFrames(o, frames, env), env);
+        ctx.res = r;
+      }
+    }
     const base = s * 256;
     if (this.rtn.terminals[term].kind !== 'class' && this.vt.wide[x] >= 0) {
       // literals and names continue with few bytes: look them up
       for (let b = 0; b < 256; b++) {
         const s2 = dfa.trans[base + b];
-        if (s2 === 0) continue;
+        if (s2 === 0 || (filter !== null && (filter[s2] & LIVE) === 0)) continue;
         const c = this.vt.childOf(x, b);
         if (c < 0) continue;
-        ctx.markNode(c, dfa.minAccept[s2] + rest);
-        if (end[c] > c + 1) this.walkLex(ctx, c, term, node, o, frames, env, s2, rest);
+        ctx.markNode(c, (far === null ? dfa.minAccept[s2] : far[s2]) + rest);
+        if (end[c] > c + 1) this.walkLex(ctx, c, term, node, o, frames, env, s2, rest, filter, far);
       }
       return;
     }
     for (let c = x + 1, stop = end[x]; c < stop; c = end[c]) {
       const s2 = dfa.trans[base + byte[c]];
-      if (s2 === 0) continue;
-      ctx.markNode(c, dfa.minAccept[s2] + rest);
-      if (end[c] > c + 1) this.walkLex(ctx, c, term, node, o, frames, env, s2, rest);
+      if (s2 === 0 || (filter !== null && (filter[s2] & LIVE) === 0)) continue;
+      ctx.markNode(c, (far === null ? dfa.minAccept[s2] : far[s2]) + rest);
+      if (end[c] > c + 1) this.walkLex(ctx, c, term, node, o, frames, env, s2, rest, filter, far);
     }
   }
 
