@@ -18,7 +18,7 @@
  * answers that depend only on a Res (feasibility per window, member filters, the Res after a
  * lexeme or after closing a scope) are memoised on it, so masks recompute nothing per token.
  */
-import type { Constructor, Grammar, NameBindings, NameSet } from '../description/ir.ts';
+import { NAME_FACTS, type Grammar, type NameBindings } from '../description/ir.ts';
 import { EDGE_CALL, EDGE_EPS, EDGE_TERM, FIELD_STRIDE, type Rtn } from './cfg.ts';
 import type { ByteDfa } from './regex.ts';
 import { MANY, Relation, ScopeSolver } from './scope-solver.ts';
@@ -32,23 +32,6 @@ export const ROLE_OWNED = 3;
 
 /** Windows count further introductions up to CAP; CAP stands for "any number". */
 const CAP = 3;
-
-// The IR fields of scopes (description/ir.ts: Field.scoping 'enters' | 'known', Field.by,
-// NameSet.owner, Constructor.scope), read through a narrow view.
-interface FieldView {
-  readonly scoping: string;
-  readonly by?: string | null;
-}
-interface SetView {
-  readonly owner?: string | null;
-}
-interface CtorView {
-  readonly scope?: boolean;
-}
-const FACTS = Symbol.for('treewright.nameFacts');
-interface FactsView {
-  readonly owners?: Readonly<Record<string, Readonly<Record<string, readonly string[]>>>>;
-}
 
 /** What a frame needs for scopes: its depth (1 for a frame with nothing below). */
 export interface FrameLike {
@@ -87,24 +70,24 @@ export class ScopePlan {
     for (let node = 0; node < n; node++) {
       const code = rtn.nodeField[node];
       if (code < 0) continue;
-      const c: Constructor = grammar.constructors[Math.floor(code / FIELD_STRIDE)];
+      const c = grammar.constructors[Math.floor(code / FIELD_STRIDE)];
       const f = c.fields[code % FIELD_STRIDE];
       if (f.type.kind !== 'names') continue;
-      const scoping = (f as unknown as FieldView).scoping;
+      const scoping = f.scoping;
       const set = setIndex.get(f.type.name)!;
-      if (c.fields.some((g) => (g as unknown as FieldView).by === f.name)) this.qualifier[node] = 1;
+      if (c.fields.some((g) => g.by === f.name)) this.qualifier[node] = 1;
       if (scoping === 'enters') {
         this.role[node] = ROLE_ENTER;
         if (!intro.includes(set)) intro.push(set);
       } else if (scoping === 'known') {
-        this.role[node] = (grammar.nameSets[set] as NameSet & SetView).owner ? ROLE_OWNED : ROLE_KNOWN;
+        this.role[node] = grammar.nameSets[set].owner !== null ? ROLE_OWNED : ROLE_KNOWN;
       } else continue;
       this.roleSet[node] = set;
       active = true;
     }
     for (let nt = 0; nt < rtn.nts.length; nt++) {
       const ci = rtn.ntCtor[nt];
-      if (ci >= 0 && (grammar.constructors[ci] as Constructor & CtorView).scope === true) this.scopeNt[nt] = 1;
+      if (ci >= 0 && grammar.constructors[ci].scope) this.scopeNt[nt] = 1;
     }
     this.active = active;
     this.introSets = intro;
@@ -276,14 +259,14 @@ export class ScopeBinding {
       this.memberAt.push(at);
       this.parentOf.push(parent);
     });
-    const facts = (names as unknown as Record<symbol, FactsView | undefined>)[FACTS];
+    const facts = names[NAME_FACTS];
     this.rel = [];
     this.ownedSet = new Int32Array(plan.introSets.length).fill(-1);
     this.solver = [];
     let maxRefs = 1;
     plan.introSets.forEach((setIdx, slot) => {
       const owner = g.nameSets[setIdx];
-      const owned = g.nameSets.find((s) => (s as NameSet & SetView).owner === owner.name);
+      const owned = g.nameSets.find((s) => s.owner === owner.name);
       let rel: Relation | null = null;
       if (owned && facts?.owners?.[owned.name]) {
         const ownerId = new Map(members[setIdx].map((m, i) => [m, i]));
@@ -468,9 +451,10 @@ export class ScopeBinding {
   /**
    * Same as `window`, for the position an option reaches: its target (on frame depth base + k),
    * its pushed return nodes (push[j] on frame depth base + j, base = depth of `frames`), then
-   * `frames`' levels.
+   * `frames`' levels. `own`: count the option's own terminal when it enters the innermost scope
+   * (the question before the name is read; filters ask after it).
    */
-  windowAfter(rec: ScopeRec, upper: number, s: number, target: number, push: Int32Array, frames: FrameLike | null, out: Int32Array): void {
+  windowAfter(rec: ScopeRec, upper: number, s: number, target: number, push: Int32Array, frames: FrameLike | null, out: Int32Array, own = false): void {
     const mi = this.plan.minIntro[s];
     const ma = this.plan.maxIntro[s];
     const d = rec.depth;
@@ -494,6 +478,11 @@ export class ScopeBinding {
         lo += mi[f.ret];
         hi += ma[f.ret];
       }
+    }
+    // the option's own terminal: an introduction into the innermost scope not yet read
+    if (own && upper === MANY && this.plan.role[target] === ROLE_ENTER && this.plan.slotOf[this.plan.roleSet[target]] === s) {
+      lo++;
+      hi++;
     }
     out[0] = lo;
     out[1] = hi >= CAP ? MANY : hi;
@@ -554,7 +543,7 @@ export class ScopeBinding {
     let upper = MANY;
     for (let rec: ScopeRec | null = res.scope; rec !== null; rec = rec.parent) {
       for (let s = 0; s < k; s++) {
-        this.windowAfter(rec, upper, s, target, push, frames, scratch);
+        this.windowAfter(rec, upper, s, target, push, frames, scratch, true);
         if (!this.feasible(rec, s, scratch[0], scratch[1])) return false;
       }
       upper = rec.depth;
