@@ -1,7 +1,9 @@
 /**
  * The pushdown automaton on whole programs and prefixes, checked against outside references:
  * the grammars' hand-written sample files, the README's worked example, and the ohm-js parser of
- * src/tree (an independent implementation of the same notation) on randomly damaged programs.
+ * src/tree (an independent implementation of the same notation) on randomly damaged programs —
+ * for sql a parse must also prepare in SQLite (better-sqlite3 `prepare`), as the grammar resolves
+ * names in scopes.
  */
 import { describe, expect, it } from 'vitest';
 import { mkdtempSync, readFileSync, readdirSync, writeFileSync } from 'node:fs';
@@ -11,7 +13,7 @@ import { Automaton, BindError, AutomatonError } from '../../src/automaton/index.
 import { Frame, LEVELS_BLOCKED, LEVELS_END, LEVELS_STOP } from '../../src/automaton/internal.ts';
 import { loadGrammar } from '../../src/description/index.ts';
 import { createParser, createSampler, printTree } from '../../src/tree/index.ts';
-import { GRAMMARS, grammar, namesFor, rng, ROOT } from '../masks/helpers.ts';
+import { GRAMMARS, grammar, namesFor, rng, ROOT, sqliteRefuses } from '../masks/helpers.ts';
 
 const utf8 = new TextEncoder();
 const instantiate = (name: (typeof GRAMMARS)[number]) => new Automaton(grammar(name)).bind(namesFor(name));
@@ -80,11 +82,15 @@ describe('agreement with the ohm-js parser (src/tree/parse.ts) on damaged sample
         } catch {
           ohm = false;
         }
+        // sql resolves names in scopes (enter/known): a parse must also prepare in SQLite
+        if (ohm && name === 'sql') ohm = sqliteRefuses(text) === null;
         const mine = b.isComplete(run(b, text));
         expect(mine, JSON.stringify(text)).toBe(ohm);
         if (mine) accepted++;
       }
-      expect(accepted).toBeGreaterThan(60); // the unedited fifth, and edits that stay valid
+      // the unedited fifth, and edits that stay valid; sql: few sampled programs resolve their
+      // names (the sampler does not follow scopes yet), the agreement above is the check
+      expect(accepted).toBeGreaterThan(name === 'sql' ? 0 : 60);
     }, 120_000);
   }
 });

@@ -17,16 +17,39 @@ export const GRAMMARS = ['arith', 'json', 'sql', 'lf'] as const;
 export type GrammarName = (typeof GRAMMARS)[number];
 
 let sqlNames: NameBindings | null = null;
-/** Table/column names of the demo database (grammars/sql/coop.sql loaded into a temporary SQLite file). */
-function demoSqlNames(): NameBindings {
-  if (sqlNames) return sqlNames;
+let demoFile: string | null = null;
+/** The demo database (grammars/sql/coop.sql) loaded into a temporary SQLite file. */
+function demoDbFile(): string {
+  if (demoFile) return demoFile;
   const dir = mkdtempSync(join(tmpdir(), 'tw-masks-'));
   const file = join(dir, 'coop.db');
   const db = new Database(file);
   db.exec(readFileSync(join(ROOT, 'grammars/sql/coop.sql'), 'utf8'));
   db.close();
-  sqlNames = namesFromDatabase(file);
+  demoFile = file;
+  return file;
+}
+
+/** Table/column names of the demo database, each column with its tables. */
+function demoSqlNames(): NameBindings {
+  if (sqlNames) return sqlNames;
+  sqlNames = namesFromDatabase(demoDbFile());
   return sqlNames;
+}
+
+let demoHandle: Database.Database | null = null;
+/**
+ * SQLite's verdict on a query over the demo database (better-sqlite3 `prepare`: name resolution —
+ * no such table/column, ambiguous column — is decided at prepare time): null, or its message.
+ */
+export function sqliteRefuses(text: string): string | null {
+  demoHandle ??= new Database(demoDbFile(), { readonly: true });
+  try {
+    demoHandle.prepare(text);
+    return null;
+  } catch (e) {
+    return (e as Error).message;
+  }
 }
 
 /** The names each grammar is bound with in these suites (the grammars' own sample name files). */
