@@ -6,6 +6,9 @@
  * text so far is a complete program according to the independent nearley oracle (test/masks/
  * oracle.ts, variable scoping included) — in particular at the end. A byte prefix that ends inside
  * a UTF-8 character is never a complete program (a program is text).
+ * sql resolves names in scopes: only sampled programs that SQLite prepares (better-sqlite3 `prepare`
+ * on the demo database) are replayed, and a prefix is complete when nearley parses it and SQLite
+ * prepares it.
  */
 import { describe, expect, it } from 'vitest';
 import { readFileSync } from 'node:fs';
@@ -14,7 +17,7 @@ import { loadVocabulary } from '../../src/vocab/index.ts';
 import { compileMasks } from '../../src/masks/index.ts';
 import { createSampler, printTree } from '../../src/tree/index.ts';
 import { has } from '../../src/util/bitset.ts';
-import { encoder, GRAMMARS, grammar, namesFor, ROOT, TOKENIZERS, vocabulary, type GrammarName } from './helpers.ts';
+import { encoder, GRAMMARS, grammar, namesFor, ROOT, sqliteRefuses, TOKENIZERS, vocabulary, type GrammarName } from './helpers.ts';
 import { NearleyOracle } from './oracle.ts';
 
 const PROGRAMS = 1000;
@@ -46,6 +49,14 @@ function oracleComplete(name: GrammarName, bytes: Buffer): boolean[] {
     c += ch.length;
     byByte[b] = byChar[c];
   }
+  if (name === 'sql') {
+    // names must resolve: SQLite decides for each prefix nearley calls complete
+    let at = 0;
+    for (const ch of ['', ...text]) {
+      at += Buffer.byteLength(ch);
+      if (byByte[at]) byByte[at] = sqliteRefuses(bytes.subarray(0, at).toString('utf8')) === null;
+    }
+  }
   completeCache.set(key, byByte);
   return byByte;
 }
@@ -62,8 +73,11 @@ describe.each(TOKENIZERS)('%s', (tok) => {
       const mask = new Uint32Array((v.vocabSize + 31) >>> 5);
       const eos = v.eosIds[0];
       let steps = 0;
+      let replayed = 0;
       for (let i = 0; i < PROGRAMS; i++) {
         const text = printTree(g, sampler.next());
+        if (name === 'sql' && sqliteRefuses(text) !== null) continue;
+        replayed++;
         const ids = encode(text);
         // the ids spell exactly the program's bytes (the vocabulary index decodes like the tokenizer),
         // up to the tokenizer's Unicode normaliser (qwen3: NFC, e.g. CJK compatibility ideographs)
@@ -86,7 +100,9 @@ describe.each(TOKENIZERS)('%s', (tok) => {
         expect(has(mask, eos), spelled).toBe(true);
         expect(c.isComplete(s)).toBe(true);
       }
-      expect(steps).toBeGreaterThan(PROGRAMS * 2);
+      // sql: the sampler does not follow scopes yet, a few percent of its programs resolve
+      expect(steps).toBeGreaterThan(replayed * 2);
+      expect(replayed).toBeGreaterThan(name === 'sql' ? 10 : PROGRAMS - 1);
     }, 600_000);
   }
 });
@@ -110,6 +126,7 @@ describe('the demo tokenizer (models/coop/tokenizer.json: SentencePiece Unigram,
       let checked = 0;
       for (let i = 0; i < PROGRAMS; i++) {
         const text = printTree(g, sampler.next());
+        if (name === 'sql' && sqliteRefuses(text) !== null) continue;
         const ids = Array.from(tokenizer.encode(text, { add_special_tokens: false }) as number[]);
         if (ids.some((id) => !v.isNormal(id))) continue;
         const spelled = Buffer.concat(ids.map((id) => v.bytesOf(id))).toString('utf8');
@@ -131,7 +148,8 @@ describe('the demo tokenizer (models/coop/tokenizer.json: SentencePiece Unigram,
         checked++;
       }
       // sampled strings and numbers carry characters the demo vocabulary (trained on the dataset) lacks
-      expect(checked).toBeGreaterThan(name === 'sql' || name === 'lf' ? PROGRAMS / 2 : PROGRAMS / 10);
+      // sql: only the programs SQLite prepares (a few percent until the sampler follows scopes)
+      expect(checked).toBeGreaterThan(name === 'sql' ? 5 : name === 'lf' ? PROGRAMS / 2 : PROGRAMS / 10);
     }, 600_000);
   }
 });
