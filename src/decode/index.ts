@@ -105,7 +105,8 @@ export async function generate(model: Seq2SeqModel, question: string | readonly 
   if (grammar === null) return { ...result, tree: null, parses: false, well_typed: false, parse_error: null };
   let tree: Tree;
   try {
-    tree = createParser(grammar).parse(result.text, { file: '<output>' });
+    // syntax only here: scopes and kinds are part of well_typed (validateTree below)
+    tree = createParser(grammar).parse(result.text, { file: '<output>', resolve: false });
   } catch (e) {
     return { ...result, tree: null, parses: false, well_typed: false, parse_error: (e as Error).message };
   }

@@ -38,6 +38,7 @@ export { createParser, ParseError, GrammarFeatureError, type Parser, type ParseO
 export { mulberry32 } from '../util/random.ts';
 export { sampleTree, createSampler, SampleError, type Sampler, type SampleOptions } from './sample.ts';
 export { toJsonSchema } from './schema.ts';
+export { resolveTree, locateIssue, type ResolveIssue } from './resolve.ts';
 export { loadNames, namesFromDatabase, namesFromJson, checkNames, mergeNames, withFacts, NamesError } from './names.ts';
 export { bindNames, meetKinds, type BoundNames, type BoundSet, type BoundFamily } from './bound.ts';
 export { valueToLexeme, lexemeToValue } from './lexeme.ts';

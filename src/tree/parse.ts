@@ -30,6 +30,7 @@ import { ohmSource, type Generated } from './parse-generate.ts';
 import { installLexers } from './parse-lex.ts';
 import type { Tree } from './validate.ts';
 import { guardedMatch, nestingProblem } from './depth.ts';
+import { locateIssue, resolveTree } from './resolve.ts';
 
 export { ParseError, GrammarFeatureError, ohmSource };
 
@@ -38,6 +39,8 @@ export interface ParseOptions {
   readonly file?: string;
   /** when given, names of these sets must be members (others are unchecked) */
   readonly names?: NameBindings;
+  /** check scopes and kinds (resolve.ts) after parsing; default true */
+  readonly resolve?: boolean;
 }
 
 export interface Parser {
@@ -87,6 +90,11 @@ export function createParser(grammar: Grammar): Parser {
         const spans: SpanTable = new WeakMap();
         const ctx = { file, text, spans };
         const tree = (b.semantics(m) as unknown as { tree(ctx: unknown): Tree }).tree(ctx);
+        // scopes and kinds first: a column no table in scope has reads better than "unknown name"
+        if (grammar.scoped && o.resolve !== false) {
+          const issue = locateIssue(resolveTree(grammar, tree, o.names), spans);
+          if (issue !== null) throw new ParseError(file, text, issue.span, issue.message);
+        }
         checkParsed(info, tree, o.names, ctx);
         return tree;
       } catch (e) {

@@ -16,12 +16,21 @@
  * With `space ""` a tree whose tokens would run together has no text (print.ts); such trees are
  * drawn again (up to 200 times), so every sampled tree prints to text that parses back.
  *
- * Cost: O(nodes) per tree after an O(C · F · rounds) table build (C constructors, F fields).
+ * Scopes and kinds (grammars with `enter`/`known`/`kind`): the shape is drawn as above, then
+ * sample-names.ts chooses the scoped and kinded names so the tree resolves; a shape no choice
+ * can fix is drawn again (at most 1000 times per tree), and each returned tree is checked with
+ * resolveTree — so every sampled tree resolves under the given names.
+ *
+ * Cost: O(nodes) per tree after an O(C · F · rounds) table build (C constructors, F fields); with
+ * scopes, times the number of draws (a few on the shipped grammars).
  */
 import type { Constructor, Field, Grammar, NameBindings } from '../description/ir.ts';
 import { grammarInfo, type GrammarInfo, type TokenInfo } from './info.ts';
 import { lexemeToValue, nameSpellingProblem, tokenValueProblem, type TokenValue } from './lexeme.ts';
+import { bindNames } from './bound.ts';
 import { generate } from './regex.ts';
+import { resolveTree } from './resolve.ts';
+import { fillNames } from './sample-names.ts';
 import { mulberry32 } from '../util/random.ts';
 import type { Tree, TreeValue } from './validate.ts';
 import { printedBlank, printTree, PrintError } from './print.ts';
@@ -168,24 +177,51 @@ export function createSampler(grammar: Grammar, opts: SampleOptions): Sampler {
     }
   };
 
-  // with `space ""` some trees have no text (two tokens would run together): draw again, so every
-  // sampled tree prints and the printed text parses back (print.ts)
-  if (printedBlank(grammar) !== '' || sortName !== grammar.start) return { next: () => node(sortName, maxDepth, []) };
+  const blankable = printedBlank(grammar) === '' && sortName === grammar.start;
+  if (!grammar.scoped && !blankable) return { next: () => node(sortName, maxDepth, []) };
+  // Two reasons to draw again, both checked on the finished tree:
+  // - scopes and kinds: names are chosen after the shape (sample-names.ts); a shape no choice makes
+  //   resolve is drawn again, and every tree returned is checked by the resolver itself;
+  // - with `space ""` some trees have no text (two tokens would run together; print.ts).
+  const bound = grammar.scoped ? bindNames(grammar, opts.names) : null;
+  const pool = (set: string): readonly string[] => names[set] ?? placeholders.get(set) ?? [];
   return {
     next: () => {
-      for (let attempt = 0; attempt < 200; attempt++) {
+      let last = '';
+      let blanks = 0;
+      for (let attempt = 0; attempt < MAX_ATTEMPTS; attempt++) {
         const t = node(sortName, maxDepth, []);
+        if (bound !== null) {
+          if (!fillNames(grammar, t, bound, pool, rand)) {
+            last = 'no choice of names resolves the drawn shape';
+            continue;
+          }
+          const issue = resolveTree(grammar, t, bound)[0];
+          if (issue !== undefined) {
+            last = `${issue.path}: ${issue.message}`;
+            continue;
+          }
+        }
+        if (!blankable) return t;
         try {
           printTree(grammar, t);
           return t;
         } catch (e) {
           if (!(e instanceof PrintError)) throw e;
+          if (++blanks >= 200) break;
+          last = 'no text';
         }
       }
-      throw new SampleError(`200 sampled ${sortName} trees in a row have no text: with \`space ""\` their tokens run together; give the layout literal separators between word-like items, or weight the constructors that glue them lower`);
+      if (blanks >= 200 || last === 'no text') {
+        throw new SampleError(`200 sampled ${sortName} trees in a row have no text: with \`space ""\` their tokens run together; give the layout literal separators between word-like items, or weight the constructors that glue them lower`);
+      }
+      throw new SampleError(`no tree that resolves in ${MAX_ATTEMPTS} draws (last: ${last}); bind more names or allow deeper trees`);
     },
   };
 }
+
+/** draws of a shape before the sampler gives up on a scoped grammar */
+const MAX_ATTEMPTS = 1000;
 
 function lexeme(tok: TokenInfo, rand: () => number): string {
   const parts: string[] = [];

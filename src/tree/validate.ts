@@ -3,11 +3,13 @@
  *
  * A node is `{"kind": CONSTRUCTOR, FIELD: VALUE, ...}` with every field of the constructor present
  * and no other key: optional fields are null when absent, lists are arrays, token fields are
- * strings or numbers by the class's `as` kind, name-set fields are strings.
+ * strings or numbers by the class's `as` kind, name-set fields are strings. A well-typed tree of a
+ * grammar with scopes or kinds must also resolve (resolve.ts): its first issue is reported.
  */
 import type { Constructor, Field, Grammar, NameBindings } from '../description/ir.ts';
 import { grammarInfo, type GrammarInfo } from './info.ts';
 import { nameSpellingProblem, tokenValueProblem } from './lexeme.ts';
+import { resolveTree } from './resolve.ts';
 import { jsonDepthProblem, MAX_JSON_DEPTH, tooDeepMessage } from '../util/depth.ts';
 import { pathKey, show } from '../util/json.ts';
 
@@ -28,6 +30,8 @@ export interface ValidateOptions {
   readonly names?: NameBindings;
   /** the sort the value must have (default: the grammar's start sort) */
   readonly sort?: string;
+  /** check scopes and kinds too (resolve.ts); default true */
+  readonly resolve?: boolean;
 }
 
 /** Thrown by the printer and other consumers for an invalid tree; `message` is `path: message`. */

@@ -9,6 +9,12 @@ import { compileMasks } from '../../src/masks/index.ts';
 import { createParser, validateTree } from '../../src/tree/index.ts';
 import { GRAMMARS, grammar, namesFor, rng, smallVocabulary, TOKENIZERS, vocabulary } from './helpers.ts';
 
+/**
+ * Scopes and kinds (tree/resolve.ts) are checked on walk outputs once the masks enforce them
+ * (worktree scope-masks turns this on when it lands); until then walks check syntax and names only.
+ */
+const MASKS_RESOLVE = false;
+
 const WALKS: Record<string, number> = { llama3: 40, qwen3: 20, gemma3: 20, coop: 40 };
 
 describe.each([...TOKENIZERS, 'coop' as const])('%s', (tok) => {
@@ -54,8 +60,8 @@ describe.each([...TOKENIZERS, 'coop' as const])('%s', (tok) => {
         expect(ended, `no EOS within ${maxLen} tokens: ${JSON.stringify(text)}`).toBe(true);
         // Every walk's text parses and validates: the shipped numeric classes bound their digits
         // so that every lexeme the masks allow has a value that prints back as a lexeme.
-        const tree = parser.parse(text, { names });
-        expect(validateTree(g, tree, { names }), text).toBeNull();
+        const tree = parser.parse(text, { names, resolve: MASKS_RESOLVE });
+        expect(validateTree(g, tree, { names, resolve: MASKS_RESOLVE }), text).toBeNull();
         parsed++;
       }
       expect(parsed).toBe(WALKS[tok]);
@@ -118,8 +124,8 @@ describe.each([...TOKENIZERS, 'coop' as const])('%s: digit-preferring walks', (t
           }
           const text = prefix + new TextDecoder('utf-8', { fatal: true }).decode(Uint8Array.from(bytes));
           expect(ended, `no EOS within ${maxLen} tokens: ${JSON.stringify(text)}`).toBe(true);
-          const tree = parser.parse(text, { names });
-          expect(validateTree(g, tree, { names }), text).toBeNull();
+          const tree = parser.parse(text, { names, resolve: MASKS_RESOLVE });
+          expect(validateTree(g, tree, { names, resolve: MASKS_RESOLVE }), text).toBeNull();
           for (const run of text.match(/[0-9]+/g) ?? []) longestRun = Math.max(longestRun, run.length);
         }
       }
