@@ -120,6 +120,9 @@ export const emptyRegex = (at: At) =>
     'a token pattern needs at least one character between the slashes; comments start with `#`',
   );
 
+export const tooDeep = (at: At, detail: string) =>
+  error('too-deep', at, detail, 'nest groups and parentheses less deeply (README, "Errors and limits")');
+
 export const badStringEscape = (at: At, detail: string) =>
   error('bad-string', at, `invalid string literal: ${detail}`, 'string literals use JSON escapes: \\" \\\\ \\/ \\b \\f \\n \\r \\t \\uXXXX');
 

@@ -38,6 +38,7 @@ import * as E from './errors.ts';
 import { DescriptionError, formatDiagnostics, sortDiagnostics, type Diagnostic } from './errors.ts';
 import { parseNotation } from './notation.ts';
 import { notationSyntaxError } from './notation-errors.ts';
+import { nestingProblem } from '../util/ohm-depth.ts';
 
 export { DescriptionError, formatDiagnostic, formatDiagnostics, type Diagnostic } from './errors.ts';
 
@@ -66,6 +67,17 @@ export function compileDescription(text: string, file: string): Compiled {
 }
 
 function compileUncached(text: string, file: string): Compiled {
+  try {
+    return compileChecked(text, file);
+  } catch (e) {
+    // a description nested past the notation parser's limit (src/util/ohm-depth.ts)
+    const deep = nestingProblem(e, text);
+    if (deep === null) throw e;
+    return { grammar: null, diagnostics: [E.tooDeep({ file, span: { start: deep.offset, end: deep.offset + 1 } }, deep.message.replace(/^expected the program/, 'expected the description').replace(/^expected a program/, 'expected a description'))] };
+  }
+}
+
+function compileChecked(text: string, file: string): Compiled {
   const parsed = parseNotation(text);
   if (!parsed.ok) {
     return { grammar: null, diagnostics: [notationSyntaxError(text, file, parsed.offset, parsed.failures)] };

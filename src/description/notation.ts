@@ -7,6 +7,7 @@
  */
 import * as ohm from 'ohm-js';
 import type { Span } from './ir.ts';
+import { guardedMatch } from '../util/ohm-depth.ts';
 import type {
   CtorAst,
   DeclAst,
@@ -282,7 +283,8 @@ type OhmFailure = { getType(): string; getText(): string; isFluffy(): boolean };
  * failure records there (worded for users by notation-errors.ts, never shown as they are).
  */
 export function parseNotation(text: string): ParseOutcome {
-  const match = notation.match(text);
+  // throws NestingLimit past the nesting limit (src/util/ohm-depth.ts); compileDescription reports it
+  const match = guardedMatch(notation, text, 'Description');
   if (match.failed()) {
     const records = (match as unknown as { getRightmostFailures(): OhmFailure[] }).getRightmostFailures();
     const failures = records.map((f) => ({

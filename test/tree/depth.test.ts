@@ -12,7 +12,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterEach, beforeEach, describe, expect, it, vi } from 'vitest';
 import { main } from '../../src/cli/main.ts';
-import { loadGrammar } from '../../src/description/index.ts';
+import { compileDescription, loadGrammar } from '../../src/description/index.ts';
 import { createParser, ParseError, printTree, validateTree } from '../../src/tree/index.ts';
 import { evaluateLf, makeFactBase } from '../../src/exec/index.ts';
 import { jsonDepthProblem, MAX_JSON_DEPTH, MAX_PARSE_DEPTH } from '../../src/util/depth.ts';
@@ -93,6 +93,18 @@ describe('parser nesting limit', () => {
     expect(stderr).toMatch(new RegExp(`^${file.replace(/[.*+?^${}()|[\]\\]/g, '\\$&')}:1:\\d+: expected the program to nest less deeply here`));
     expect(stderr).not.toMatch(/\n\s+at /);
     expect(stderr).not.toContain('RangeError');
+  });
+});
+
+describe('description notation nesting', () => {
+  it('a description with 3,000 nested optional groups is a located diagnostic, not a stack overflow', () => {
+    const text = 'grammar g\nstart E\nspace " "\ntoken N = /[0-9]+/ as int\nsort E { a(x: N?) = ' + '[ '.repeat(3000) + 'x' + ' ]'.repeat(3000) + '; }\n';
+    const { grammar, diagnostics } = compileDescription(text, 'deep.twg');
+    expect(grammar).toBeNull();
+    expect(diagnostics.map((d) => [d.code, d.file, d.message])).toEqual([
+      ['too-deep', 'deep.twg', `expected the description to nest less deeply here: the parser follows at most ${MAX_PARSE_DEPTH} grammar rules at once (its nesting limit)`],
+    ]);
+    expect(diagnostics[0]!.span.start).toBeGreaterThan(text.indexOf('['));
   });
 });
 
