@@ -34,6 +34,7 @@ import { ModelError, type Seq2SeqModel } from '../model/index.ts';
 import { createParser, validateTree, type Tree } from '../tree/index.ts';
 import type { Vocabulary } from '../vocab/index.ts';
 import { decode } from './search.ts';
+import { warmUp } from './warm.ts';
 import type { DecodeOptions, DecodeResult } from './types.ts';
 
 export { decode, decodeStream, textOf } from './search.ts';
@@ -92,7 +93,14 @@ export function boundConstraint(engine: MaskEngine, names: NameBindings): Return
   let byNames = bindings.get(engine);
   if (byNames === undefined) bindings.set(engine, (byNames = new WeakMap()));
   let bound = byNames.get(names);
-  if (bound === undefined) byNames.set(names, (bound = engine.bind(names)));
+  if (bound === undefined) {
+    bound = engine.bind(names);
+    // what would otherwise be computed during the first question's steps: every local mask, then
+    // the masks along sampled programs (kept masks of lexeme states, compiled walker code)
+    bound.prepare();
+    warmUp(bound, engine.grammar, names);
+    byNames.set(names, bound);
+  }
   return bound;
 }
 

@@ -252,6 +252,8 @@ interface Flags {
   maxTokens?: number;
   prefix?: string;
   threads?: number;
+  spinning?: boolean;
+  oneCallPerToken?: boolean;
 }
 
 function figuresFile(flag: string | true | undefined): string | null {
@@ -316,6 +318,8 @@ export const register: RegisterCommand = (program: Command, setExit) => {
     .addOption(opt.maxTokens())
     .addOption(opt.inputPrefix())
     .addOption(new Option('--threads <n>', '--decode: onnxruntime intra-op threads (default: its choice)').argParser(integer(1, 256)))
+    .option('--spinning', '--decode: onnxruntime workers spin between calls (for comparison; the default is that they sleep)')
+    .option('--one-call-per-token', '--decode: no forced runs (for comparison)')
     .option('--write-figures [file]', 'also write the results into the figures file (default docs/figures.md of the package), replacing this bench\'s section')
     .addOption(new Option('--replay <file>', 'internal: time the masks on the paths in FILE, engine from the cache').hideHelp())
     .action((opts: Flags) =>
@@ -332,10 +336,10 @@ export const register: RegisterCommand = (program: Command, setExit) => {
           if (!opts.grammar || !opts.model || !opts.questions) throw new UsageError('bench --decode: expected --model DIR --grammar G --questions FILE.jsonl');
           const { model, questions } = opts;
           await withInputs({ ...opts, grammar: opts.grammar }, async ({ grammar, names }) => {
-            const r = await runDecodeBench(grammar, names ?? defaultNames(grammar), { model, questions, limit: opts.limit, beam: opts.beam, maxTokens: opts.maxTokens, prefix: opts.prefix, threads: opts.threads });
+            const r = await runDecodeBench(grammar, names ?? defaultNames(grammar), { model, questions, limit: opts.limit, beam: opts.beam, maxTokens: opts.maxTokens, prefix: opts.prefix, threads: opts.threads, spinning: opts.spinning, oneCallPerToken: opts.oneCallPerToken });
             const file = figuresFile(opts.writeFigures);
             if (file !== null) {
-              writeFiguresSection({ id: `decode-${r.grammar}`.replace(/[^A-Za-z0-9_.-]+/g, '-'), title: `Decoding: masks inside the decoder loop (${r.grammar}, ${r.model.replace(ROOT, '')})`, command: commandLine(), body: decodeBenchTable(r), data: r, machine: machine() }, file);
+              writeFiguresSection({ id: `decode-${r.grammar}${r.spinning ? '-spinning' : ''}${r.forced_runs ? '' : '-per-token'}`.replace(/[^A-Za-z0-9_.-]+/g, '-'), title: `Decoding: masks inside the decoder loop (${r.grammar}, ${r.model.replace(ROOT, '')})`, command: commandLine(), body: decodeBenchTable(r), data: r, machine: machine() }, file);
             }
             process.stdout.write((opts.json ? JSON.stringify(r) : decodeBenchTable(r)) + '\n');
           });
