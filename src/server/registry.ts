@@ -16,6 +16,7 @@ import { loadModel, type Seq2SeqModel } from '../model/index.ts';
 import { checkNames, loadNames, namesFromDatabase } from '../tree/index.ts';
 import { grammarFile, PACKAGE_ROOT } from '../util/package.ts';
 import { lineColumn } from '../util/source.ts';
+import { byteFallbackIds } from '../vocab/index.ts';
 import { Checker } from './checker.ts';
 
 export const REPO = resolve(PACKAGE_ROOT);
@@ -39,6 +40,8 @@ export interface ModelEntry {
   readonly id: string;
   readonly dir: string;
   readonly model: Seq2SeqModel;
+  /** byte-fallback token ids (`<0xNN>` pieces): same bytes as an ordinary token, shown apart */
+  readonly byteIds: ReadonlySet<number>;
 }
 
 export interface CheckResult {
@@ -195,7 +198,14 @@ export class Registry {
         const model = await loadModel(dir, { threads: opts.threads });
         let id = basename(resolve(dir));
         for (let i = 2; reg.models.has(id); i++) id = `${basename(resolve(dir))}-${i}`;
-        reg.models.set(id, { id, dir: model.dir, model });
+        let byteIds: ReadonlySet<number> = new Set();
+        try {
+          const tokFile = join(model.dir, 'tokenizer.json');
+          byteIds = byteFallbackIds(JSON.parse(readFileSync(tokFile, 'utf8')), tokFile);
+        } catch {
+          // the model loaded this file already; should it fail here, tokens are only not marked as bytes
+        }
+        reg.models.set(id, { id, dir: model.dir, model, byteIds });
       }
       // compile every model × grammar mask table now, so no request pays for it (~0.5 s each for
       // the demo model's 1,100 tokens); a pair that cannot work fails again, located, per request

@@ -22,6 +22,10 @@ export interface Step {
   readonly allowed: boolean | null;
   /** whether the text after this token is still a prefix of some program (null after it was not) */
   readonly viable: boolean | null;
+  /** whether the text after this token is a whole program (end of sequence allowed); null after it left the grammar */
+  readonly complete: boolean | null;
+  /** for a byte-fallback token (`<0xNN>`), its byte NN (which an ordinary token may spell too); else null */
+  readonly byte: number | null;
   /** output text after this token */
   readonly text: string;
   /** non-whitespace characters in `text` (what tree-view offsets count) */
@@ -62,6 +66,7 @@ export function replaySteps(
   tokenTexts: readonly string[],
   maxTokens: number,
   textOf: (ids: readonly number[]) => string,
+  byteOf: (id: number) => number | null = () => null,
 ): StepsResult {
   const mask = new Uint32Array((constraint.vocabSize + 31) >>> 5);
   let state: MaskState | null = constraint.start();
@@ -72,6 +77,7 @@ export function replaySteps(
     let count: number | null = null;
     let allowed: boolean | null = null;
     let viable: boolean | null = null;
+    let complete: boolean | null = null;
     if (state !== null) {
       constraint.writeAllowed(state, maxTokens - i, mask);
       count = popcount(mask);
@@ -84,12 +90,13 @@ export function replaySteps(
         // advance refuses a token after which the text is no program prefix (or a special token)
       }
       viable = next !== null;
+      complete = next !== null && constraint.isComplete(next);
       if (!allowed && viable && overBudget === null) overBudget = i;
       if (!viable) left = i;
       state = next;
     }
     const text = textOf(tokens.slice(0, i + 1));
-    steps.push({ index: i, id: tokens[i], token: tokenTexts[i], allowed_count: count, allowed, viable, text, filled: nonSpace(text) });
+    steps.push({ index: i, id: tokens[i], token: tokenTexts[i], allowed_count: count, allowed, viable, complete, byte: byteOf(tokens[i]), text, filled: nonSpace(text) });
   }
   let final: number | null = null;
   if (state !== null) {

@@ -42,3 +42,4 @@ export { Vocabulary, deserializeVocabulary, type ModelType } from './vocabulary.
 export { TokenTrie, NO_NODE, buildTrie } from './trie.ts';
 export { VocabularyError } from './errors.ts';
 export { BYTE_LEVEL_CHAR_TO_BYTE } from './decoder.ts';
+export { byteFallbackIds } from './pieces.ts';

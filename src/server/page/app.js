@@ -41,8 +41,9 @@ async function loadChoices(selectId) {
   const gs = $('#grammar');
   const keep = selectId ?? gs.value;
   gs.replaceChildren(...g.grammars.map((x) => el('option', { value: x.id, text: x.origin === 'checked' ? `${x.name} (edited, ${x.id})` : x.name })));
+  // the default is the first grammar listed (the server lists the demo's SQL grammar first)
   if (keep && g.grammars.some((x) => x.id === keep)) gs.value = keep;
-  else if (g.grammars.some((x) => x.id === 'lf')) gs.value = 'lf';
+  else if (g.grammars.length > 0) gs.value = g.grammars[0].id;
   const ms = $('#model');
   if (ms.options.length === 0) {
     ms.replaceChildren(...m.models.map((x) => el('option', { value: x.id, text: x.id })));
@@ -89,16 +90,19 @@ async function decodeBoth(ev) {
   stopPlay();
   if ($('#question').value.trim() === '') return;
   $('#go').disabled = true;
-  setStatus('#ask-status', 'decoding…');
   try {
-    const [u, c] = await Promise.all([api('/api/decode', request(false)), api('/api/decode', request(true))]);
+    // one after the other, so neither run's times include the other's work on the same cores
+    setStatus('#ask-status', 'decoding without the grammar…');
+    const u = await api('/api/decode', request(false));
+    setStatus('#ask-status', 'decoding with the grammar…');
+    const c = await api('/api/decode', request(true));
     state.runs = { u, c };
     const m = (state.models || []).find((x) => x.id === c.model);
     state.vocab = m ? m.vocab_size : 1;
     const n = Math.max(u.steps.length, c.steps.length);
     $('#step').max = String(n);
     $('#steps').hidden = false;
-    setStatus('#ask-status', `${c.model} · ${c.grammar} · ${c.strategy} · without grammar ${u.tokens.length} tokens in ${u.total_ms.toFixed(0)} ms, with grammar ${c.tokens.length} tokens in ${c.total_ms.toFixed(0)} ms`);
+    setStatus('#ask-status', `${c.model} · grammar ${c.grammar} · ${c.strategy} decoding · ${state.vocab.toLocaleString('en')} tokens in the vocabulary`);
     setStep(n);
   } catch (e) {
     setStatus('#ask-status', e.message, true);
@@ -110,7 +114,7 @@ async function decodeBoth(ev) {
 function setStep(i) {
   state.step = i;
   $('#step').value = String(i);
-  $('#step-label').textContent = `${i} / ${$('#step').max}`;
+  $('#step-label').textContent = `step ${i} of ${$('#step').max}`;
   for (const key of ['u', 'c']) if (state.runs[key]) renderRun(key, state.runs[key], i);
 }
 
@@ -131,6 +135,37 @@ function togglePlay() {
   }, 180);
 }
 
+/** A token as the page shows it: spaces made visible; a byte-fallback token as its byte, `<0x61>`. */
+function tokenLabel(text, byte) {
+  if (byte !== null && byte !== undefined) return `<0x${byte.toString(16).toUpperCase().padStart(2, '0')}>`;
+  return text.replace(/ /g, '\u2423').replace(/\n/g, '\u21b5');
+}
+function tokenTitle(text, byte) {
+  if (byte !== null && byte !== undefined) {
+    const ch = byte >= 0x20 && byte < 0x7f ? ` (${JSON.stringify(String.fromCharCode(byte))})` : '';
+    return `byte-fallback token: the single byte 0x${byte.toString(16).toUpperCase().padStart(2, '0')}${ch}, not the ordinary token with the same text`;
+  }
+  return JSON.stringify(text);
+}
+
+/** Where the run stands after `i` tokens, in words: [class, text]. */
+function verdict(run, i) {
+  if (i === 0) return ['wait', 'nothing written yet'];
+  if (i > run.steps.length) {
+    return verdict(run, run.steps.length).map((x, k) => (k === 1 ? `${x} — this run ended after step ${run.steps.length} (${run.finished === 'eos' ? 'end of sequence' : run.finished})` : x));
+  }
+  const s = run.steps[i - 1];
+  if (s.viable === false) return ['bad', `step ${i} left the grammar: no program begins with this text`];
+  if (s.viable === null) return ['bad', `outside the grammar since step ${run.left_grammar_at + 1}`];
+  const over = s.allowed === false ? '; but too few tokens are left to finish it' : '';
+  if (s.complete) return ['ok', `a complete program so far${over}`];
+  return ['part', `a valid beginning of a program, not complete yet${over}`];
+}
+
+function perStep(ms, n) {
+  return n > 0 ? `${(ms / n).toFixed(ms / n < 10 ? 2 : 1)} ms` : '–';
+}
+
 function renderRun(key, run, upto) {
   const panel = document.querySelector(`#${key} .panel`);
   const shown = Math.min(upto, run.steps.length);
@@ -139,6 +174,7 @@ function renderRun(key, run, upto) {
   const chips = el('div', { class: 'chips', id: `${key}-tokens` });
   run.steps.forEach((s, i) => {
     let cls = 'chip';
+    if (s.byte !== null && s.byte !== undefined) cls += ' byte';
     if (i < shown) cls += ' seen';
     if (i === shown - 1) cls += ' now';
     if (s.viable === false) cls += ' off';
@@ -146,20 +182,42 @@ function renderRun(key, run, upto) {
     else if (s.allowed === null) cls += ' after';
     const tip = s.allowed_count === null ? 'after the text left the grammar'
       : `${s.allowed_count} tokens allowed here${s.viable === false ? '; this one leaves the grammar' : s.allowed === false ? '; this one fits the grammar but leaves too few tokens to finish' : ''}`;
-    // spaces shown as a visible mark so whitespace tokens do not look empty
-    chips.append(el('span', { class: cls, title: `step ${i + 1}: ${JSON.stringify(s.token)} (id ${s.id}) — ${tip}`, text: s.token.replace(/ /g, '\u2423') }));
+    chips.append(el('span', { class: cls, title: `step ${i + 1}: ${tokenTitle(s.token, s.byte)} (id ${s.id}) — ${tip}`, text: tokenLabel(s.token, s.byte) }));
   });
+
+  // what happened at the selected step, in the slider's numbering
+  const stepLine = el('div', { class: 'stepline', id: `${key}-stepline` });
+  if (upto === 0) stepLine.textContent = 'step 0: before the first token';
+  else if (upto > run.steps.length) stepLine.textContent = `step ${upto}: no token — this run ended after step ${run.steps.length}`;
+  else {
+    const byte = cur.byte !== null && cur.byte !== undefined;
+    stepLine.append(
+      `step ${upto}: chose `,
+      el('span', { class: `chip seen${byte ? ' byte' : ''}`, title: tokenTitle(cur.token, cur.byte), text: tokenLabel(cur.token, cur.byte) }),
+      cur.allowed_count === null ? ' (the text was already outside the grammar)'
+        : cur.allowed ? ` — one of the ${cur.allowed_count.toLocaleString('en')} tokens allowed here (of ${state.vocab.toLocaleString('en')})`
+        : ` — not among the ${cur.allowed_count.toLocaleString('en')} tokens allowed here${cur.viable === false ? ': it leaves the grammar' : ': too few tokens would be left to finish'}`,
+    );
+  }
 
   const left = run.left_grammar_at;
   const over = run.over_budget_at;
-  let captionText = `Allowed tokens per step (of ${state.vocab}; log scale).`;
+  let captionText = 'Bars: tokens the grammar allows at each step (log scale; the chosen step is outlined).';
   if (over !== null && (left === null || over < left)) captionText += ` From step ${over + 1} (amber) the text no longer fits the ${run.steps.length + (run.finished === 'eos' ? 1 : 0)}-token budget.`;
   if (left !== null) captionText += ` Step ${left + 1} (red) chose a token after which the text is no program prefix.`;
   const caption = el('p', { class: 'caption' }, captionText);
 
+  const [vcls, vtext] = verdict(run, upto);
   const sofar = el('div', { class: 'sofar', id: `${key}-sofar`, title: 'text so far', text: cur ? cur.text : '' });
+  const verdictBox = el('div', { class: `verdict ${vcls}`, id: `${key}-verdict`, text: vtext });
 
-  const parts = [chips, chart(run, shown), caption, el('div', { class: 'note', text: 'text so far' }), sofar];
+  const n = run.steps.length;
+  const timing = el('div', { class: 'note timing', id: `${key}-timing`,
+    text: run.constrained
+      ? `server time per step: model ${perStep(run.model_ms, n)}, masks ${perStep(run.mask_ms, n)}`
+      : `server time per step: model ${perStep(run.model_ms, n)} (no masks)` });
+
+  const parts = [stepLine, chips, chart(run, upto), caption, el('div', { class: 'note', text: `text after step ${shown}` }), sofar, verdictBox];
 
   // the tokens the grammar allows after the text so far (asked from /api/mask when not playing)
   if (run.left_grammar_at === null || shown <= run.left_grammar_at) {
@@ -169,7 +227,7 @@ function renderRun(key, run, upto) {
     if (state.timer === null) scheduleAllowed(key, run, cur ? cur.text : '', allowedBox);
   }
 
-  parts.push(el('div', { class: 'note', text: 'tree' }));
+  parts.push(el('div', { class: 'note', text: `tree after step ${shown}` }));
   const treeBox = el('div', { class: 'tree', id: `${key}-tree` });
   if (run.tree_view) {
     const filled = cur ? cur.filled : 0;
@@ -178,28 +236,75 @@ function renderRun(key, run, upto) {
     if (node) ul.append(node);
     treeBox.append(ul);
     if (!node) treeBox.append(el('span', { class: 'note', text: '(nothing yet)' }));
+  } else if (cur && cur.complete) {
+    // the final output has no tree, but the text so far is a whole program: parse it
+    treeBox.append(el('span', { class: 'note', text: '…' }));
+    if (state.timer === null) scheduleParse(key, run, cur.text, treeBox);
+  } else if (cur === null) {
+    treeBox.append(el('span', { class: 'note', text: '(nothing yet)' }));
+  } else if (cur.viable === false || cur.viable === null) {
+    treeBox.append(el('span', { class: 'note', text: 'no tree: the text has left the grammar' }));
   } else {
-    treeBox.append(el('span', { class: 'note', text: run.parses ? 'the output parses but is not well-typed: no tree' : 'the output does not parse: no tree' }));
+    treeBox.append(el('span', { class: 'note', text: shown >= run.steps.length && !run.parses ? 'no tree: the output ends before the program is complete' : 'no tree yet: the text so far is not a complete program' }));
   }
   parts.push(treeBox);
 
-  if (shown >= run.steps.length) {
+  if (upto >= run.steps.length) {
     const yes = (b, t) => el('span', { class: `badge ${b ? 'yes' : 'no'}`, text: `${t}: ${b ? 'yes' : 'no'}` });
-    parts.push(el('div', { class: 'badges' }, yes(run.parses, 'parses'), yes(run.well_typed, 'well-typed'), el('span', { class: 'badge', text: `ended: ${run.finished}` })));
-    parts.push(el('div', { class: 'note', text: 'final code' }), el('div', { class: 'code', id: `${key}-code`, text: run.text }));
+    parts.push(el('div', { class: 'note', text: 'final output' }));
+    parts.push(el('div', { class: 'badges' }, yes(run.parses, 'parses'), yes(run.well_typed, 'well-typed'), el('span', { class: 'badge', text: `ended: ${run.finished === 'eos' ? 'end of sequence' : run.finished}` })));
+    parts.push(el('div', { class: 'code', id: `${key}-code`, text: run.text }));
     if (run.canonical !== null && run.canonical !== undefined && run.canonical !== run.text) {
       parts.push(el('div', { class: 'note', text: 'canonical print (what runs)' }), el('div', { class: 'code', id: `${key}-canonical`, text: run.canonical }));
     } else if (run.canonical) {
       parts.push(el('div', { class: 'code', id: `${key}-canonical`, hidden: '', text: run.canonical }));
     }
-    if (run.parse_error) parts.push(el('div', { class: 'code', text: run.parse_error }));
+    // the excerpt keeps its lines (no wrapping), so the ^ stays under its column
+    if (run.parse_error) parts.push(el('div', { class: 'code excerpt', id: `${key}-error`, text: run.parse_error }));
     parts.push(el('div', { class: 'note', text: 'answer' }));
     const a = run.answer;
     const answer = el('div', { class: `answer${a && a.ok ? '' : ' bad'}`, id: `${key}-answer` });
     answer.textContent = a === null ? '(not run)' : a.ok ? formatAnswer(a.value) : `not answered: ${a.error}`;
     parts.push(answer);
   }
+  parts.push(timing);
   panel.replaceChildren(...parts);
+}
+
+const parseTimers = {};
+function scheduleParse(key, run, text, box) {
+  clearTimeout(parseTimers[key]);
+  parseTimers[key] = setTimeout(async () => {
+    try {
+      const r = await api('/api/parse', { grammar: run.grammar, text });
+      if (!box.isConnected) return;
+      const ul = el('ul', {}, renderTree(r.tree, null));
+      box.replaceChildren(ul);
+    } catch (e) {
+      if (box.isConnected) box.replaceChildren(el('span', { class: 'note', text: e.message }));
+    }
+  }, 120);
+}
+
+/** A parsed JSON tree as nested list items (every node complete). */
+function renderTree(value, field) {
+  const head = el('span', { class: 'node done' });
+  if (field !== null) head.append(el('span', { class: 'field', text: `${field}: ` }));
+  const li = el('li', {}, head);
+  if (value !== null && typeof value === 'object' && !Array.isArray(value)) {
+    head.append(document.createTextNode(value.kind));
+    const kids = [];
+    for (const [k, v] of Object.entries(value)) {
+      if (k === 'kind' || v === null) continue;
+      if (Array.isArray(v)) v.forEach((x, i) => kids.push(renderTree(x, `${k}[${i}]`)));
+      else kids.push(renderTree(v, k));
+    }
+    if (kids.length > 0) li.append(el('ul', {}, ...kids));
+  } else {
+    head.classList.add('leaf');
+    head.append(document.createTextNode(String(value)));
+  }
+  return li;
 }
 
 const allowedTimers = {};
@@ -212,7 +317,7 @@ function scheduleAllowed(key, run, prefix, box) {
       if (!box.isConnected) return;
       box.dataset.count = String(r.allowed_count);
       box.dataset.ids = r.allowed.map((t) => t.id).join(' ');
-      const shownTokens = r.allowed.slice(0, 60).map((t) => el('span', { class: 'tok', 'data-id': String(t.id), text: t.text.replace(/ /g, '\u2423') }));
+      const shownTokens = r.allowed.slice(0, 60).map((t) => el('span', { class: t.byte !== null && t.byte !== undefined ? 'tok byte' : 'tok', 'data-id': String(t.id), title: `${tokenTitle(t.text, t.byte)} (id ${t.id})`, text: tokenLabel(t.text, t.byte) }));
       const more = r.allowed_count > shownTokens.length ? el('span', { class: 'note', text: ` … ${r.allowed_count - shownTokens.length} more` }) : null;
       box.replaceChildren(el('span', { class: 'note', text: `${r.allowed_count}${r.complete ? ' (end allowed)' : ''}: ` }), ...shownTokens, more ?? '');
     } catch (e) {
@@ -231,29 +336,68 @@ function formatAnswer(v) {
   return JSON.stringify(v);
 }
 
-function chart(run, shown) {
+/**
+ * Bars of allowed-token counts on a log axis (ticks at powers of ten up to the vocabulary size),
+ * step numbers below; the selected step is outlined and labelled in the slider's numbering.
+ */
+function chart(run, upto) {
   const n = Math.max(run.steps.length, 1);
   const W = 600;
-  const H = 90;
-  const pad = 14;
-  const bw = (W - 2) / n;
-  const top = Math.log10(Math.max(state.vocab, 2) + 1);
-  const g = svg('svg', { class: 'chart', viewBox: `0 0 ${W} ${H}`, preserveAspectRatio: 'none', role: 'img', 'aria-label': 'allowed tokens per step' });
+  const H = 150;
+  const L = 46; // room for the axis labels
+  const R = 8;
+  const T = 18;
+  const B = 22;
+  const plotW = W - L - R;
+  const plotH = H - T - B;
+  const vocab = Math.max(state.vocab, 2);
+  const decades = Math.max(1, Math.ceil(Math.log10(vocab)));
+  const y = (v) => T + plotH - (plotH * Math.log10(Math.max(v, 1))) / decades;
+  const bw = plotW / n;
+  const g = svg('svg', { class: 'chart', viewBox: `0 0 ${W} ${H}`, role: 'img', 'aria-label': 'tokens allowed per step, log scale' });
+  // y axis: 1, 10, 100, … and the vocabulary size
+  for (let d = 0; d <= decades; d++) {
+    const v = 10 ** d;
+    if (v > vocab * 1.0001 && d > 0) break;
+    g.append(svg('line', { class: 'grid', x1: L, x2: W - R, y1: y(v), y2: y(v) }));
+    const t = svg('text', { class: 'tick y', x: L - 4, y: y(v) + 3, 'text-anchor': 'end' });
+    t.textContent = v >= 1000 ? `${v / 1000}k` : String(v);
+    g.append(t);
+  }
+  g.append(svg('line', { class: 'grid all', x1: L, x2: W - R, y1: y(vocab), y2: y(vocab) }));
+  const all = svg('text', { class: 'tick all', x: W - R, y: y(vocab) - 3, 'text-anchor': 'end' });
+  all.textContent = `all ${vocab.toLocaleString('en')}`;
+  g.append(all);
+  g.append(svg('line', { class: 'axis', x1: L, x2: L, y1: T, y2: T + plotH }));
+  g.append(svg('line', { class: 'axis', x1: L, x2: W - R, y1: T + plotH, y2: T + plotH }));
+  // x axis: step numbers
+  const every = n <= 12 ? 1 : n <= 30 ? 5 : n <= 120 ? 10 : 50;
+  for (let i = 1; i <= n; i++) {
+    if (i !== 1 && i % every !== 0) continue;
+    const t = svg('text', { class: 'tick x', x: L + (i - 0.5) * bw, y: H - 8, 'text-anchor': 'middle' });
+    t.textContent = String(i);
+    g.append(t);
+  }
   run.steps.forEach((s, i) => {
     const v = s.allowed_count;
-    const h = v === null ? 4 : Math.max(2, ((H - pad) * Math.log10(v + 1)) / top);
+    const top = v === null ? T + plotH - 3 : Math.min(y(v), T + plotH - 2);
     const cls = v === null ? 'bar none' : s.viable === false ? 'bar off' : s.allowed === false ? 'bar over' : 'bar';
-    const r = svg('rect', { class: cls, x: 1 + i * bw + bw * 0.1, y: H - h, width: Math.max(bw * 0.8, 0.5), height: h, opacity: i < shown ? 1 : 0.3 });
+    const r = svg('rect', { class: cls + (i === upto - 1 ? ' now' : ''), x: L + i * bw + bw * 0.12, y: top, width: Math.max(bw * 0.76, 0.5), height: T + plotH - top, opacity: i < upto ? 1 : 0.35 });
     const t = svg('title');
     t.textContent = `step ${i + 1}: ${v === null ? 'outside the grammar' : `${v} allowed`}`;
     r.append(t);
     g.append(r);
   });
-  if (shown > 0) g.append(svg('line', { class: 'cursor', x1: 1 + (shown - 0.5) * bw, x2: 1 + (shown - 0.5) * bw, y1: 0, y2: H }));
-  const label = svg('text', { x: 4, y: 11 });
-  const cur = shown > 0 ? run.steps[shown - 1] : null;
-  label.textContent = cur ? (cur.allowed_count === null ? 'outside the grammar' : `${cur.allowed_count} allowed at step ${shown}`) : `${n} steps`;
+  const label = svg('text', { class: 'label', x: L + 4, y: 12 });
+  const cur = upto > 0 && upto <= run.steps.length ? run.steps[upto - 1] : null;
+  label.textContent = upto === 0 ? `${run.steps.length} steps`
+    : cur === null ? `step ${upto}: none (ended after step ${run.steps.length})`
+    : cur.allowed_count === null ? `step ${upto}: outside the grammar`
+    : `step ${upto}: ${cur.allowed_count.toLocaleString('en')} allowed`;
   g.append(label);
+  const yl = svg('text', { class: 'tick', x: 2, y: 12 });
+  yl.textContent = 'allowed';
+  g.append(yl);
   return g;
 }
 
@@ -323,6 +467,47 @@ function renderMarks(text, diags) {
   syncScroll();
 }
 
+/**
+ * Keeps the first error in view: when its line is scrolled out of the editor, scroll to it, and
+ * when the caret's own line is out of view too (after a load or a paste the caret sits at the end)
+ * put the caret at the error's line and column.
+ */
+function revealFirstError(text, diags) {
+  const first = diags.find((d) => d.severity === 'error');
+  if (!first) return;
+  const t = $('#editor');
+  const lineH = 18;
+  const pad = 6;
+  const rowTop = (line) => pad + (line - 1) * lineH;
+  const inView = (line) => rowTop(line) >= t.scrollTop && rowTop(line) + lineH <= t.scrollTop + t.clientHeight;
+  if (inView(first.line)) return;
+  const caretLine = text.slice(0, t.selectionStart).split('\n').length;
+  if (!inView(caretLine) || document.activeElement !== t) {
+    const a = offsetOf(text, first.line, first.column);
+    t.setSelectionRange(a, a);
+  }
+  t.scrollTop = Math.max(0, rowTop(first.line) - Math.floor(t.clientHeight / 3));
+  // horizontally: the error's column within the visible width
+  const chW = charWidth();
+  const x = 8 + (first.column - 1) * chW;
+  if (x < t.scrollLeft || x > t.scrollLeft + t.clientWidth - 4 * chW) t.scrollLeft = Math.max(0, x - 8 * chW);
+  syncScroll();
+}
+
+let charWidthCache = 0;
+function charWidth() {
+  if (charWidthCache > 0) return charWidthCache;
+  const probe = el('span', { text: 'x'.repeat(100) });
+  probe.style.font = getComputedStyle($('#editor')).font;
+  probe.style.position = 'absolute';
+  probe.style.visibility = 'hidden';
+  probe.style.whiteSpace = 'pre';
+  document.body.append(probe);
+  charWidthCache = probe.getBoundingClientRect().width / 100 || 8;
+  probe.remove();
+  return charWidthCache;
+}
+
 function syncScroll() {
   const t = $('#editor');
   $('#marks').scrollTop = t.scrollTop;
@@ -338,6 +523,7 @@ async function checkNow() {
     if (seq !== editor.seq) return; // a newer check is on its way
     renderGutter(text, r.diagnostics);
     renderMarks(text, r.diagnostics);
+    revealFirstError(text, r.diagnostics);
     const errs = r.diagnostics.filter((d) => d.severity === 'error').length;
     const warns = r.diagnostics.length - errs;
     editor.lastId = r.ok ? r.id : null;
@@ -392,6 +578,8 @@ window.addEventListener('DOMContentLoaded', async () => {
   $('#editor').addEventListener('input', scheduleCheck);
   $('#editor').addEventListener('scroll', syncScroll);
   $('#load-grammar').addEventListener('click', loadSelectedGrammar);
+  // the editor follows the grammar chosen for decoding
+  $('#grammar').addEventListener('change', loadSelectedGrammar);
   $('#use-grammar').addEventListener('click', () => void useGrammar());
   showOptions();
   try {

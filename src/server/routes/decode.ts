@@ -122,7 +122,7 @@ export function register(app: FastifyInstance, ctx: ServerContext): void {
         } catch (e) {
           return modelError(e);
         }
-        Object.assign(out, replaySteps(c, r.tokens, r.tokenTexts, maxTokens, (ids) => textOf(m.model, ids)));
+        Object.assign(out, replaySteps(c, r.tokens, r.tokenTexts, maxTokens, (ids) => textOf(m.model, ids), (id) => (m.byteIds.has(id) ? m.model.vocabulary.byteAt(id, 0) : null)));
         out.tree_view = r.tree !== null && r.well_typed ? treeView(g.grammar, r.tree) : null;
       }
       if (b.execute) {

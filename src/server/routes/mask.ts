@@ -26,11 +26,11 @@ export function register(app: FastifyInstance, ctx: ServerContext): void {
       const mask = new Uint32Array((c.vocabSize + 31) >>> 5);
       if (viable) c.writeAllowed(state, Infinity, mask);
       let count = 0;
-      const allowed: { id: number; text: string }[] = [];
+      const allowed: { id: number; text: string; byte: number | null }[] = [];
       for (let id = 0; id < c.vocabSize; id++) {
         if ((mask[id >>> 5]! & (1 << (id & 31))) === 0) continue;
         count++;
-        if (allowed.length < body.sample) allowed.push({ id, text: m.model.vocabulary.text(id) });
+        if (allowed.length < body.sample) allowed.push({ id, text: m.model.vocabulary.text(id), byte: m.byteIds.has(id) ? m.model.vocabulary.byteAt(id, 0) : null });
       }
       return {
         viable,
