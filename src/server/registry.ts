@@ -13,7 +13,7 @@ import type { Grammar, NameBindings } from '../description/ir.ts';
 import { factNames, factsFromDatabase, lfExecutor, openDatabaseFile, SqlRunner, sqlExecutor, type DatabaseFile, type ExecuteFn } from '../exec/index.ts';
 import type { FactBase } from '../exec/facts.ts';
 import { loadModel, type Seq2SeqModel } from '../model/index.ts';
-import { checkNames, loadNames, namesFromDatabase } from '../tree/index.ts';
+import { checkNames, createParser, loadNames, namesFromDatabase } from '../tree/index.ts';
 import { grammarFile, PACKAGE_ROOT } from '../util/package.ts';
 import { lineColumn } from '../util/source.ts';
 import { byteFallbackIds } from '../vocab/index.ts';
@@ -211,6 +211,8 @@ export class Registry {
       // the demo model's 1,100 tokens); a pair that cannot work fails again, located, per request
       if (opts.warm !== false) {
         reg.checker.warmUp();
+        // the parsers too (0.1–1 s each on first use, on the main thread)
+        for (const g of reg.grammars.values()) createParser(g.grammar);
         for (const m of reg.models.values()) {
           for (const g of reg.grammars.values()) {
             try {

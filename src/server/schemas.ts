@@ -2,12 +2,15 @@
  * JSON Schemas of every route's body and responses. They validate requests (ajv inside fastify,
  * no coercion, no unknown fields) and are the source of the OpenAPI document at /api/openapi.json.
  */
+import { MAX_NAME_NODES } from '../automaton/pda.ts';
+
 const id = (what: string) => ({ type: 'string', minLength: 1, maxLength: 200, description: what });
 const tree = { description: 'a JSON tree: {"kind": constructor, field: value, ...}' };
 const names = {
   type: 'object',
   description: 'bindings of open name sets, overriding the server\'s: {"Set": ["member", ...]}',
-  additionalProperties: { type: 'array', items: { type: 'string' }, maxItems: 100000 },
+  // a set with more members than the automaton's name-trie limit cannot bind: refused before any work
+  additionalProperties: { type: 'array', items: { type: 'string' }, maxItems: MAX_NAME_NODES },
 };
 
 export const errorSchema = {

@@ -185,13 +185,17 @@ describe('no request field names a file the server reads', () => {
 });
 
 describe('oversized name sets', () => {
-  it('100,000 names are a located 400, not a 500', async () => {
+  it('100,000 names are a located 400 before any work; 40,000 long ones past the trie limit too, not a 500', async () => {
     const registry = await Registry.open({ models: ['test/fixtures/tiny-seq2seq'], warm: false, threads: 1, grammars: ['arith'] });
     const a = await buildServer(registry, { bodyLimit: 8 << 20 });
     try {
-      const names = Array.from({ length: 100_000 }, (_, i) => `f${i.toString(36)}`);
-      const res = await a.inject({ method: 'POST', url: '/api/mask', payload: { grammar: 'arith', prefix: 'f', names: { Func: names } } });
-      const e = documentedError(res, 400, 'invalid_names');
+      const many = Array.from({ length: 100_000 }, (_, i) => `f${i.toString(36)}`);
+      const res = await a.inject({ method: 'POST', url: '/api/mask', payload: { grammar: 'arith', prefix: 'f', names: { Func: many } } });
+      expect(documentedError(res, 400, 'invalid_request')).toMatchObject({ location: '$.names.Func', message: '$.names.Func: found an array; expected at most 65536 items' });
+      // distinct tails: about four trie nodes per name
+      const long = Array.from({ length: 40_000 }, (_, i) => `f${i.toString(36).padStart(4, '0')}tail${(i * 7919).toString(36)}`);
+      const res2 = await a.inject({ method: 'POST', url: '/api/mask', payload: { grammar: 'arith', prefix: 'f', names: { Func: long } } });
+      const e = documentedError(res2, 400, 'invalid_names');
       expect(e).toMatchObject({ location: '$.names.Func', message: '$.names.Func: the members need more than 65536 trie nodes; expected a smaller name set' });
     } finally {
       await a.close();
