@@ -135,7 +135,14 @@ async function evaluateCommand(f: Flags): Promise<void> {
       const { processPool } = await import('../../eval/pool.ts');
       const threads = Math.max(1, Math.floor(availableParallelism() / f.workers));
       const init: ChildInit = { flags: setupFlags, decoding, threads, warmQuestion: items[0].question };
-      producer = processPool({ size: f.workers, entry: fileURLToPath(new URL('../eval-child.mjs', import.meta.url)), init });
+      producer = processPool({
+        size: f.workers,
+        entry: fileURLToPath(new URL('../eval-child.mjs', import.meta.url)),
+        init,
+        onReady: (ready, total) => {
+          if (ready === total) process.stderr.write(`evaluate: ${total} worker processes ready\n`);
+        },
+      });
       how = `${f.workers} worker processes`;
     } else {
       ex.dispose();
