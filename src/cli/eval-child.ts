@@ -10,8 +10,8 @@ import { openEvalSetup, type SetupFlags } from './commands/eval-setup.ts';
 export interface ChildInit {
   readonly flags: SetupFlags;
   readonly decoding: Decoding;
-  /** onnxruntime threads for this process */
-  readonly threads: number;
+  /** onnxruntime threads for this process (undefined: onnxruntime's own choice, as in one process) */
+  readonly threads?: number;
   /** a question to warm up on (masks compiled or loaded, both modes run once) */
   readonly warmQuestion: string;
 }

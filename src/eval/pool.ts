@@ -14,7 +14,7 @@
  *   parent → child  {type: 'job', seq, item, mode}    child → parent  {type: 'row', seq, row} | {type: 'failed', seq, message}
  * The child side is `serveJobs` below; the parent side is `processPool`.
  *
- * Cost: each child holds its own model (the shipped one ~40 MB resident; a 60M-parameter model a
+ * Each child uses onnxruntime's own thread count (as one process does). Cost: each child holds its own model (the shipped one ~40 MB resident; a 60M-parameter model a
  * few hundred MB) and compiles or loads the grammar's masks once; rows waiting for an earlier row
  * are held in memory (at most a few per child in practice).
  * Limits: a child that dies stops the run with an error (the rows written so far are kept; the
