@@ -42,6 +42,36 @@ function parseJson(text: string, file: string): unknown {
   }
 }
 
+/** Files at least this large have their `merges` array skipped rather than parsed. */
+const SKIP_MERGES_FROM = 4 * 2 ** 20;
+
+/**
+ * The text with the BPE `merges` array replaced by `[]`: nothing here reads the merges, and for a
+ * large vocabulary (gemma3: half a million pairs) parsing them is most of the JSON object graph —
+ * its time and its memory. The skipped part is checked only for closed strings and balanced
+ * brackets (a file whose merges are otherwise malformed loads here; the tokenizer library refuses
+ * it). Returns the text unchanged when no such array is found.
+ */
+function withoutMerges(text: string): string {
+  const re = /"merges"\s*:\s*\[/g;
+  for (let m = re.exec(text); m !== null; m = re.exec(text)) {
+    const open = m.index + m[0].length - 1;
+    let depth = 0;
+    let inString = false;
+    for (let i = open; i < text.length; i++) {
+      const c = text.charCodeAt(i);
+      if (inString) {
+        if (c === 92) i++; // backslash: skip the escaped character
+        else if (c === 34) inString = false;
+      } else if (c === 34) inString = true;
+      else if (c === 91) depth++;
+      else if (c === 93 && --depth === 0) return `${text.slice(0, open)}[]${text.slice(i + 1)}`;
+    }
+    return text; // unbalanced: let JSON.parse report it
+  }
+  return text;
+}
+
 function isObject(v: unknown): v is Json {
   return v !== null && typeof v === 'object' && !Array.isArray(v);
 }
@@ -55,14 +85,18 @@ export function loadVocabulary(source: string | object, options: LoadOptions = {
   let text: string | undefined;
   let root: unknown;
   let configPath: string | undefined;
+  let fileHash: string | undefined;
   if (typeof source === 'string' && !/^\s*[{[]/.test(source)) {
     file = options.file ?? source;
+    let data: Buffer;
     try {
-      text = readFileSync(source, 'utf8');
+      data = readFileSync(source);
     } catch (e) {
       throw new VocabularyError(file, '$', `cannot read the file (${(e as Error).message}); expected a readable tokenizer.json`);
     }
-    root = parseJson(text, file);
+    fileHash = createHash('sha256').update(data).digest('hex');
+    text = data.toString('utf8');
+    root = parseJson(text.length >= SKIP_MERGES_FROM ? withoutMerges(text) : text, file);
     const beside = join(dirname(source), 'tokenizer_config.json');
     if (existsSync(beside)) configPath = beside;
   } else if (typeof source === 'string') {
@@ -72,7 +106,7 @@ export function loadVocabulary(source: string | object, options: LoadOptions = {
     root = source;
     text = JSON.stringify(source);
   }
-  const fileHash = createHash('sha256').update(text).digest('hex');
+  fileHash ??= createHash('sha256').update(text).digest('hex');
 
   let config: Json | undefined;
   let configFile = '<config>';
