@@ -72,6 +72,19 @@ function withoutMerges(text: string): string {
   return text;
 }
 
+/** JSON.parse of the text without its merges; on failure the whole text is parsed, so errors are located in it. */
+function parseWithoutMerges(text: string, file: string): unknown {
+  const cut = withoutMerges(text);
+  if (cut !== text) {
+    try {
+      return JSON.parse(cut);
+    } catch {
+      // fall through: locate the error in the file as it is
+    }
+  }
+  return parseJson(text, file);
+}
+
 function isObject(v: unknown): v is Json {
   return v !== null && typeof v === 'object' && !Array.isArray(v);
 }
@@ -96,7 +109,7 @@ export function loadVocabulary(source: string | object, options: LoadOptions = {
     }
     fileHash = createHash('sha256').update(data).digest('hex');
     text = data.toString('utf8');
-    root = parseJson(text.length >= SKIP_MERGES_FROM ? withoutMerges(text) : text, file);
+    root = text.length >= SKIP_MERGES_FROM ? parseWithoutMerges(text, file) : parseJson(text, file);
     const beside = join(dirname(source), 'tokenizer_config.json');
     if (existsSync(beside)) configPath = beside;
   } else if (typeof source === 'string') {
