@@ -28,7 +28,7 @@ export const MAX_NFA_STATES = 100_000;
 /** Largest byte-level DFA (multi-byte characters add intermediate states). */
 export const MAX_BYTE_STATES = 16_384;
 /** Upper bound on NFA states visited while determinising (bounds the time). */
-export const MAX_WORK = 8_000_000;
+export const MAX_WORK = 3_000_000;
 
 /** The automaton of a token class would exceed a limit; `what` says which, in plain words. */
 export class RegexTooLargeError extends Error {
@@ -246,12 +246,14 @@ function pairSurrogates(d: CharDfa): CharDfa {
       if (hi > 0xdfff) out.push(Math.max(lo, 0xe000), hi, to);
       const hlo = Math.max(lo, 0xd800), hhi = Math.min(hi, 0xdbff);
       const next = d.trans[to]!;
-      for (let h = hlo; h <= hhi; h++) {
-        const base = 0x10000 + ((h - 0xd800) << 10);
-        for (let j = 0; j < next.length; j += 3) {
-          const llo = Math.max(next[j]!, 0xdc00), lhi = Math.min(next[j + 1]!, 0xdfff);
-          if (llo <= lhi) out.push(base + llo - 0xdc00, base + lhi - 0xdc00, next[j + 2]!);
-        }
+      if (hlo > hhi) continue;
+      for (let j = 0; j < next.length; j += 3) {
+        const llo = Math.max(next[j]!, 0xdc00), lhi = Math.min(next[j + 1]!, 0xdfff);
+        if (llo > lhi) continue;
+        const base = (h: number) => 0x10000 + ((h - 0xd800) << 10);
+        // every low unit: the high range maps to one contiguous range of code points
+        if (llo === 0xdc00 && lhi === 0xdfff) out.push(base(hlo), base(hhi) + 0x3ff, next[j + 2]!);
+        else for (let h = hlo; h <= hhi; h++) out.push(base(h) + llo - 0xdc00, base(h) + lhi - 0xdc00, next[j + 2]!);
       }
     }
     // sort and merge adjacent ranges with the same target
@@ -328,8 +330,18 @@ function toBytes(d: CharDfa): RawDfa {
   };
   const start = intern([0]);
   for (let i = 1; i < sets.length; i++) {
+    const set = sets[i]!;
+    if (set.length === 1) {
+      // one NFA state (the common case: the character DFA is deterministic): its edges are disjoint
+      const e = edges[set[0]!]!;
+      for (let k = 0; k < e.length; k += 3) {
+        const to = intern([e[k + 2]!]);
+        for (let b = e[k]!; b <= e[k + 1]!; b++) trans[i * 256 + b] = to;
+      }
+      continue;
+    }
     const targets: number[][] = Array.from({ length: 256 }, () => []);
-    for (const s of sets[i]!) {
+    for (const s of set) {
       const e = edges[s]!;
       for (let k = 0; k < e.length; k += 3) for (let b = e[k]!; b <= e[k + 1]!; b++) targets[b]!.push(e[k + 2]!);
     }
@@ -395,9 +407,13 @@ function subtractWords(d: RawDfa, words: readonly Uint8Array[]): RawDfa {
 function finish(d: RawDfa): ByteDfa {
   const n = d.accept.length;
   const rev: number[][] = Array.from({ length: n }, () => []);
-  for (let s = 1; s < n; s++) for (let b = 0; b < 256; b++) {
-    const t = d.trans[s * 256 + b]!;
-    if (t !== 0) rev[t]!.push(s);
+  for (let s = 1; s < n; s++) {
+    let prev = 0;
+    for (let b = 0; b < 256; b++) {
+      const t = d.trans[s * 256 + b]!;
+      if (t !== 0 && t !== prev) rev[t]!.push(s); // one entry per run of equal targets
+      prev = t;
+    }
   }
   const live = new Uint8Array(n);
   const stack: number[] = [];
@@ -432,19 +448,19 @@ function finish(d: RawDfa): ByteDfa {
   const local = new Int32Array(n).fill(0); // original → compact index (0 = dead)
   states.forEach((s, i) => (local[s] = i));
   const m = states.length;
-  // byte equivalence classes: bytes with identical columns
-  const colKey = new Map<string, number>();
+  // byte classes: maximal runs of bytes on which every state moves alike (a valid partition for
+  // minimisation, not necessarily the coarsest)
+  const boundary = new Uint8Array(256);
+  boundary[0] = 1;
+  for (let i = 1; i < m; i++) {
+    const row = states[i]! * 256;
+    for (let b = 1; b < 256; b++) if (!boundary[b] && d.trans[row + b] !== d.trans[row + b - 1]) boundary[b] = 1;
+  }
   const byteClass = new Int32Array(256);
   const classRep: number[] = [];
   for (let b = 0; b < 256; b++) {
-    const key = states.map((s) => (s === 0 ? 0 : local[d.trans[s * 256 + b]!]!)).join(',');
-    let c = colKey.get(key);
-    if (c === undefined) {
-      c = classRep.length;
-      colKey.set(key, c);
-      classRep.push(b);
-    }
-    byteClass[b] = c;
+    if (boundary[b]) classRep.push(b);
+    byteClass[b] = classRep.length - 1;
   }
   const k = classRep.length;
   const delta = new Int32Array(m * k);
@@ -575,9 +591,13 @@ export function withDistances(count: number, trans: Int32Array, accept: Uint8Arr
   const minAccept = new Int32Array(count).fill(0x3fffffff);
   const nextByte = new Int32Array(count).fill(-1);
   const rev: number[][] = Array.from({ length: count }, () => []);
-  for (let s = 1; s < count; s++) for (let b = 0; b < 256; b++) {
-    const t = trans[s * 256 + b]!;
-    if (t !== 0) rev[t]!.push(s * 256 + b);
+  for (let s = 1; s < count; s++) {
+    let prev = -1;
+    for (let b = 0; b < 256; b++) {
+      const t = trans[s * 256 + b]!;
+      if (t !== 0 && t !== prev) rev[t]!.push(s * 256 + b); // one edge per run of equal targets is enough
+      prev = t;
+    }
   }
   const queue: number[] = [];
   for (let s = 1; s < count; s++) if (accept[s]) {
