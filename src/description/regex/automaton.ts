@@ -284,6 +284,18 @@ function tooManyBytes(): never {
   throw new RegexTooLargeError(`its UTF-8 automaton needs more than ${MAX_BYTE_STATES.toLocaleString('en-US')} states`);
 }
 
+/** Do the flat [lo, hi, to] edges cover pairwise disjoint byte ranges? */
+function disjointEdges(e: readonly number[]): boolean {
+  const seen = new Uint8Array(256);
+  for (let k = 0; k < e.length; k += 3) {
+    for (let b = e[k]!; b <= e[k + 1]!; b++) {
+      if (seen[b]) return false;
+      seen[b] = 1;
+    }
+  }
+  return true;
+}
+
 /** Encodes a character DFA as a byte NFA (shared suffix nodes), then determinises it. */
 function toBytes(d: CharDfa): RawDfa {
   const edges: number[][] = d.trans.map(() => []); // flat [lo, hi, to]
@@ -331,9 +343,10 @@ function toBytes(d: CharDfa): RawDfa {
   const start = intern([0]);
   for (let i = 1; i < sets.length; i++) {
     const set = sets[i]!;
-    if (set.length === 1) {
-      // one NFA state (the common case: the character DFA is deterministic): its edges are disjoint
-      const e = edges[set[0]!]!;
+    const single = set.length === 1 ? edges[set[0]!]! : null;
+    if (single !== null && disjointEdges(single)) {
+      // one NFA state whose edges do not share a byte (two character ranges may share a lead byte)
+      const e = single;
       for (let k = 0; k < e.length; k += 3) {
         const to = intern([e[k + 2]!]);
         for (let b = e[k]!; b <= e[k + 1]!; b++) trans[i * 256 + b] = to;
