@@ -1,6 +1,7 @@
 #!/usr/bin/env node
-// Entry shim for the `treewright` command: registers the TypeScript loader (tsx) so the
-// sources run without a build step, then hands over to main.ts.
+// Development entry of the `treewright` command: registers the TypeScript loader (tsx) so the
+// sources run without a build step, then hands over to main.ts. The package's `bin` is the
+// compiled dist/cli/bin.js (src/cli/bin.ts).
 import { register } from 'tsx/esm/api';
 register();
 const { main } = await import('./main.ts');

@@ -24,7 +24,8 @@ import { readFileSync } from 'node:fs';
 import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { isDeepStrictEqual } from 'node:util';
-import Database from 'better-sqlite3';
+import type Database from 'better-sqlite3';
+import { sqlite } from '../util/optional.ts';
 import { type Example, type Form, Generator, Rng, loadWorld, templateName } from './generate.ts';
 import { loadGrammar } from '../description/index.ts';
 import type { Grammar, NameBindings } from '../description/ir.ts';
@@ -93,7 +94,7 @@ export function demoDatabasePath(): string {
 
 /** The demo database, in memory. */
 export function openDemoDatabase(): Database.Database {
-  const db = new Database(':memory:');
+  const db = new (sqlite())(':memory:');
   db.exec(readFileSync(demoDatabasePath(), 'utf8'));
   return db;
 }

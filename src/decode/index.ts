@@ -3,7 +3,8 @@
  * (width, length penalty, early stop) or seeded nucleus sampling, each constrained by a
  * TokenConstraint (one persistent state per hypothesis; masks set disallowed logits to −Infinity;
  * the budget is the number of tokens left) or unconstrained; plus a logits processor that applies
- * the same masks inside @huggingface/transformers' own generate() (hook.ts).
+ * the same masks inside @huggingface/transformers' own generate() (hook.ts; not re-exported here, its
+ * own package entry `treewright/transformers`, so that importing decode/ never loads transformers.js).
  *
  * Produces: `DecodeResult` {text, tokens, tokenTexts, logprobs, finished, score, model_ms, mask_ms,
  * total_ms}; `generate()` adds {tree, parses, well_typed, parse_error} when given a grammar.
@@ -38,7 +39,6 @@ import { warmUp } from './warm.ts';
 import type { DecodeOptions, DecodeResult } from './types.ts';
 
 export { decode, decodeStream, textOf } from './search.ts';
-export { TreewrightMaskHook, type HookOptions } from './hook.ts';
 export type { DecodeOptions, DecodeResult, StreamToken, Strategy } from './types.ts';
 
 export interface GenerateOptions extends DecodeOptions {

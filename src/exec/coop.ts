@@ -13,7 +13,7 @@
  * - measures: the numeric columns (hectares, tonnes, …), defined on their class only.
  * Cost: one pass over each table; the demo has under 300 rows.
  */
-import Database from 'better-sqlite3';
+import { sqlite } from '../util/optional.ts';
 import { CLASSES, MEASURES, RELATIONS, SUBCLASSES, type EntityClass, constantOf } from './lexicon.ts';
 import { buildSqliteFileFrom } from './database.ts';
 import { makeFactBase, type FactBase } from './facts.ts';
@@ -23,7 +23,7 @@ type Row = Record<string, unknown> & { id: number };
 
 /** Reads an existing cooperative database (opened read-only) into a fact base. */
 export function factsFromDatabase(dbPath: string): FactBase {
-  const db = new Database(dbPath, { readonly: true, fileMustExist: true });
+  const db = new (sqlite())(dbPath, { readonly: true, fileMustExist: true });
   try {
     const rows = new Map<EntityClass, Row[]>();
     const nameOf = new Map<EntityClass, Map<number, string>>();

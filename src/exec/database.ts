@@ -16,7 +16,8 @@
  * Limits: a script's statements run without a time limit (a script is the operator's or user's
  * own file, never a request body); the whole database is held in memory while it is built.
  */
-import Database from 'better-sqlite3';
+import type Database from 'better-sqlite3';
+import { sqlite } from '../util/optional.ts';
 import { chmodSync, closeSync, existsSync, mkdirSync, mkdtempSync, openSync, readFileSync, readSync, renameSync, rmSync, statSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { basename, dirname, join } from 'node:path';
@@ -137,7 +138,7 @@ export function runSqlScript(db: Database.Database, script: string, name = 'the 
 
 /** The script's database as bytes (built in memory; see runSqlScript). */
 function buildInMemory(script: string, scriptName: string): Buffer {
-  const db = new Database(':memory:');
+  const db = new (sqlite())(':memory:');
   try {
     runSqlScript(db, script, scriptName);
     return db.serialize();

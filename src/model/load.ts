@@ -4,8 +4,9 @@
  */
 import { existsSync, readFileSync, statSync } from 'node:fs';
 import { join, resolve } from 'node:path';
-import * as ort from 'onnxruntime-node';
-import { AutoTokenizer, type PreTrainedTokenizer } from '@huggingface/transformers';
+import type * as ort from 'onnxruntime-node';
+import type { PreTrainedTokenizer } from '@huggingface/transformers';
+import { MissingPackageError, onnxRuntime } from '../util/optional.ts';
 import { loadVocabulary, type Vocabulary } from '../vocab/index.ts';
 import { InputTooLong, ModelError, OutputTooLong, errors } from './errors.ts';
 import { DecoderRun } from './run.ts';
@@ -115,6 +116,7 @@ function readConfig(file: string): ModelConfig {
 
 async function session(file: string, threads: number | undefined, spinning: boolean): Promise<ort.InferenceSession> {
   if (!existsSync(file)) throw errors.missingFile(file);
+  const runtime = onnxRuntime(); // a MissingPackageError of its own when onnxruntime-node is absent
   try {
     const opts: ort.InferenceSession.SessionOptions = { graphOptimizationLevel: 'all' };
     // onnxruntime session config keys session.intra_op.allow_spinning / session.inter_op.allow_spinning
@@ -125,7 +127,7 @@ async function session(file: string, threads: number | undefined, spinning: bool
       opts.intraOpNumThreads = threads;
       opts.interOpNumThreads = 1;
     }
-    return await ort.InferenceSession.create(file, opts);
+    return await runtime.InferenceSession.create(file, opts);
   } catch (e) {
     throw errors.badOnnx(file, (e as Error).message.replace(/\s+/g, ' ').trim());
   }
@@ -271,6 +273,13 @@ export async function loadModel(dir: string, options: LoadModelOptions = {}): Pr
   }
   if (vocabulary.vocabSize !== logitsDim) throw errors.vocabMismatch(tokFile, vocabulary.vocabSize, decFile, logitsDim);
 
+  let AutoTokenizer: typeof import('@huggingface/transformers').AutoTokenizer;
+  try {
+    ({ AutoTokenizer } = await import('@huggingface/transformers'));
+  } catch (e) {
+    if ((e as NodeJS.ErrnoException).code === 'ERR_MODULE_NOT_FOUND') throw new MissingPackageError('@huggingface/transformers', "reading a model's tokenizer");
+    throw e;
+  }
   let tokenizer: PreTrainedTokenizer;
   try {
     // an absolute folder path is read directly (no hub lookup); local_files_only keeps it offline

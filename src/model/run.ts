@@ -8,7 +8,8 @@
  * Without a merged decoder (decoder_model.onnx only) each step re-runs the decoder on every row's
  * whole prefix — O(T²) per sequence instead of O(T).
  */
-import * as ort from 'onnxruntime-node';
+import type * as ort from 'onnxruntime-node';
+import { onnxRuntime } from '../util/optional.ts';
 
 /** What a run needs of a loaded model (Seq2SeqModel in load.ts is one). */
 export interface RunnableModel {
@@ -23,7 +24,7 @@ export interface RunnableModel {
 function int64(values: ArrayLike<number>, dims: readonly number[]): ort.Tensor {
   const a = new BigInt64Array(values.length);
   for (let i = 0; i < values.length; i++) a[i] = BigInt(values[i]);
-  return new ort.Tensor('int64', a, dims);
+  return new (onnxRuntime().Tensor)('int64', a, dims);
 }
 
 /** `rows` copies of a tensor whose first dimension is 1. */
@@ -33,7 +34,7 @@ function tile(t: ort.Tensor, rows: number): ort.Tensor {
   const n = src.length;
   const out = src instanceof Float32Array ? new Float32Array(n * rows) : new BigInt64Array(n * rows);
   for (let r = 0; r < rows; r++) out.set(src as never, r * n);
-  return new ort.Tensor(t.type as 'float32', out as Float32Array, [rows, ...t.dims.slice(1)]);
+  return new (onnxRuntime().Tensor)(t.type as 'float32', out as Float32Array, [rows, ...t.dims.slice(1)]);
 }
 
 /** Rows `parents[0]`, `parents[1]`, … of a float tensor (first dimension = batch). */
@@ -42,7 +43,7 @@ function gather(t: ort.Tensor, parents: ArrayLike<number>): ort.Tensor {
   const per = src.length / t.dims[0];
   const out = new Float32Array(per * parents.length);
   for (let r = 0; r < parents.length; r++) out.set(src.subarray(parents[r] * per, (parents[r] + 1) * per), r * per);
-  return new ort.Tensor('float32', out, [parents.length, ...t.dims.slice(1)]);
+  return new (onnxRuntime().Tensor)('float32', out, [parents.length, ...t.dims.slice(1)]);
 }
 
 function isIdentity(parents: ArrayLike<number>, rows: number): boolean {
@@ -99,7 +100,7 @@ export class DecoderRun {
         const keep = L - n;
         const out = new Float32Array(B * H * keep * K);
         for (let bh = 0; bh < B * H; bh++) out.set(src.subarray(bh * L * K, bh * L * K + keep * K), bh * keep * K);
-        this.past[name] = new ort.Tensor('float32', out, [B, H, keep, K]);
+        this.past[name] = new (onnxRuntime().Tensor)('float32', out, [B, H, keep, K]);
       }
     } else {
       for (const p of this.prefixes) {
@@ -154,7 +155,7 @@ export class DecoderRun {
         for (const meta of dec.inputMetadata) {
           if (!meta.name.startsWith('past_key_values.') || !meta.isTensor) continue;
           const shape = meta.shape.map((d) => (typeof d === 'number' ? d : d === 'batch_size' ? rows : 0));
-          feeds[meta.name] = new ort.Tensor('float32', new Float32Array(0), shape);
+          feeds[meta.name] = new (onnxRuntime().Tensor)('float32', new Float32Array(0), shape);
         }
       } else {
         const reorder = parents !== null && !isIdentity(parents, this.rows);
@@ -166,7 +167,7 @@ export class DecoderRun {
         feeds.encoder_attention_mask = tile(this.mask, rows);
       }
       feeds.input_ids = int64(tokens, [rows, T]);
-      if (dec.inputNames.includes('use_cache_branch')) feeds.use_cache_branch = new ort.Tensor('bool', [!first], [1]);
+      if (dec.inputNames.includes('use_cache_branch')) feeds.use_cache_branch = new (onnxRuntime().Tensor)('bool', [!first], [1]);
       const picked: Record<string, ort.Tensor> = {};
       for (const n of dec.inputNames) picked[n] = feeds[n];
       const out = await dec.run(picked);

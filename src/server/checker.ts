@@ -8,7 +8,9 @@ import { Worker } from 'node:worker_threads';
 import type { Diagnostic } from '../description/index.ts';
 import type { Grammar } from '../description/ir.ts';
 
-const ENTRY = new URL('./check-worker.mjs', import.meta.url);
+// From the sources (src/, run through tsx) the worker needs the loader shim check-worker.mjs; the
+// compiled package (dist/) starts the compiled worker directly.
+const ENTRY = import.meta.url.endsWith('.ts') ? new URL('./check-worker.mjs', import.meta.url) : new URL('./check-worker.js', import.meta.url);
 
 export class CheckTimeout extends Error {}
 

@@ -13,9 +13,10 @@
  * Object forms need the grammar to be read (they mean different things for different sets).
  */
 import { readFileSync } from 'node:fs';
-import Database from 'better-sqlite3';
+import type Database from 'better-sqlite3';
 import type { Grammar, NameBindings, NameFacts, NameSet } from '../description/ir.ts';
 import { NAME_FACTS } from '../description/ir.ts';
+import { sqlite } from '../util/optional.ts';
 import { bindNames } from './bound.ts';
 import { grammarInfo } from './info.ts';
 import { nameSpellingProblem } from './lexeme.ts';
@@ -189,9 +190,10 @@ export function checkNames(grammar: Grammar, names: NameBindings, source: string
  * `sqlite_` tables are skipped. A database without tables is an error (nothing could be queried).
  */
 export function namesFromDatabase(path: string): NameBindings & { Table: string[]; Column: string[] } {
+  const SqliteDatabase = sqlite(); // outside the try: a missing package is its own error
   let db: Database.Database;
   try {
-    db = new Database(path, { readonly: true, fileMustExist: true });
+    db = new SqliteDatabase(path, { readonly: true, fileMustExist: true });
   } catch (err) {
     throw new NamesError(`${path}: cannot open the database: ${(err as Error).message}`);
   }

@@ -8,7 +8,8 @@ import { AutoModelForSeq2SeqLM, AutoTokenizer, env, type PreTrainedModel, type P
 import { afterAll, beforeAll, describe, expect, it, vi } from 'vitest';
 import { loadGrammar } from '../../src/description/index.ts';
 import type { Grammar, NameBindings } from '../../src/description/ir.ts';
-import { TreewrightMaskHook, generate, maskEngine } from '../../src/decode/index.ts';
+import { generate, maskEngine } from '../../src/decode/index.ts';
+import { TreewrightMaskHook } from '../../src/decode/hook.ts';
 import { buildCoop } from '../../src/exec/coop.ts';
 import { factNames } from '../../src/exec/facts.ts';
 import { loadModel, type Seq2SeqModel } from '../../src/model/index.ts';

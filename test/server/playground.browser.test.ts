@@ -9,10 +9,10 @@ import Database from 'better-sqlite3';
 import { chromium, type BrowserContext, type Page } from 'playwright-core';
 import type { FastifyInstance } from 'fastify';
 import { buildServer, Registry } from '../../src/server/index.ts';
+import { BROWSER_TESTS, CHROMIUM } from '../browser.ts';
 
 vi.setConfig({ testTimeout: 120_000, hookTimeout: 120_000 });
 
-const CHROMIUM = '/usr/bin/chromium';
 // the demo model when its ONNX export is present (a trained model: realistic output), else the fixture
 const DEMO = 'models/coop';
 const MODEL = existsSync(join(DEMO, 'onnx')) && existsSync(join(DEMO, 'config.json')) ? DEMO : 'test/fixtures/tiny-seq2seq';
@@ -27,6 +27,7 @@ const requests: string[] = [];
 const pageErrors: string[] = [];
 
 beforeAll(async () => {
+  if (!BROWSER_TESTS) return;
   registry = await Registry.open({ models: [MODEL], threads: 1 });
   app = await buildServer(registry);
   await app.listen({ host: '127.0.0.1', port: 0 });
@@ -51,7 +52,7 @@ afterAll(async () => {
   rmSync(dir, { recursive: true, force: true });
 });
 
-describe('playground page', () => {
+describe.skipIf(!BROWSER_TESTS)('playground page', () => {
   it('starts on the first listed grammar, with a placeholder question the demo data can answer', async () => {
     const options = await page.$$eval('#grammar option', (os) => os.map((o) => (o as HTMLOptionElement).value));
     expect(options.length).toBeGreaterThan(1);

@@ -28,9 +28,12 @@ import { loadVocabulary } from '../../vocab/index.ts';
 import { runCommand, UsageError, type RegisterCommand } from '../command.ts';
 import { FIGURES_FILE, machine, writeFiguresSection } from '../figures.ts';
 import { decodeBenchTable, runDecodeBench } from './bench-decode.ts';
+import { benchStartup, startupTable, writeStartupFigures } from './bench-startup.ts';
 import { integer, loadGrammarFile, maskCacheDir, opt, withInputs } from '../options.ts';
 
 const ROOT = fileURLToPath(new URL('../../../', import.meta.url));
+/** This command line's own entry: the tsx shim from the sources, the compiled bin from the package. */
+const CLI_ENTRY = fileURLToPath(new URL(import.meta.url.endsWith('.ts') ? '../treewright.mjs' : '../bin.js', import.meta.url));
 
 export interface BenchResult {
   grammar: string;
@@ -183,7 +186,7 @@ export async function runBench(grammar: Grammar, tokenizerPath: string, names: N
   writeFileSync(replayFile, JSON.stringify({ names, paths, maxLen: 512 } satisfies Replay));
   const out = execFileSync(
     process.execPath,
-    [join(ROOT, 'src/cli/treewright.mjs'), 'bench', '--replay', replayFile, '--grammar', grammar.file, '--tokenizer', tokenizerPath, '--cache', cacheDir, '--json'],
+    [CLI_ENTRY, 'bench', '--replay', replayFile, '--grammar', grammar.file, '--tokenizer', tokenizerPath, '--cache', cacheDir, '--json'],
     { encoding: 'utf8', stdio: ['ignore', 'pipe', 'inherit'], maxBuffer: 1 << 26 },
   );
   const child = JSON.parse(out);
@@ -254,6 +257,8 @@ interface Flags {
   threads?: number;
   spinning?: boolean;
   oneCallPerToken?: boolean;
+  startup?: boolean;
+  runs: number;
 }
 
 function figuresFile(flag: string | true | undefined): string | null {
@@ -276,7 +281,7 @@ function benchAll(opts: Flags, cache: string | false): void {
   const results: BenchResult[] = [];
   for (const tok of tokenizers) {
     for (const g of ['sql', 'json']) {
-      const args = [join(ROOT, 'src/cli/treewright.mjs'), 'bench', '--grammar', g, '--tokenizer', tok, '--programs', String(opts.programs), '--seed', String(opts.seed), '--json'];
+      const args = [CLI_ENTRY, 'bench', '--grammar', g, '--tokenizer', tok, '--programs', String(opts.programs), '--seed', String(opts.seed), '--json'];
       if (cache === false) args.push('--no-cache');
       else args.push('--cache', cache);
       const out = execFileSync(process.execPath, args, { encoding: 'utf8', stdio: ['ignore', 'pipe', 'inherit'], maxBuffer: 1 << 26 });
@@ -303,6 +308,8 @@ export const register: RegisterCommand = (program: Command, setExit) => {
     .addOption(opt.grammar('optional'))
     .addOption(opt.tokenizer('optional'))
     .option('--all', 'SQL and JSON × llama3 (and × models/coop/tokenizer.json when present); prints a table')
+    .option('--startup', 'instead: the npm tarball size and the start-up time of `--help` and a cold `generate`, against `node -e 0`')
+    .addOption(new Option('--runs <n>', 'with --startup: runs per command (median reported)').argParser(integer(1)).default(5))
     .addOption(opt.names())
     .addOption(opt.db())
     .addOption(new Option('--programs <n>', 'sampled programs (decoding paths)').argParser(integer(1)).default(200))
@@ -329,6 +336,13 @@ export const register: RegisterCommand = (program: Command, setExit) => {
           const grammar = loadGrammarFile(opts.grammar!);
           const replay = JSON.parse(readFileSync(opts.replay, 'utf8')) as Replay;
           process.stdout.write(JSON.stringify(replayPaths(grammar, opts.tokenizer!, replay, cache as string)) + '\n');
+          return;
+        }
+        if (opts.startup) {
+          const r = benchStartup(ROOT, opts.runs);
+          const file = figuresFile(opts.writeFigures);
+          if (file !== null) writeStartupFigures(r, commandLine(), file);
+          process.stdout.write((opts.json ? JSON.stringify(r) : startupTable(r)) + '\n');
           return;
         }
         if (opts.all) return benchAll(opts, cache);

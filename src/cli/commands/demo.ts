@@ -7,7 +7,7 @@
  * The grammar side: check summaries, sampled programs (SQL with names from the demo database),
  * one invented program parsed to a tree, printed back and run, and a located error for a broken one.
  */
-import Database from 'better-sqlite3';
+import { sqlite } from '../../util/optional.ts';
 import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import type { Command } from 'commander';
@@ -76,7 +76,7 @@ const checkSection: DemoSection = {
 
 /** 'accepted', or SQLite's reason for rejecting the statement. */
 function sqliteVerdict(database: string, text: string): string {
-  const db = new Database(database, { readonly: true, fileMustExist: true });
+  const db = new (sqlite())(database, { readonly: true, fileMustExist: true });
   try {
     db.prepare(text);
     return 'accepted';
@@ -127,7 +127,7 @@ const parseSection: DemoSection = {
     const printed = printTree(sql, tree);
     out('');
     out(labelled('printed', printed));
-    const db = new Database(ctx.database, { readonly: true, fileMustExist: true });
+    const db = new (sqlite())(ctx.database, { readonly: true, fileMustExist: true });
     try {
       const rows = db.prepare(printed).all() as Record<string, unknown>[];
       out('');
@@ -176,7 +176,7 @@ export async function runDemo(out: (line: string) => void): Promise<number> {
   try {
     const database = built.path;
     const schema = new Map<string, string[]>();
-    const db = new Database(database, { readonly: true });
+    const db = new (sqlite())(database, { readonly: true });
     for (const t of db.prepare("SELECT name FROM sqlite_schema WHERE type = 'table' ORDER BY rowid").pluck().all() as string[]) {
       schema.set(t, db.prepare('SELECT name FROM pragma_table_info(?) ORDER BY cid').pluck().all(t) as string[]);
     }

@@ -1,0 +1,42 @@
+// Builds the package: TypeScript sources (src/) → ES modules with .d.ts types (dist/), by
+// TypeScript's own emit (tsconfig.build.json; relative `.ts` imports rewritten to `.js`), plus the
+// files tsc does not copy: plain JavaScript modules started as child processes and the server's
+// page. Run by `npm install` in the repository (prepare) and before `npm pack`.
+import { spawnSync } from 'node:child_process';
+import { chmodSync, cpSync, readdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { createRequire } from 'node:module';
+import { dirname, join } from 'node:path';
+import { fileURLToPath } from 'node:url';
+
+const root = join(dirname(fileURLToPath(import.meta.url)), '..');
+const dist = join(root, 'dist');
+const require = createRequire(import.meta.url);
+
+rmSync(dist, { recursive: true, force: true });
+// all output on stderr: `npm pack --json` prints its JSON on stdout after this script ran
+const tsc = spawnSync(process.execPath, [require.resolve('typescript/bin/tsc'), '-p', join(root, 'tsconfig.build.json')], { stdio: ['ignore', 2, 2] });
+if (tsc.status !== 0) {
+  console.error('build: tsc failed');
+  process.exit(tsc.status ?? 1);
+}
+
+// Declarations keep the sources' `.ts` specifiers; a consumer's compiler expects `.js` ones.
+const relativeTs = /((?:from|import)\s*\(?\s*['"])(\.{1,2}\/[^'"]*?)\.ts(['"])/g;
+function rewriteDeclarations(dir) {
+  for (const e of readdirSync(dir, { withFileTypes: true })) {
+    const p = join(dir, e.name);
+    if (e.isDirectory()) rewriteDeclarations(p);
+    else if (e.name.endsWith('.d.ts')) {
+      const text = readFileSync(p, 'utf8');
+      const out = text.replace(relativeTs, '$1$2.js$3');
+      if (out !== text) writeFileSync(p, out);
+    }
+  }
+}
+rewriteDeclarations(dist);
+
+// Not TypeScript: the SQL executor's child process and the playground page.
+cpSync(join(root, 'src', 'exec', 'sql-child.mjs'), join(dist, 'exec', 'sql-child.mjs'));
+cpSync(join(root, 'src', 'server', 'page'), join(dist, 'server', 'page'), { recursive: true });
+chmodSync(join(dist, 'cli', 'bin.js'), 0o755);
+console.error('build: dist/ written');
