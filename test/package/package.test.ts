@@ -145,7 +145,7 @@ try { namesFromDatabase('x.db'); } catch (e) { console.log(e.name + ': ' + e.mes
   it('a TypeScript consumer type-checks against the shipped declarations (strict, NodeNext)', () => {
     // skipLibCheck: the declarations of the model and SQLite parts name the optional packages' types
     // (absent here); the consumer's own code is still checked against the real API types — the
-    // @ts-expect-error lines fail the check if those types had degraded to \`any\`.
+    // expect-error directives fail the check if those types had degraded to `any`.
     writeFileSync(join(dir, 'consumer.ts'), `import { compileMasks, loadGrammar, loadVocabulary, type Grammar, type TokenConstraint } from 'treewright';
 const grammar: Grammar = loadGrammar('g.twg');
 const constraint: TokenConstraint = compileMasks(grammar, loadVocabulary('t.json')).bind({});
