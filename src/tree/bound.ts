@@ -18,7 +18,17 @@
  */
 import type { Grammar, KindFamily, NameBindings, NameSet } from '../description/ir.ts';
 import { NAME_FACTS } from '../description/ir.ts';
-import { NamesError } from './names.ts';
+
+/**
+ * A names file or database that cannot be used; `message` names the file and the JSON path
+ * (defined here, not in names.ts, so that names.ts → bound.ts stays a one-way import).
+ */
+export class NamesError extends Error {
+  constructor(message: string) {
+    super(message);
+    this.name = 'NamesError';
+  }
+}
 
 /** One name set's bound members, owners and kinds. Member id = index in `members`. */
 export interface BoundSet {

@@ -17,18 +17,13 @@ import type Database from 'better-sqlite3';
 import type { Grammar, NameBindings, NameFacts, NameSet } from '../description/ir.ts';
 import { NAME_FACTS } from '../description/ir.ts';
 import { sqlite } from '../util/optional.ts';
-import { bindNames } from './bound.ts';
+import { bindNames, NamesError } from './bound.ts';
+
+export { NamesError };
 import { grammarInfo } from './info.ts';
 import { nameSpellingProblem } from './lexeme.ts';
 import { pathKey, show } from '../util/json.ts';
 
-/** A names file or database that cannot be used; `message` names the file and the JSON path. */
-export class NamesError extends Error {
-  constructor(message: string) {
-    super(message);
-    this.name = 'NamesError';
-  }
-}
 
 /**
  * Reads a names file (see the header). Errors: `FILE: $.Set[2]: expected a string, got 3`. Without

@@ -18,6 +18,7 @@
  *      6 eval         decode + exec → metrics and reports
  *        dataset      tree sampler + exec's demo lexicon → training data
  *      7 server       entry point (HTTP)
+ *        queue        evaluation jobs over a Redis queue (eval's runs, spread over workers)
  *      8 cli          entry point (command line)
  *      9 index.ts     the library's public API
  * 2. No import cycle between files (a type-only cycle counts too: it ties the files' layouts).
@@ -35,7 +36,7 @@ const LEVELS: readonly (readonly string[])[] = [
   ['decode'],
   ['exec'],
   ['eval', 'dataset'],
-  ['server'],
+  ['server', 'queue'],
   ['cli'],
   ['index.ts'],
 ];
