@@ -26,7 +26,7 @@
  */
 import type { Constructor, Field, Grammar, NameBindings, Span } from '../description/ir.ts';
 import { bindNames, meetKinds, type BoundNames, type BoundSet } from './bound.ts';
-import type { Tree, TreeValue } from './validate.ts';
+import type { Tree, TreeValue } from './node.ts';
 
 export interface ResolveIssue {
   /** JSON path of the offending value */

@@ -13,11 +13,9 @@ import { resolveTree } from './resolve.ts';
 import { jsonDepthProblem, MAX_JSON_DEPTH, tooDeepMessage } from '../util/depth.ts';
 import { pathKey, show } from '../util/json.ts';
 
-export type TreeValue = Tree | string | number | null | readonly TreeValue[];
-export interface Tree {
-  readonly kind: string;
-  readonly [field: string]: TreeValue;
-}
+import type { Tree, TreeValue } from './node.ts';
+
+export type { Tree, TreeValue };
 
 /** The first problem found: a JSON path into the checked value and what was expected there. */
 export interface TreeIssue {
