@@ -126,6 +126,12 @@ export class Automaton {
   readonly scopes: ScopePlan;
   /** per option: the push positions i (1-based: the i-th nonterminal entered) that open a scope, or null */
   readonly optOpens: readonly (Int32Array | null)[];
+  /**
+   * per option: 1 when its effect on name scopes depends on the scope state — it reads a role name,
+   * opens a scope, or changes how many introductions the position still allows (e.g. WHERE ends a
+   * query's FROM/JOIN list) — so kept masks leave it to the live walk (masks/kept.ts)
+   */
+  readonly optSensitive: Uint8Array;
 
   /** `dfas`: precompiled class DFAs (by class index), e.g. from the mask cache. */
   constructor(readonly grammar: Grammar, dfas?: readonly ByteDfa[]) {
@@ -155,6 +161,30 @@ export class Automaton {
       }
       return out.length === 0 ? null : Int32Array.from(out);
     });
+    this.optSensitive = new Uint8Array(this.optTerm.length);
+    if (this.scopes.active) {
+      const plan = this.scopes;
+      const CAP = 3;
+      for (let n = 0; n + 1 < this.optStart.length; n++) {
+        for (let o = this.optStart[n]; o < this.optStart[n + 1]; o++) {
+          const target = this.optTarget[o];
+          const push = this.optPush[o];
+          let sens = plan.role[target] !== 0 || this.optOpens[o] !== null;
+          for (let sl = 0; sl < plan.introSets.length && !sens; sl++) {
+            const mi = plan.minIntro[sl];
+            const ma = plan.maxIntro[sl];
+            let lo = mi[target];
+            let hi = ma[target];
+            for (let j = 0; j < push.length; j++) {
+              lo += mi[push[j]];
+              hi += ma[push[j]];
+            }
+            if (lo !== mi[n] || Math.min(hi, CAP) !== Math.min(ma[n], CAP)) sens = true;
+          }
+          if (sens) this.optSensitive[o] = 1;
+        }
+      }
+    }
   }
 
   /**
@@ -467,6 +497,11 @@ export class AutomatonInstance {
     if (res === null) return 0;
     const a = this.automaton;
     return this.scopes!.penaltyAfter(res, a.optTarget[o], a.optPush[o], frames);
+  }
+
+  /** An upper bound on the penalty of any position in scope state `res` (kept masks use it); 0 without scopes. */
+  penaltyBound(res: Res | null): number {
+    return res === null ? 0 : this.scopes!.penaltyBound(res);
   }
 
   /** Penalty (bytes) of the scopes at a BETWEEN position; 0 without scopes. */

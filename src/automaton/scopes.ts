@@ -219,6 +219,8 @@ export class ScopeBinding {
   private readonly distK: (readonly [Int32Array, Int32Array])[];
   /** per slot: an upper bound on the cost of one more introduction beyond the second (loops) */
   private readonly cycle: Int32Array;
+  /** per slot: the largest marginal cost of one more introduction anywhere (d1 − d0, d2 − d1, cycle) */
+  private readonly marginal: Int32Array;
   private readonly dist0: Int32Array;
 
   constructor(
@@ -298,6 +300,31 @@ export class ScopeBinding {
       for (let n = 0; n < d1.length; n++) if (ma[n] >= CAP && d1[n] < INF && d2[n] < INF) c = Math.max(c, d2[n] - d1[n]);
       return c;
     }));
+    this.marginal = Int32Array.from(plan.introSets.map((_, slot) => {
+      const [d1, d2] = this.distK[slot];
+      let c = this.cycle[slot];
+      for (let n = 0; n < d1.length; n++) {
+        if (dist0[n] < INF && d1[n] < INF) c = Math.max(c, d1[n] - dist0[n]);
+        if (d1[n] < INF && d2[n] < INF) c = Math.max(c, d2[n] - d1[n]);
+      }
+      return c;
+    }));
+  }
+
+  /**
+   * An upper bound on `penaltyAt` over every position while the scopes are in state `res`: per scope
+   * and slot, need × the largest marginal cost of one more introduction (d1 − d0, d2 − d1, cycle).
+   */
+  penaltyBound(res: Res): number {
+    let total = 0;
+    const k = this.plan.introSets.length;
+    for (let rec: ScopeRec | null = res.scope; rec !== null; rec = rec.parent) {
+      for (let s = 0; s < k; s++) {
+        const m = this.needOf(rec, s);
+        if (m > 0 && m < MANY) total += m * this.marginal[s];
+      }
+    }
+    return total;
   }
 
   /** dist1 / dist2 of one entered set (see `distK`): the dist0 recurrence with a counter. */

@@ -60,9 +60,9 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
     this.eosIds = vocab.eosIds;
     this.walker = new TrieWalker(pda, tables, classes, vocab);
     const variables = pda.automaton.rtn.terminals.some((t) => t.kind === 'newvar' || t.kind === 'boundvar');
-    // name scopes: kept masks would bake in names and scope-closing keywords that depend on
-    // the scope state, so those grammars walk every mask (see docs/design/scope-masks.md)
-    this.kept = variables || pda.scopes !== null ? null : new KeptMasks(this.walker);
+    // name scopes: kept masks leave out the options whose effect depends on the scope state and
+    // the walk takes them live (kept.ts, docs/design/scope-masks.md)
+    this.kept = variables ? null : new KeptMasks(this.walker);
     this.walker.kept = this.kept;
     this.live = new WalkContext(tables, true);
   }

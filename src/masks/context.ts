@@ -29,6 +29,18 @@ export class WalkContext {
    * set per thread, replaced while a walk continues inside an option that changes it, restored after
    */
   res: Res | null = null;
+  /**
+   * Scope-sensitive options (Automaton.optSensitive) in kept masks: 0 no deferral; 1 (keep
+   * context) skip them at the kept position's own level — the live walk takes them — and flag
+   * the kept mask unusable when one starts anywhere else; 2 (live) walk only them at that level.
+   */
+  defer = 0;
+  /** the walk is still at the kept position's own level (no option started yet) */
+  origin = false;
+  /** the frames of the kept position's own level (SENTINEL while keeping) */
+  deferFrames: unknown = null;
+  /** keep context: a scope-sensitive option started away from the position's own level */
+  unkeepable = false;
   /** keep context, sub-local walks: marked token ids are appended here instead of set in `mask` */
   collect: number[] | null = null;
   /** keep context: the trie nodes where the stand-in frame was popped */
@@ -58,9 +70,13 @@ export class WalkContext {
   }
 
   /** Keep context: starts a kept-mask computation into `mask` (or into `collect`, when given). */
-  beginKept(mask: Uint32Array, collect: number[] | null): void {
+  beginKept(mask: Uint32Array, collect: number[] | null, deferFrames: unknown = null, scopes = false): void {
     this.mask = mask;
     this.collect = collect;
+    this.defer = scopes ? 1 : 0;
+    this.origin = true;
+    this.deferFrames = deferFrames;
+    this.unkeepable = false;
     this.lim = INF;
     this.rootPrevWord = false;
     this.maxSeen = 0;

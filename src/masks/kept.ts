@@ -33,6 +33,8 @@ interface LocalMask {
   readonly ids: Uint32Array | null;
   readonly maxDist: number;
   readonly pops: Uint32Array;
+  /** a scope-sensitive option starts below the position's own level: walk it live instead */
+  readonly unkeepable: boolean;
 }
 
 interface LexLocal {
@@ -43,12 +45,14 @@ interface LexLocal {
   readonly maxDist: number;
   readonly popsLex: Uint32Array;
   readonly popsRoot: Uint32Array;
+  readonly unkeepable: boolean;
 }
 
 interface SubLocal {
   readonly ids: Uint32Array;
   readonly maxDist: number;
   readonly pops: Uint32Array;
+  readonly unkeepable: boolean;
 }
 
 const NO_POPS = new Uint32Array(0);
@@ -90,32 +94,44 @@ export class KeptMasks implements KeptMaskSource {
 
   // ---- use (live context) ----
 
+  // With name scopes (ctx.res set) a kept mask leaves out the scope-sensitive options of the
+  // position's own level (Automaton.optSensitive): they are walked live after it (walkDeferred);
+  // a mask where such an option starts elsewhere is not used; distances add the scopes' penalty
+  // bound (pending references), so every kept token still fits the budget.
+
   between(ctx: WalkContext, node: number, frames: Frame | null): boolean {
     const local = this.localMask(node);
-    if (local.maxDist + (frames === null ? 0 : frames.rest) > ctx.lim) return false;
+    if (local.unkeepable || local.maxDist + (frames === null ? 0 : frames.rest) + this.pda.penaltyBound(ctx.res) > ctx.lim) return false;
     ctx.orPacked(local.bits, local.ids, ctx.rootPrevWord);
     // after the program's end only spaces follow: the local mask already has them
     if (frames !== null) this.resumeAtRoot(ctx, local.pops, frames);
+    if (ctx.res !== null) this.walker.walkDeferred(ctx, 0, node, frames);
     return true;
   }
 
   lexeme(ctx: WalkContext, tables: ClassTables, node: number, d: number, frames: Frame | null): boolean {
     const local = this.lexLocal(tables, node, d);
-    if (local.maxDist + (frames === null ? 0 : frames.rest) > ctx.lim) return false;
+    if (local.unkeepable || local.maxDist + (frames === null ? 0 : frames.rest) + this.pda.penaltyBound(ctx.res) > ctx.lim) return false;
     ctx.orPacked(local.bits, local.ids, false);
     if (local.rootBits !== null) ctx.orPacked(local.rootBits, local.rootIds, ctx.rootPrevWord);
     if (frames !== null) {
       this.resumeBelow(ctx, local.popsLex, frames);
       this.resumeAtRoot(ctx, local.popsRoot, frames);
     }
+    if (ctx.res !== null) {
+      const ex = tables.exits[d];
+      for (let i = 0; i < ex.length; i++) this.walker.walkDeferred(ctx, ex[i], node, frames);
+      if (local.rootBits !== null) this.walker.walkDeferred(ctx, 0, node, frames);
+    }
     return true;
   }
 
   below(ctx: WalkContext, x: number, node: number, frames: Frame | null): boolean {
     const sub = this.subLocal(node, x);
-    if (sub.maxDist + (frames === null ? 0 : frames.rest) > ctx.lim) return false;
+    if (sub.unkeepable || sub.maxDist + (frames === null ? 0 : frames.rest) + this.pda.penaltyBound(ctx.res) > ctx.lim) return false;
     ctx.markIds(sub.ids);
     if (frames !== null) this.resumeBelow(ctx, sub.pops, frames);
+    if (ctx.res !== null) this.walker.walkDeferred(ctx, x, node, frames);
     return true;
   }
 
@@ -151,9 +167,9 @@ export class KeptMasks implements KeptMaskSource {
     if (hit !== undefined) return hit;
     const k = this.keep;
     const bits = new Uint32Array(this.walker.vt.nWords);
-    k.beginKept(bits, null);
+    k.beginKept(bits, null, SENTINEL, this.pda.scopes !== null);
     this.walker.maskBetween(k, n, SENTINEL, null);
-    const entry: LocalMask = { bits, ids: sparseIds(bits), maxDist: k.maxSeen, pops: k.takePops() };
+    const entry: LocalMask = { bits, ids: sparseIds(bits), maxDist: k.maxSeen, pops: k.takePops(), unkeepable: k.unkeepable };
     k.end();
     this.locals[n] = entry;
     return entry;
@@ -166,9 +182,9 @@ export class KeptMasks implements KeptMaskSource {
     if (hit !== undefined) return hit;
     const k = this.keep;
     const ids: number[] = [];
-    k.beginKept(NO_MASK, ids);
+    k.beginKept(NO_MASK, ids, SENTINEL, this.pda.scopes !== null);
     this.walker.walkBetween(k, x, n, SENTINEL, null);
-    const entry: SubLocal = { ids: Uint32Array.from(new Set(ids)), maxDist: k.maxSeen, pops: k.takePops() };
+    const entry: SubLocal = { ids: Uint32Array.from(new Set(ids)), maxDist: k.maxSeen, pops: k.takePops(), unkeepable: k.unkeepable };
     k.end();
     this.subLocals.set(key, entry);
     return entry;
@@ -188,7 +204,7 @@ export class KeptMasks implements KeptMaskSource {
     const w = this.walker;
     const nWords = w.vt.nWords;
     const bits = new Uint32Array(nWords);
-    k.beginKept(bits, null);
+    k.beginKept(bits, null, SENTINEL, this.pda.scopes !== null);
     w.orInside(k, tables, d, INF - this.pda.betweenDist(n, null, SENTINEL), false);
     const ex = tables.exits[d];
     for (let i = 0; i < ex.length; i++) w.walkBetween(k, ex[i], n, SENTINEL, null);
@@ -202,7 +218,7 @@ export class KeptMasks implements KeptMaskSource {
       w.maskBetween(k, n, SENTINEL, null);
       popsRoot = k.takePops();
     }
-    const entry: LexLocal = { bits, ids: sparseIds(bits), rootBits, rootIds: rootBits === null ? null : sparseIds(rootBits), maxDist: k.maxSeen, popsLex, popsRoot };
+    const entry: LexLocal = { bits, ids: sparseIds(bits), rootBits, rootIds: rootBits === null ? null : sparseIds(rootBits), maxDist: k.maxSeen, popsLex, popsRoot, unkeepable: k.unkeepable };
     k.end();
     perClass.set(key, entry);
     return entry;

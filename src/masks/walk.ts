@@ -114,19 +114,52 @@ export class TrieWalker implements LevelVisitor<WalkContext> {
 
   /** Marks the tokens a BETWEEN position (node, frames, env) can read from the trie root. */
   maskBetween(ctx: WalkContext, node: number, frames: Frame | null, env: Env | null): void {
-    if (this.kept !== null && ctx.live && this.kept.between(ctx, node, frames)) return;
+    const deferred = ctx.defer === 2 && ctx.origin;
+    if (!deferred && this.kept !== null && ctx.live && this.kept.between(ctx, node, frames)) return;
     const dist = this.pda.betweenDist(node, env, frames, false) + this.pda.penaltyAt(ctx.res, node, frames); // after a space
-    if (dist <= ctx.lim) {
+    if (dist <= ctx.lim && !deferred) {
       if (dist > ctx.maxSeen) ctx.maxSeen = dist;
       ctx.markIds(this.vt.wsTokenIds);
     }
-    if (this.a.forEachLevel(this, ctx, 0, node, frames, env, SENTINEL) === LEVELS_STOP) ctx.recordPop(0);
+    // the deferred pass of a kept mask visits the position's own level only (kept.ts walked the rest)
+    if (this.a.forEachLevel(this, ctx, 0, node, frames, env, deferred ? frames : SENTINEL) === LEVELS_STOP && !deferred) ctx.recordPop(0);
+  }
+
+  /**
+   * The scope-sensitive options of the BETWEEN position (node, frames) from the trie root — the
+   * part of its mask a kept mask leaves out (kept.ts); `x` ≠ 0: below trie node x.
+   */
+  walkDeferred(ctx: WalkContext, x: number, node: number, frames: Frame | null): void {
+    const d0 = ctx.defer;
+    const o0 = ctx.origin;
+    const f0 = ctx.deferFrames;
+    ctx.defer = 2;
+    ctx.origin = true;
+    ctx.deferFrames = frames;
+    if (x === 0) this.maskBetween(ctx, node, frames, null);
+    else this.walkBetween(ctx, x, node, frames, null);
+    ctx.defer = d0;
+    ctx.origin = o0;
+    ctx.deferFrames = f0;
+  }
+
+  /** Option o is left out here: deferral of scope-sensitive options (WalkContext.defer). */
+  private skipOption(ctx: WalkContext, o: number, frames: Frame | null): boolean {
+    if (ctx.defer === 0) return false;
+    const sens = this.a.optSensitive[o] === 1;
+    if (ctx.origin && frames === ctx.deferFrames) return ctx.defer === 1 ? sens : !sens;
+    if (ctx.defer === 1 && sens) {
+      ctx.unkeepable = true;
+      return true;
+    }
+    return false;
   }
 
   /** Walks the children of trie node x ≠ root for a BETWEEN position (node, frames, env). */
   walkBetween(ctx: WalkContext, x: number, node: number, frames: Frame | null, env: Env | null): void {
     // below a non-root trie node the stack-independent part is kept per (RTN node, trie node)
-    if (this.kept !== null && ctx.live && env === null && this.kept.below(ctx, x, node, frames)) return;
+    const deferred = ctx.defer === 2 && ctx.origin;
+    if (!deferred && this.kept !== null && ctx.live && env === null && this.kept.below(ctx, x, node, frames)) return;
     const { byte, end, vt } = this;
     const space = this.rtn.space;
     const dist = this.pda.betweenDist(node, env, frames, false) + this.pda.penaltyAt(ctx.res, node, frames); // after a space
@@ -151,7 +184,7 @@ export class TrieWalker implements LevelVisitor<WalkContext> {
         } else if (!(pw && WORD[b])) starts = true;
       }
     }
-    if (starts && this.a.forEachLevel(this, ctx, x, node, frames, env, SENTINEL) === LEVELS_STOP) ctx.recordPop(x);
+    if (starts && this.a.forEachLevel(this, ctx, x, node, frames, env, deferred ? frames : SENTINEL) === LEVELS_STOP && !deferred) ctx.recordPop(x);
   }
 
   /**
@@ -193,11 +226,14 @@ export class TrieWalker implements LevelVisitor<WalkContext> {
       const pw = ctx.rootPrevWord;
       const cls = pda.classOptions(node, mode);
       const lr = ctx.res;
+      const origin = ctx.origin;
       for (let i = 0; i < cls.length; i++) {
         const o = cls[i];
+        if (this.skipOption(ctx, o, frames)) continue;
         const r = this.optionRes(ctx, o, frames);
         if (r === null) continue;
         if (r !== undefined) ctx.res = r;
+        ctx.origin = false;
         const tables = this.classes[this.rtn.terminals[a.optTerm[o]].tokenClass]!;
         const target = a.optTarget[o];
         const rest = pda.nodeDist(target, env) + pda.pushedRest(o, frames, env) + pda.penaltyAfter(o, ctx.res, frames);
@@ -213,6 +249,7 @@ export class TrieWalker implements LevelVisitor<WalkContext> {
           this.walkBetween(ctx, ex[j], target, pushed, env);
         }
         ctx.res = lr;
+        ctx.origin = origin;
       }
       const d = pda.dispatch(node, mode, true);
       const bytes = d.bytes;
@@ -257,8 +294,10 @@ export class TrieWalker implements LevelVisitor<WalkContext> {
     const a = this.a;
     const end = this.end;
     const lr = ctx.res;
+    const origin = ctx.origin;
     for (let k = d.off[i]; k < d.off[i + 1]; k++) {
       const o = d.opts[k];
+      if (this.skipOption(ctx, o, frames)) continue;
       const term = a.optTerm[o];
       const s = pda.startLex(term, b, env);
       if (s === 0) continue;
@@ -280,6 +319,7 @@ export class TrieWalker implements LevelVisitor<WalkContext> {
         if (far === null) pen = pda.penaltyAfter(o, r, frames);
         ctx.res = r;
       }
+      ctx.origin = false;
       if (kind === 'lit' || kind === 'class' || kind === 'names') {
         const rest = pda.nodeDist(target, env) + pda.pushedRest(o, frames, env) + pen;
         ctx.markNode(c, (far === null ? pda.termDfa[term].minAccept[s] : far[s]) + rest);
@@ -290,6 +330,7 @@ export class TrieWalker implements LevelVisitor<WalkContext> {
         if (end[c] > c + 1) this.walkGeneric(ctx, c, nt);
       }
       ctx.res = lr;
+      ctx.origin = origin;
     }
   }
 
