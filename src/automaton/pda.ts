@@ -25,7 +25,7 @@
 import type { Grammar, NameBindings } from '../description/ir.ts';
 import { AutomatonError, buildRtn, closures, EDGE_EPS, EDGE_TERM, type Option, type Rtn } from './cfg.ts';
 import { runDfa, type ByteDfa } from './regex.ts';
-import { ALLOWED, LIVE, ROLE_NONE, ScopeBinding, ScopePlan, type Res } from './scopes.ts';
+import { ALLOWED, LIVE, ROLE_NONE, ScopeBinding, ScopePlan, type OptionInfo, type Res } from './scopes.ts';
 
 export const INF = 0x3fffffff;
 
@@ -482,6 +482,30 @@ export class AutomatonInstance {
       for (let i = 0; i < opens.length; i++) r = sc.open(r, base + opens[i]);
     }
     return sc.feasibleAfter(r, a.optTarget[o], a.optPush[o], frames, this.win) ? r : null;
+  }
+
+  /**
+   * Everything the mask walk needs to start option `o` from a level on `frames` in scope state
+   * `lr`: optionRes, and for the state after it the role filter / far table or the penalty.
+   * Memoised on `lr` per option (for the last frames seen), so masks of states that share a scope
+   * state recompute nothing.
+   */
+  optionInfo(o: number, lr: Res, frames: Frame | null): OptionInfo {
+    if (lr.options === null) lr.options = new Map();
+    const hit = lr.options.get(o);
+    if (hit !== undefined && hit.frames === frames) return hit;
+    const r = this.optionRes(o, lr, frames);
+    let filter: Uint8Array | null = null;
+    let far: Int32Array | null = null;
+    let pen = 0;
+    if (r !== null) {
+      filter = this.roleFilterAfter(o, r, frames);
+      if (filter !== null) far = this.roleFarAfter(o, r, frames);
+      else pen = this.penaltyAfter(o, r, frames);
+    }
+    const info: OptionInfo = { frames, res: r, filter, far, pen };
+    lr.options.set(o, info);
+    return info;
   }
 
   /** `roleFar` for the position option `o` reaches from a level on `frames` (builds no frames). */

@@ -161,12 +161,27 @@ export class Res {
   filters: Map<number, Filter> | null = null;
   /** after a role lexeme: key node * 2^20 + member → Res (memo; null: not allowed) */
   after: Map<number, Res | null> | null = null;
+  /** per option started from a level in this state: what the walk needs (memo, see OptionInfo) */
+  options: Map<number, OptionInfo> | null = null;
 
   constructor(
     readonly scope: ScopeRec,
     /** the qualifier register: the owner member named by a `by` field just read, or -1 */
     readonly qual: number,
   ) {}
+}
+
+/**
+ * What starting option o from a level on `frames` in a given state means for the scopes: the state
+ * after it (null: cannot resolve), the member filter and farthest completions of a role name
+ * (null otherwise) and the penalty after it. Kept per (state, option) for the last frames seen.
+ */
+export interface OptionInfo {
+  readonly frames: unknown;
+  readonly res: Res | null;
+  readonly filter: Uint8Array | null;
+  readonly far: Int32Array | null;
+  readonly pen: number;
 }
 
 /** A member filter: bits (LIVE, ALLOWED) and farthest completions per names-automaton state. */

@@ -209,13 +209,6 @@ export class TrieWalker implements LevelVisitor<WalkContext> {
     this.visitOptions(ctx, x, node, frames, env);
   }
 
-  /** The scope state for option o from the level (ctx.res at that level); null when it cannot resolve. */
-  private optionRes(ctx: WalkContext, o: number, frames: Frame | null): Res | null | undefined {
-    const lr = ctx.res;
-    if (lr === null) return undefined;
-    return this.pda.optionRes(o, lr, frames);
-  }
-
   private visitOptions(ctx: WalkContext, x: number, node: number, frames: Frame | null, env: Env | null): void {
     const pda = this.pda;
     const vt = this.vt;
@@ -230,13 +223,17 @@ export class TrieWalker implements LevelVisitor<WalkContext> {
       for (let i = 0; i < cls.length; i++) {
         const o = cls[i];
         if (this.skipOption(ctx, o, frames)) continue;
-        const r = this.optionRes(ctx, o, frames);
-        if (r === null) continue;
-        if (r !== undefined) ctx.res = r;
+        let pen = 0;
+        if (lr !== null) {
+          const info = pda.optionInfo(o, lr, frames);
+          if (info.res === null) continue;
+          ctx.res = info.res;
+          pen = info.pen;
+        }
         ctx.origin = false;
         const tables = this.classes[this.rtn.terminals[a.optTerm[o]].tokenClass]!;
         const target = a.optTarget[o];
-        const rest = pda.nodeDist(target, env) + pda.pushedRest(o, frames, env) + pda.penaltyAfter(o, ctx.res, frames);
+        const rest = pda.nodeDist(target, env) + pda.pushedRest(o, frames, env) + pen;
         this.orInside(ctx, tables, tables.w0, ctx.lim - rest, pw);
         // the lexeme ends inside a token at an exit: the walk continues with the pushed frames,
         // built only then
@@ -307,17 +304,13 @@ export class TrieWalker implements LevelVisitor<WalkContext> {
       let far: Int32Array | null = null;
       let pen = 0;
       if (lr !== null) {
-        const r = pda.optionRes(o, lr, frames);
-        if (r === null) continue;
-        if (kind === 'names') {
-          filter = pda.roleFilterAfter(o, r, frames);
-          if (filter !== null) {
-            if ((filter[s] & LIVE) === 0) continue;
-            far = pda.roleFarAfter(o, r, frames);
-          }
-        }
-        if (far === null) pen = pda.penaltyAfter(o, r, frames);
-        ctx.res = r;
+        const info = pda.optionInfo(o, lr, frames);
+        if (info.res === null) continue;
+        filter = info.filter;
+        if (filter !== null && (filter[s] & LIVE) === 0) continue;
+        far = info.far;
+        pen = info.pen;
+        ctx.res = info.res;
       }
       ctx.origin = false;
       if (kind === 'lit' || kind === 'class' || kind === 'names') {
