@@ -28,7 +28,8 @@ import { InvalidArgumentError, Option } from 'commander';
 import { loadGrammar } from '../description/index.ts';
 import type { Grammar, NameBindings } from '../description/ir.ts';
 import { databaseKind, openDatabaseFile, type DatabaseFile } from '../exec/database.ts';
-import { checkNames, loadNames, mergeNames, namesFromDatabase, NamesError } from '../tree/index.ts';
+import { checkNames, loadNames, mergeNames, namesFromDatabase, NamesError, withFacts } from '../tree/index.ts';
+import { NAME_FACTS } from '../description/ir.ts';
 import { grammarFile, shippedGrammars } from '../util/package.ts';
 import { UsageError } from './command.ts';
 
@@ -159,7 +160,9 @@ export async function namesFromDb(grammar: Grammar, db: DatabaseFile): Promise<N
     } catch (e) {
       throw new NamesError(`${db.source}: cannot read the fact base for ${grammar.name}'s name sets (${FACT_SETS.filter((s) => declared.has(s)).join(', ')}): ${(e as Error).message}; expected the cooperative's tables (grammars/sql/coop.sql), or --names FILE`);
     }
-    return Object.fromEntries(Object.entries(names).filter(([k]) => declared.has(k)));
+    const facts = names[NAME_FACTS];
+    const kept = Object.fromEntries(Object.entries(names).filter(([k]) => declared.has(k)));
+    return facts ? withFacts(kept, facts) : kept;
   }
   return namesFromDatabase(db.path);
 }

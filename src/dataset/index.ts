@@ -29,7 +29,7 @@ import { sqlite } from '../util/optional.ts';
 import { type Example, type Form, Generator, Rng, loadWorld, templateName } from './generate.ts';
 import { loadGrammar } from '../description/index.ts';
 import type { Grammar, NameBindings } from '../description/ir.ts';
-import { createParser, printTree, validateTree } from '../tree/index.ts';
+import { createParser, printTree, validateTree, withFacts } from '../tree/index.ts';
 import { CLASSES, MEASURES, RELATIONS, SUBCLASSES, constantOf } from '../exec/lexicon.ts';
 
 export const DEFAULT_SEED = 20261201;
@@ -178,23 +178,39 @@ function repoPath(...parts: string[]): string {
 /** LF names from the lexicon and the database rows; SQL names from the database schema. */
 export function loadTargets(db: Database.Database): Targets {
   const pluck = (q: string) => db.prepare(q).pluck().all() as string[];
-  const entities = [
-    ...(['growers', 'orchards', 'varieties', 'sheds'] as const).flatMap((t) => pluck(`SELECT name FROM ${t} ORDER BY id`)),
-    ...pluck('SELECT DISTINCT village FROM growers ORDER BY village'),
-  ].map(constantOf);
+  const kindOf: Record<string, string> = {};
+  const named = (['growers', 'orchards', 'varieties', 'sheds'] as const).flatMap((t) => {
+    const kind = Object.values(CLASSES).find((c) => c.table === t)!.name;
+    return pluck(`SELECT name FROM ${t} ORDER BY id`).map((n) => (kindOf[constantOf(n)] = kind, constantOf(n)));
+  });
+  const villages = pluck('SELECT DISTINCT village FROM growers ORDER BY village').map((v) => (kindOf[constantOf(v)] = 'village', constantOf(v)));
+  const entities = [...named, ...villages];
   const tables = pluck("SELECT name FROM sqlite_schema WHERE type = 'table' ORDER BY name");
-  const columns = new Set<string>();
-  for (const t of tables) for (const c of pluck(`SELECT name FROM pragma_table_info('${t}')`)) columns.add(c);
+  const owners = new Map<string, string[]>();
+  for (const t of tables) for (const c of pluck(`SELECT name FROM pragma_table_info('${t}')`)) owners.set(c, [...(owners.get(c) ?? []), t]);
+  const columns = [...owners.keys()].sort();
+  // kinds from the lexicon: the same ones the fact base reads off the rows (exec/coop.ts)
+  const classKind = (name: string): string => (CLASSES as Record<string, { name: string }>)[name]?.name ?? SUBCLASSES.find((s) => s.name === name)!.of;
+  const classes = [...Object.keys(CLASSES), ...SUBCLASSES.map((s) => s.name)];
+  const kinds = [...new Set([...Object.keys(CLASSES), 'village'])].sort();
   return {
     lf: loadGrammar(repoPath('grammars', 'lf', 'lf.twg')),
     sql: loadGrammar(repoPath('grammars', 'sql', 'sql.twg')),
-    lfNames: {
-      Entity: entities,
-      Class: [...Object.keys(CLASSES), ...SUBCLASSES.map((s) => s.name)],
-      Rel: RELATIONS.map((r) => r.name),
-      Measure: MEASURES.map((m) => m.name),
-    },
-    sqlNames: { Table: tables, Column: [...columns].sort() },
+    lfNames: withFacts(
+      { Entity: entities, Class: classes, Rel: RELATIONS.map((r) => r.name), Measure: MEASURES.map((m) => m.name) },
+      {
+        owners: {},
+        kinds: {
+          Entity: Object.fromEntries(entities.map((e) => [e, [kindOf[e]!]])),
+          Class: Object.fromEntries(classes.map((c) => [c, [classKind(c)]])),
+          Rel: Object.fromEntries(RELATIONS.map((r) => [r.name, [r.subject, r.object]])),
+          Measure: Object.fromEntries(MEASURES.map((m) => [m.name, [m.of]])),
+        },
+        families: { Kind: Object.fromEntries(kinds.map((k) => [k, null])) },
+        source: 'the demo lexicon',
+      },
+    ),
+    sqlNames: withFacts({ Table: tables, Column: columns }, { owners: { Column: Object.fromEntries(owners) }, kinds: {}, families: {}, source: 'the demo database' }),
   };
 }
 

@@ -10,7 +10,8 @@
  *   per lot (`lot#17`: in the domain, so quantifiers reach it, but not a constant of the language);
  * - classes: grower, orchard, variety, shed, lot, and the subclasses (apple, grade_a, …);
  * - relations: foreign-key, linking-table and attribute relations (owns, lives_in, grows, …);
- * - measures: the numeric columns (hectares, tonnes, …), defined on their class only.
+ * - measures: the numeric columns (hectares, tonnes, …), defined on their class only;
+ * - kinds: a row's entity has its table's class (grower, …, lot), a village the kind village.
  * Cost: one pass over each table; the demo has under 300 rows.
  */
 import { sqlite } from '../util/optional.ts';
@@ -31,6 +32,7 @@ export function factsFromDatabase(dbPath: string): FactBase {
     const entities: string[] = [];
     const anonymous: string[] = [];
     const classes: Record<string, string[]> = {};
+    const kinds: Record<string, string> = {};
     const claim = (name: string, where: string) => {
       const prev = owner.get(name);
       if (prev !== undefined && prev !== where) {
@@ -56,6 +58,7 @@ export function factsFromDatabase(dbPath: string): FactBase {
           anonymous.push(e);
         }
         names.set(r.id, e);
+        kinds[e] = info.name;
       }
       nameOf.set(info.name, names);
       classes[info.name] = [...names.values()];
@@ -76,6 +79,7 @@ export function factsFromDatabase(dbPath: string): FactBase {
         for (const row of rows.get(r.subject)!) {
           const v = constantOf(String(row[link.column]));
           claim(v, `the ${link.column} value ${String(row[link.column])}`);
+          kinds[v] = r.object;
           pairs.push([entityOf(r.subject, row.id), v]);
         }
       } else if (link.kind === 'fk') {
@@ -99,7 +103,7 @@ export function factsFromDatabase(dbPath: string): FactBase {
     for (const m of MEASURES) {
       measures[m.name] = rows.get(m.of)!.map((row) => [entityOf(m.of, row.id), Number(row[m.column])]);
     }
-    return makeFactBase({ entities, anonymous, classes, relations, measures });
+    return makeFactBase({ entities, anonymous, classes, relations, measures, kinds });
   } finally {
     db.close();
   }

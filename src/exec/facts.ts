@@ -7,6 +7,7 @@
  * changed afterwards.
  */
 import type { NameBindings } from '../description/ir.ts';
+import { withFacts } from '../tree/names.ts';
 
 /** Plain description of a model, e.g. from a lexicon reading database rows. */
 export interface FactsInput {
@@ -17,6 +18,23 @@ export interface FactsInput {
   readonly classes: Readonly<Record<string, Iterable<string>>>;
   readonly relations: Readonly<Record<string, Iterable<readonly [string, string]>>>;
   readonly measures: Readonly<Record<string, Iterable<readonly [string, number]>>>;
+  /** entity → its kind (grower, orchard, …); entities not listed have none. Default: none. */
+  readonly kinds?: Readonly<Record<string, string>>;
+}
+
+/**
+ * Kinds read off the facts: an entity's kind as given; a class's, relation side's or measure's
+ * kind is the one kind all its entities share (null when they have none, or several, or there are
+ * no entities to tell).
+ */
+export interface FactKinds {
+  /** every kind, sorted */
+  readonly kinds: readonly string[];
+  /** kind per entity ID, or null */
+  readonly entity: readonly (string | null)[];
+  readonly classes: ReadonlyMap<string, string | null>;
+  readonly relations: ReadonlyMap<string, readonly [string | null, string | null]>;
+  readonly measures: ReadonlyMap<string, string | null>;
 }
 
 export interface FactBase {
@@ -33,6 +51,7 @@ export interface FactBase {
   readonly relations: ReadonlyMap<string, ReadonlySet<number>>;
   /** measure name → value per entity ID, NaN where undefined */
   readonly measures: ReadonlyMap<string, Float64Array>;
+  readonly kinds: FactKinds;
 }
 
 /** Builds a fact base; every name used by a class, relation or measure must be a declared entity. */
@@ -75,15 +94,75 @@ export function makeFactBase(input: FactsInput): FactBase {
   const anonymous = new Set(input.anonymous ?? []);
   for (const a of anonymous) id(a, 'the anonymous list');
   const constants = entities.filter((e) => !anonymous.has(e));
-  return { entities, entityId, constants, classes, classMembers, relations, measures };
+  return { entities, entityId, constants, classes, classMembers, relations, measures, kinds: factKinds(entities, input.kinds ?? {}, id, classMembers, relations, measures) };
 }
 
-/** The names a fact base binds in the `lf` grammar's name sets. */
+function factKinds(
+  entities: readonly string[],
+  given: Readonly<Record<string, string>>,
+  id: (name: string, where: string) => number,
+  classMembers: ReadonlyMap<string, Int32Array>,
+  relations: ReadonlyMap<string, ReadonlySet<number>>,
+  measures: ReadonlyMap<string, Float64Array>,
+): FactKinds {
+  const n = entities.length;
+  const entity: (string | null)[] = new Array(n).fill(null);
+  for (const [e, k] of Object.entries(given)) entity[id(e, 'the kinds list')] = k;
+  /** the one kind of the entities, or null */
+  const common = (ids: Iterable<number>): string | null => {
+    let k: string | null | undefined;
+    for (const i of ids) {
+      const x = entity[i]!;
+      if (x === null || (k !== undefined && k !== x)) return null;
+      k = x;
+    }
+    return k ?? null;
+  };
+  const classes = new Map([...classMembers].map(([c, ids]) => [c, common(ids)] as const));
+  const rels = new Map<string, readonly [string | null, string | null]>();
+  for (const [r, pairs] of relations) {
+    const subj: number[] = [];
+    const obj: number[] = [];
+    for (const key of pairs) {
+      subj.push(Math.floor(key / n));
+      obj.push(key % n);
+    }
+    rels.set(r, [common(subj), common(obj)]);
+  }
+  const ms = new Map<string, string | null>();
+  for (const [m, values] of measures) {
+    const ids: number[] = [];
+    values.forEach((v, i) => {
+      if (!Number.isNaN(v)) ids.push(i);
+    });
+    ms.set(m, common(ids));
+  }
+  const kinds = [...new Set(entity.filter((k): k is string => k !== null))].sort();
+  return { kinds, entity, classes, relations: rels, measures: ms };
+}
+
+/**
+ * The names a fact base binds in the `lf` grammar's name sets, with their kinds (the `Kind` family:
+ * an entity's kind, a class's or measure's argument kind, a relation's subject and object kinds).
+ */
 export function factNames(facts: FactBase): NameBindings {
-  return {
+  const k = facts.kinds;
+  const members = {
     Entity: facts.constants,
     Class: [...facts.classes.keys()].sort(),
     Rel: [...facts.relations.keys()].sort(),
     Measure: [...facts.measures.keys()].sort(),
   };
+  const one = (m: ReadonlyMap<string, string | null>) => Object.fromEntries([...m].map(([x, kind]) => [x, [kind]]));
+  return withFacts(members, {
+    owners: {},
+    kinds: {
+      Entity: Object.fromEntries(facts.constants.map((e) => [e, [k.entity[facts.entityId.get(e)!] ?? null]])),
+      Class: one(k.classes),
+      Rel: Object.fromEntries([...k.relations].map(([r, sides]) => [r, [...sides]])),
+      Measure: one(k.measures),
+    },
+    families: k.kinds.length > 0 ? { Kind: Object.fromEntries(k.kinds.map((x) => [x, null])) } : {},
+    source: 'the fact base',
+  });
 }

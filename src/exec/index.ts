@@ -30,7 +30,7 @@ import type { ExecuteFn } from './types.ts';
 export type { ExecContext, ExecResult, ExecuteFn, Tree } from './types.ts';
 export { formatAnswer, formatResult } from './answer.ts';
 export { SqlRunner, checkSelectTree, sqlExecutor, type SqlRunnerOptions } from './sql.ts';
-export { evaluateLf, lfExecutor, DEFAULT_STEP_LIMIT, type LfAnswer, type LfOptions } from './lf.ts';
+export { evaluateLf, lfExecutor, kindProblem, DEFAULT_STEP_LIMIT, type LfAnswer, type LfOptions } from './lf.ts';
 export { makeFactBase, factNames, type FactBase, type FactsInput } from './facts.ts';
 export { buildCoop, factsFromDatabase, lfAgreesWithSql } from './coop.ts';
 export { buildSqliteFile, buildSqliteFileFrom, databaseKind, openDatabaseFile, runSqlScript, type DatabaseFile } from './database.ts';

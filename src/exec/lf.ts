@@ -13,6 +13,10 @@
  * - exists / forall / count / sum range over the whole domain; & | -> short-circuit left to right;
  *   `sum $x. (F) of m` over no entity is 0.
  *
+ * Kinds: before evaluating, the program's kinds are checked against the fact base's (kindProblem):
+ * `hectares(mara_feldwick)` or `owns($x, $y) & grower($y)` is a kind error, reported as such
+ * instead of evaluating to an undefined measure or an empty answer.
+ *
  * Bounded work: every node visited counts one step; past `stepLimit` (default 1,000,000) the
  * evaluation stops with an error. Nested binders cost up to |domain|^depth steps; a binder whose
  * body starts with a class test of its variable (`exists $y. (orchard($y) & …)`) ranges over that
@@ -21,7 +25,12 @@
  * Cost per step is a Map lookup at most; no allocation per step except variable binding.
  */
 import { jsonDepthProblem, MAX_JSON_DEPTH, tooDeepMessage } from '../util/depth.ts';
-import type { FactBase } from './facts.ts';
+import { join } from 'node:path';
+import { loadGrammar } from '../description/index.ts';
+import type { Grammar, NameBindings } from '../description/ir.ts';
+import { resolveTree, validateTree, type Tree as TreeNode } from '../tree/index.ts';
+import { PACKAGE_ROOT } from '../util/package.ts';
+import { factNames, type FactBase } from './facts.ts';
 import type { ExecContext, ExecResult, ExecuteFn, Tree } from './types.ts';
 
 export type LfAnswer =
@@ -32,6 +41,12 @@ export type LfAnswer =
 
 export interface LfOptions {
   readonly stepLimit?: number;
+  /**
+   * check the program's kinds against the fact base before evaluating (default true): a class,
+   * relation or measure applied to an entity of another kind is an error, never a silent `false`
+   * or an undefined measure (the rules of grammars/lf/lf.twg, checked by tree/resolve.ts)
+   */
+  readonly checkKinds?: boolean;
   /** range a binder over the class its body starts with (default true; same answers, fewer steps) */
   readonly rangeByClass?: boolean;
 }
@@ -51,6 +66,10 @@ export function evaluateLf(facts: FactBase, tree: Tree, options: LfOptions = {})
   // the evaluator recurses once per level: deeper trees are refused first (src/util/depth.ts)
   const deep = jsonDepthProblem(tree, MAX_JSON_DEPTH);
   if (deep !== null) return { ok: false, error: `${tooDeepMessage(MAX_JSON_DEPTH)} (at ${deep})` };
+  if (options.checkKinds ?? true) {
+    const problem = kindProblem(facts, tree);
+    if (problem !== null) return { ok: false, error: problem };
+  }
   const ev = new Evaluator(facts, options.stepLimit ?? DEFAULT_STEP_LIMIT, options.rangeByClass ?? true);
   try {
     return { ok: true, value: ev.query(tree) };
@@ -58,6 +77,24 @@ export function evaluateLf(facts: FactBase, tree: Tree, options: LfOptions = {})
     if (err instanceof LfError) return { ok: false, error: err.path ? `${err.message} (at ${err.path})` : err.message };
     throw err;
   }
+}
+
+let lfGrammar: Grammar | null = null;
+const namesOf = new WeakMap<FactBase, NameBindings>();
+
+/**
+ * The first kind disagreement of a well-formed logical form under the fact base's kinds, worded
+ * `kind error: … (at $.path)`; null when the kinds agree, when the fact base has no kinds, or when
+ * the tree is not a well-formed lf tree (the evaluator then reports what is wrong).
+ */
+export function kindProblem(facts: FactBase, tree: Tree): string | null {
+  if (facts.kinds.kinds.length === 0) return null;
+  lfGrammar ??= loadGrammar(join(PACKAGE_ROOT, 'grammars', 'lf', 'lf.twg'));
+  let names = namesOf.get(facts);
+  if (names === undefined) namesOf.set(facts, (names = factNames(facts)));
+  if (validateTree(lfGrammar, tree, { resolve: false }) !== null) return null;
+  const issue = resolveTree(lfGrammar, tree as unknown as TreeNode, names).find((i) => i.code === 'kind');
+  return issue === undefined ? null : `kind error: ${issue.message} (at ${issue.path})`;
 }
 
 /** An executor (see types.ts) over a fixed fact base. */

@@ -66,7 +66,7 @@ describe('forced runs give the outputs of one call per token', () => {
 
   it('tiny fixture model, logical forms (tight budgets included)', async () => {
     const grammar = loadGrammar('grammars/lf/lf.twg');
-    const names = loadNames('grammars/lf/samples/names.json');
+    const names = loadNames('grammars/lf/samples/names.json', grammar);
     const questions = ['lf: which orchards does chen li own?', 'lf: how many lots of conference pears were harvested in 2021?'];
     await compare(fixture, grammar, names, questions, 48);
     await compare(fixture, grammar, names, questions, 20);

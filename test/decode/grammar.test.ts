@@ -24,7 +24,7 @@ let names: NameBindings;
 beforeAll(async () => {
   model = await loadModel('test/fixtures/tiny-seq2seq', { threads: 1 });
   lf = loadGrammar('grammars/lf/lf.twg');
-  names = loadNames('grammars/lf/samples/names.json');
+  names = loadNames('grammars/lf/samples/names.json', lf);
 });
 
 describe('generate() with a grammar', () => {

@@ -8,7 +8,7 @@ import { factNames } from '../../src/exec/facts.ts';
 import { lfExecutor } from '../../src/exec/lf.ts';
 import { SqlRunner, sqlExecutor } from '../../src/exec/sql.ts';
 import { createScorer, sameAnswer } from '../../src/eval/target.ts';
-import { namesFromDatabase } from '../../src/tree/index.ts';
+import { loadNames, namesFromDatabase } from '../../src/tree/index.ts';
 import type { Tree } from '../../src/exec/types.ts';
 
 const dir = mkdtempSync(join(tmpdir(), 'tw-target-'));
@@ -31,7 +31,7 @@ function programs(file: string): string[] {
 describe('LF scorer', () => {
   it('binds the same names as the hand-written samples file, and runs every valid sample', async () => {
     // grammars/lf/samples/names.json was written from the lexicon by the grammar samples' author
-    const sampleNames = JSON.parse(readFileSync('grammars/lf/samples/names.json', 'utf8')) as Record<string, string[]>;
+    const sampleNames = loadNames('grammars/lf/samples/names.json', lfGrammar);
     const ours = factNames(facts);
     for (const set of ['Entity', 'Class', 'Rel', 'Measure']) expect([...ours[set]].sort(), set).toEqual([...sampleNames[set]].sort());
     for (const p of programs('grammars/lf/samples/valid.lf')) {

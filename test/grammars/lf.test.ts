@@ -4,19 +4,19 @@
  * text that parses back to the same tree), the hand-written samples, and the exact error messages.
  * Names are those of grammars/lf/samples/names.json (the cooperative's fact base).
  */
-import { readFileSync } from 'node:fs';
 import { beforeAll, describe, expect, it } from 'vitest';
 import type { Grammar, NameBindings } from '../../src/description/ir.ts';
 import { loadGrammar } from '../../src/description/index.ts';
-import { createParser, printTree, sampleTree, validateTree } from '../../src/tree/index.ts';
+import { createParser, loadNames, printTree, sampleTree, validateTree } from '../../src/tree/index.ts';
 import { nodes, readInvalidCases, readSamples, type Node } from './support.ts';
 
 const SAMPLES = 1000;
-const names = JSON.parse(readFileSync('grammars/lf/samples/names.json', 'utf8')) as NameBindings;
 let grammar: Grammar;
+let names: NameBindings;
 
 beforeAll(() => {
   grammar = loadGrammar('grammars/lf/lf.twg');
+  names = loadNames('grammars/lf/samples/names.json', grammar);
 });
 
 function parse(text: string, file?: string): Node {

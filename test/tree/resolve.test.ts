@@ -10,7 +10,7 @@ import { rmSync } from 'node:fs';
 import { dirname } from 'node:path';
 import { afterAll, describe, expect, it } from 'vitest';
 import { loadGrammar } from '../../src/description/index.ts';
-import { createParser, namesFromDatabase, namesFromJson, resolveTree, type Tree } from '../../src/tree/index.ts';
+import { bindNames, createParser, loadNames, namesFromDatabase, namesFromJson, resolveTree, type Tree } from '../../src/tree/index.ts';
 import { coopDatabase, coopDatabaseFile, readSamples } from '../grammars/support.ts';
 
 const sql = loadGrammar('grammars/sql/sql.twg');
@@ -150,5 +150,46 @@ describe('lf: kinds', () => {
       '$.claim.subject: kinds disagree: `owns` has kind grower as subject, but `hilltop` has kind orchard',
       '$.claim.object: kinds disagree: `owns` has kind orchard as object, but `mara` has kind grower',
     ]);
+  });
+});
+
+describe('lf: kinds from the fact base (the executor checks them)', () => {
+  it('every hand-written valid logical form agrees, and evaluates without a kind error', async () => {
+    const { factNames, factsFromDatabase, evaluateLf } = await import('../../src/exec/index.ts');
+    const facts = factsFromDatabase(dbFile);
+    const fromFacts = factNames(facts);
+    const fromFile = loadNames('grammars/lf/samples/names.json', lf);
+    const p = createParser(lf);
+    for (const { line, text } of readSamples('grammars/lf/samples/valid.lf')) {
+      const tree = p.parse(text, { names: fromFacts }) as Tree;
+      expect(resolveTree(lf, tree, fromFile), `valid.lf:${line}`).toEqual([]);
+      const r = evaluateLf(facts, tree);
+      expect(r.ok, `valid.lf:${line}: ${r.ok ? '' : r.error}`).toBe(true);
+    }
+  });
+
+  it('the fact base reads kinds off its rows: the same as the samples names file', async () => {
+    const { factNames, factsFromDatabase } = await import('../../src/exec/index.ts');
+    const a = bindNames(lf, factNames(factsFromDatabase(dbFile)));
+    const b = bindNames(lf, loadNames('grammars/lf/samples/names.json', lf));
+    for (const set of a.sets) {
+      const other = b.sets[set.set.index]!;
+      const kindsOf = (s: typeof set, fam: (typeof a.families)[number]) =>
+        Object.fromEntries(s.members.map((m, i) => [m, [...s.kinds.subarray(i * s.set.slots.length, (i + 1) * s.set.slots.length)].map((k) => fam.kinds[k] ?? null)]));
+      expect(kindsOf(set, a.families[0]!), set.set.name).toEqual(kindsOf(other, b.families[0]!));
+    }
+  });
+
+  it('an ill-kinded program is a kind error in the executor, not a silent answer', async () => {
+    const { factsFromDatabase, evaluateLf } = await import('../../src/exec/index.ts');
+    const facts = factsFromDatabase(dbFile);
+    const tree = createParser(lf).parse('value: hectares(mara_feldwick)', { resolve: false }) as Tree;
+    expect(evaluateLf(facts, tree)).toEqual({
+      ok: false,
+      error: 'kind error: kinds disagree: `hectares` has kind orchard, but `mara_feldwick` has kind grower (at $.expr.arg)',
+    });
+    const owned = createParser(lf).parse('lambda $x. grower($x) & exists $y. (owns($y, $x))', { resolve: false }) as Tree;
+    expect(evaluateLf(facts, owned).ok).toBe(false);
+    expect(evaluateLf(facts, owned, { checkKinds: false })).toEqual({ ok: true, value: { type: 'set', members: [] } });
   });
 });

@@ -182,7 +182,7 @@ export async function runDemo(out: (line: string) => void): Promise<number> {
     }
     db.close();
     const names = new Map<string, NameBindings>([
-      ['lf', loadNames(inRepo('grammars/lf/samples/names.json'))],
+      ['lf', loadNames(inRepo('grammars/lf/samples/names.json'), grammars.get('lf'))],
       ['arith', loadNames(inRepo('grammars/arith/samples/names.json'))],
     ]);
     const ctx: DemoContext = { grammars, database, sqlNames: namesFromDatabase(database), schema, names };
