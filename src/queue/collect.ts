@@ -126,10 +126,12 @@ export function queueProducer(opts: CollectOptions): RowProducer {
           queue
             .getFailedCount()
             .then(async (n) => {
-              if (n === 0) return;
-              for (const f of await queue.getJobs(['failed'], 0, 99)) {
-                const j = f.id === undefined ? undefined : pending.get(f.id);
-                if (j !== undefined) return fail(queueErrors.failed(j.item.id, j.mode, String(f.failedReason ?? 'no reason given').slice(0, 2000)));
+              // failed jobs of other evaluations may sit there too: look through all of them
+              for (let start = 0; start < n; start += 500) {
+                for (const f of await queue.getJobs(['failed'], start, start + 499)) {
+                  const j = f.id === undefined ? undefined : pending.get(f.id);
+                  if (j !== undefined) return fail(queueErrors.failed(j.item.id, j.mode, String(f.failedReason ?? 'no reason given').slice(0, 2000)));
+                }
               }
             })
             .catch((e: Error) => note(`warning: ${url}: ${e.message}`));
