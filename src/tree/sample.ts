@@ -13,6 +13,9 @@
  * class and `bound` ones are drawn from the variables in scope; other token values are generated
  * from the class regex and kept only when they print back to themselves (validateTree's rule).
  *
+ * `plausible: true` shapes the draw like programs people write (see SampleOptions.plausible);
+ * `treewright sample` and the demo use it, property tests use the uniform draw.
+ *
  * With `space ""` a tree whose tokens would run together has no text (print.ts); such trees are
  * drawn again (up to 200 times), so every sampled tree prints to text that parses back.
  *
@@ -46,6 +49,30 @@ export interface SampleOptions {
   readonly weights?: Readonly<Record<string, number>>;
   /** sort of the sampled trees (default: the start sort) */
   readonly sort?: string;
+  /**
+   * Programs a person would write (default false: uniform, for property tests that want odd
+   * values): leaf constructors are rare at the root and grow likelier with depth, optional parts
+   * and extra list elements are rarer, numbers are small or round, text values are plain words,
+   * new variables are named x, y, z … (in the spelling the token class allows). Same contract:
+   * well-typed, within maxDepth, weights respected, reproducible from the seed.
+   */
+  readonly plausible?: boolean;
+}
+
+/** Variable letters in the order people use them. */
+const VARIABLE_LETTERS = ['x', 'y', 'z', 'w', 'v', 'u', 't', 's'];
+/** Prefixes a variable class may require (`$x`, `?x`, …), tried in this order. */
+const VARIABLE_PREFIXES = ['', '$', '?', '_', '@', ':', '%', '#'];
+/** Plain words for text values (invented; the cooperative's scenario). */
+const PLAIN_WORDS = ['apple', 'pear', 'north', 'river', 'amber', 'cedar', 'meadow', 'stone', 'early', 'red'];
+
+/** Small and round numbers, as people write them in a query (most likely first). */
+function plausibleNumber(rand: () => number, decimals: boolean): number {
+  const r = rand();
+  if (r < 0.4) return 1 + Math.floor(rand() * 10);
+  if (r < 0.75) return [10, 20, 25, 50, 100, 150, 200, 250, 300, 400, 500, 1000][Math.floor(rand() * 12)]!;
+  if (r < 0.9 || !decimals) return 1990 + Math.floor(rand() * 36);
+  return [0.5, 1.5, 2.5, 7.5, 12.5, 0.25][Math.floor(rand() * 6)]!;
 }
 
 export interface Sampler {
@@ -81,6 +108,7 @@ export function createSampler(grammar: Grammar, opts: SampleOptions): Sampler {
     if (!(w >= 0) || !Number.isFinite(w)) throw new SampleError(`weights: ${key} must be a finite number ≥ 0, got ${w}`);
   }
   const weight = (c: Constructor) => opts.weights?.[c.name] ?? 1;
+  const plausible = opts.plausible === true;
   const tables = minDepthTables(info, names, weight);
   const need = tables.sort(sortName, false);
   if (need >= INF) throw new SampleError(`no finite tree of sort ${sortName} exists with these weights and names`);
@@ -92,6 +120,7 @@ export function createSampler(grammar: Grammar, opts: SampleOptions): Sampler {
     if (names[set.name] !== undefined) continue;
     const tok = info.token.get(set.token)!;
     const pool: string[] = [];
+    if (plausible) for (const w of PLAIN_WORDS) if (pool.length < 5 && nameSpellingProblem(tok, w) === null) pool.push(w);
     for (let attempt = 0; pool.length < 5 && attempt < 500; attempt++) {
       const s = lexeme(tok, rand);
       if (nameSpellingProblem(tok, s) === null && !pool.includes(s)) pool.push(s);
@@ -106,17 +135,27 @@ export function createSampler(grammar: Grammar, opts: SampleOptions): Sampler {
     const h = scope.length > 0;
     const ctors = info.sort.get(sort)!.constructors.map((n) => info.ctor.get(n)!);
     const eligible = ctors.filter((c) => weight(c) > 0 && tables.ctor(c, h) <= budget);
+    // plausible: a program that is one literal is rare, and trees taper — constructors without a
+    // field of a sort (leaves) weigh 1/100 at the root, 1/2 one level down; the others halve per
+    // level below the second
+    const level = maxDepth - budget + 1;
+    const shaped = (c: Constructor): number => {
+      if (!plausible) return weight(c);
+      const leaf = !c.fields.some((f) => f.type.kind === 'sort');
+      const factor = leaf ? (level === 1 ? 0.01 : level === 2 ? 0.5 : 1) : level <= 2 ? 1 : 0.5 ** (level - 2);
+      return weight(c) * factor;
+    };
     let chosen: Constructor;
     if (eligible.length === 0) {
       // unreachable when the tables are right: the caller only asks for sorts that fit
       throw new SampleError(`internal: no ${sort} constructor fits depth ${budget}`);
     } else {
       let total = 0;
-      for (const c of eligible) total += weight(c);
+      for (const c of eligible) total += shaped(c);
       let r = rand() * total;
       chosen = eligible[eligible.length - 1]!;
       for (const c of eligible) {
-        r -= weight(c);
+        r -= shaped(c);
         if (r < 0) {
           chosen = c;
           break;
@@ -142,13 +181,15 @@ export function createSampler(grammar: Grammar, opts: SampleOptions): Sampler {
       case 'one':
         return one();
       case 'optional':
-        return elementPossible(f, budget, scope) && rand() < 0.5 ? one() : null;
+        return elementPossible(f, budget, scope) && rand() < (plausible ? 0.3 : 0.5) ? one() : null;
       case 'list':
       case 'nonempty': {
         const min = f.card === 'nonempty' ? 1 : 0;
         if (!elementPossible(f, budget, scope)) return [];
-        let n = min;
-        while (n < min + 3 && rand() < 0.5) n++;
+        // plausible: a list is seldom empty (9 in 10 have an element), and seldom long
+        let n = plausible && min === 0 && rand() < 0.9 ? 1 : min;
+        const base = n;
+        while (n < base + 3 && rand() < (plausible ? 0.3 : 0.5)) n++;
         const xs: TreeValue[] = [];
         for (let i = 0; i < n; i++) xs.push(one());
         return xs;
@@ -172,6 +213,10 @@ export function createSampler(grammar: Grammar, opts: SampleOptions): Sampler {
       case 'token': {
         if (f.scoping === 'bound') return pick(scope);
         const tok = info.token.get(f.type.name)!;
+        if (plausible) {
+          const v = f.scoping === 'binds' ? variableName(tok, scope) : plausibleValue(tok, rand);
+          if (v !== null) return v;
+        }
         return tokenValue(tok, rand);
       }
     }
@@ -222,6 +267,30 @@ export function createSampler(grammar: Grammar, opts: SampleOptions): Sampler {
 
 /** draws of a shape before the sampler gives up on a scoped grammar */
 const MAX_ATTEMPTS = 1000;
+
+/** The first of x, y, z, … (with a prefix the class requires) not already in scope, or null. */
+function variableName(tok: TokenInfo, scope: readonly string[]): string | null {
+  for (const prefix of VARIABLE_PREFIXES) {
+    if (tokenValueProblem(tok, prefix + 'x') !== null && tokenValueProblem(tok, prefix + 'y') !== null) continue;
+    for (const letter of VARIABLE_LETTERS) {
+      const name = prefix + letter;
+      if (!scope.includes(name) && tokenValueProblem(tok, name) === null) return name;
+    }
+  }
+  return null;
+}
+
+/** A small or round number, or a plain word, when the class can spell one; else null. */
+function plausibleValue(tok: TokenInfo, rand: () => number): TokenValue | null {
+  const kind = tok.token.value;
+  for (let attempt = 0; attempt < 40; attempt++) {
+    let v: TokenValue;
+    if (kind === 'int' || kind === 'number') v = plausibleNumber(rand, kind === 'number');
+    else v = PLAIN_WORDS[Math.floor(rand() * PLAIN_WORDS.length)]!;
+    if (tokenValueProblem(tok, v) === null) return v;
+  }
+  return null;
+}
 
 function lexeme(tok: TokenInfo, rand: () => number): string {
   const parts: string[] = [];

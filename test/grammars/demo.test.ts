@@ -3,6 +3,7 @@
  * gives the canonical text, the rows SQLite returns for it, and located errors for the broken
  * programs.
  */
+import { readFileSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
 import { compactJson, runDemo } from '../../src/cli/commands/demo.ts';
 import { coopDatabase } from './support.ts';
@@ -46,6 +47,22 @@ describe('demo', () => {
     // every sampled SQL program is shown with SQLite's verdict
     const verdicts = lines.filter((l) => l.startsWith('    SQLite: '));
     expect(verdicts.length).toBe(4);
+    // it says why the questions were picked, and what the timing line means
+    expect(text).toContain('were picked because the bare model writes invalid');
+    expect(text).toContain('"masks" the time spent computing the allowed');
+    // the shipped evaluation's figures, as its metrics.json files give them (never typed)
+    for (const target of ['sql', 'lf']) {
+      const m = JSON.parse(readFileSync(`models/coop/eval/${target}/metrics.json`, 'utf8'));
+      for (const split of ['test', 'compositional']) {
+        for (const mode of ['unconstrained', 'constrained']) {
+          const r = m[split][mode];
+          const want = ['valid', 'well_typed', 'executable', 'execution_accuracy'].map((k) => `${(100 * r[k].rate).toFixed(1)} %`);
+          const row = lines.find((l) => new RegExp(`^\\s+${target}\\s+${split} \\(${r.valid.n}\\)\\s+${mode}\\s`).test(l));
+          expect(row, `${target} ${split} ${mode}`).toBeDefined();
+          expect(row!.trim().split(/\s{2,}/).slice(3)).toEqual(want);
+        }
+      }
+    }
   });
 
   it('compactJson keeps short values on one line and breaks long ones', () => {

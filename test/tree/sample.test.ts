@@ -116,3 +116,45 @@ describe('token values', () => {
     });
   });
 });
+
+describe('plausible sampling (treewright sample\'s default)', () => {
+  // what "plausible" promises (SampleOptions.plausible): same contract as the uniform draw, and
+  // programs shaped like people's: few one-literal programs, x/y/z variables, small or round numbers
+  const isLeaf = (t: Tree) => !Object.values(t).some((v) => (Array.isArray(v) ? v.length > 0 : v !== null && typeof v === 'object'));
+  it.each(['arith', 'json', 'lf', 'sql'])('%s: well-typed, within the depth bound, reproducible', (g) => {
+    const a = createSampler(grammar(g), { seed: 9, maxDepth: 4, plausible: true });
+    const b = createSampler(grammar(g), { seed: 9, maxDepth: 4, plausible: true });
+    for (let i = 0; i < 100; i++) {
+      const t = a.next();
+      expect(b.next()).toEqual(t);
+      expect(depth(t)).toBeLessThanOrEqual(4);
+      expect(validateTree(grammar(g), t)).toBeNull();
+    }
+  });
+  it('json: a one-literal document is rare (uniform: most of them)', () => {
+    const count = (plausible: boolean) => {
+      const s = createSampler(grammar('json'), { seed: 4, maxDepth: 4, plausible });
+      let leaves = 0;
+      for (let i = 0; i < 300; i++) if (isLeaf(s.next())) leaves++;
+      return leaves;
+    };
+    expect(count(true)).toBeLessThan(45);
+    expect(count(false)).toBeGreaterThan(150);
+  });
+  it('lf: variables are $x, $y, $z … in binding order; numbers are small or round', () => {
+    const s = createSampler(grammar('lf'), { seed: 2, maxDepth: 5, plausible: true });
+    const vars = new Set<string>();
+    const numbers: number[] = [];
+    const walk = (v: TreeValue, key: string) => {
+      if (Array.isArray(v)) v.forEach((x) => walk(x, key));
+      else if (v !== null && typeof v === 'object') for (const [k, x] of Object.entries(v)) walk(x as TreeValue, k);
+      else if (typeof v === 'string' && v.startsWith('$')) vars.add(v);
+      else if (typeof v === 'number') numbers.push(v);
+    };
+    for (let i = 0; i < 200; i++) walk(s.next(), '');
+    expect(vars.size).toBeGreaterThan(0);
+    for (const v of vars) expect(['$x', '$y', '$z', '$w', '$v', '$u', '$t', '$s']).toContain(v);
+    expect(numbers.length).toBeGreaterThan(0);
+    for (const n of numbers) expect(n <= 10 || n % 5 === 0 || (n >= 1990 && n <= 2025) || n * 4 === Math.round(n * 4), String(n)).toBe(true);
+  });
+});

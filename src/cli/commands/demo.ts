@@ -98,7 +98,7 @@ const sampleSection: DemoSection = {
     for (let seed = 1; seed <= 4; seed++) {
       const table = tables[seed % tables.length]!;
       const names = { Table: [table], Column: [...ctx.schema.get(table)!] };
-      const tree = sampleTree(sql, { seed, maxDepth: 4, names, weights: { join: 0 } });
+      const tree = sampleTree(sql, { seed, maxDepth: 4, names, weights: { join: 0 }, plausible: true });
       const text = printTree(sql, tree);
       out('  ' + text);
       out('    SQLite: ' + sqliteVerdict(ctx.database, text));
@@ -107,7 +107,7 @@ const sampleSection: DemoSection = {
       const g = ctx.grammars.get(name)!;
       out('');
       out(`${name} (the first trees of the stream for seed 1):`);
-      const stream = createSampler(g, { seed: 1, maxDepth: 4, names: ctx.names.get(name) ?? {} });
+      const stream = createSampler(g, { seed: 1, maxDepth: 4, names: ctx.names.get(name) ?? {}, plausible: true });
       for (let i = 0; i < 4; i++) out('  ' + printTree(g, stream.next()));
     }
   },
