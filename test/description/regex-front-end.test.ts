@@ -214,3 +214,50 @@ describe('generated token regexes against V8 RegExp', () => {
     expect(refused).toBeLessThan(150);
   }, 300_000);
 });
+
+describe('case folding tables against V8', () => {
+  it('every simple case folding pair of the generated table (Unicode 17.0.0) matches under /iu in V8, and the front-end agrees', async () => {
+    const { SIMPLE_FOLDING } = await import('../../src/description/regex/casefold-data.ts');
+    const { caseClose } = await import('../../src/description/regex/casefold.ts');
+    const { setHas } = await import('../../src/description/regex/charset.ts');
+    let from = 0;
+    let n = 0;
+    for (let i = 0; i < SIMPLE_FOLDING.length; i += 2) {
+      from += SIMPLE_FOLDING[i]!;
+      const to = from + SIMPLE_FOLDING[i + 1]!;
+      const esc = (c: number) => `\\u{${c.toString(16)}}`;
+      // a runtime with an older Unicode than the table's does not know newer letters: skip those
+      if (/\p{Cn}/u.test(String.fromCodePoint(from)) || /\p{Cn}/u.test(String.fromCodePoint(to))) continue;
+      expect(new RegExp(`^${esc(from)}$`, 'iu').test(String.fromCodePoint(to)), `U+${from.toString(16)} ~ U+${to.toString(16)}`).toBe(true);
+      expect(setHas(caseClose([from, from], true), to)).toBe(true);
+      n++;
+    }
+    expect(n).toBeGreaterThan(1400);
+  });
+
+  it('without u, every BMP unit is closed exactly as V8 matches it against its upper and lower case', async () => {
+    const { caseClose } = await import('../../src/description/regex/casefold.ts');
+    const { setHas } = await import('../../src/description/regex/charset.ts');
+    for (let c = 0; c <= 0xffff; c += 7) {
+      if (c >= 0xd800 && c <= 0xdfff) continue;
+      const closed = caseClose([c, c], false);
+      const re = new RegExp(`^\\u${c.toString(16).padStart(4, '0')}$`, 'i');
+      for (const v of [String.fromCharCode(c).toUpperCase(), String.fromCharCode(c).toLowerCase()]) {
+        if (v.length !== 1) continue;
+        expect(setHas(closed, v.charCodeAt(0)), `U+${c.toString(16)} ~ ${v}`).toBe(re.test(v));
+      }
+    }
+  });
+});
+
+describe('patterns that make a backtracking engine exponential (V8 needs seconds at 30 characters)', () => {
+  it('(a+)+b: the lexeme test, the parser and the automaton answer in linear time', () => {
+    const { grammar: g } = check('(a+)+b', '');
+    const text = 'a'.repeat(5000); // no b: V8's RegExp would backtrack 2^5000 ways
+    expect(grammarInfo(g!).token.get('T')!.matches(text)).toBe(false);
+    expect(() => createParser(g!).parse(text)).toThrow(/expected/);
+    const b = new Automaton(g!).bind({});
+    expect(b.isComplete(b.advanceBytes(b.start, utf8.encode(text)))).toBe(false);
+    expect(grammarInfo(g!).token.get('T')!.matches(text + 'b')).toBe(true);
+  }, 60_000);
+});
