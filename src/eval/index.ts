@@ -16,15 +16,18 @@
  * and up to three executions (gold once, each output once; bounded by the executors' limits);
  * one fsync per row. Metrics: 2000 bootstrap resamples × n draws per split (the five differences
  * share the resamples), well under a second for a few thousand items. The report is ~250 KB plus ~1 KB per example.
- * Limits: one decode at a time (no batching); the latency recorded is the wall-clock time of the
+ * Who decodes: this process (inProcess), N local child processes (pool.ts), or workers on other
+ * machines through Redis (src/queue/); the rows and metrics are the same whichever does.
+ * Limits: one decode at a time per process (no batching); the latency recorded is the wall-clock time of the
  * decode call on a machine that may be shared; the taxonomy keys on the parser's first error, so
  * an output with several faults is counted once, where it first went wrong.
  */
-export { runEvaluation, sameTree, runtimeCategory, checkRow, MEASURES, MODES, type DecodeFn, type DecodeOutput, type EvalItem, type EvalRow, type Failure, type Mode, type Scorer, type Analysis } from './run.ts';
+export { runEvaluation, RowMaker, jobsOf, type Job, sameTree, runtimeCategory, checkRow, MEASURES, MODES, type DecodeFn, type DecodeOutput, type EvalItem, type EvalRow, type Failure, type Mode, type Scorer, type Analysis } from './run.ts';
 export { ResultsLog, rowKey } from './log.ts';
 export { computeMetrics, computeTaxonomy, RATE_METRICS, type Metrics, type ModeMetrics, type SplitMetrics, type TaxonomyEntry } from './metrics.ts';
 export { wilsonInterval, wilsonRate, pairedBootstrapDifferences, mcnemarExact, mcnemarPaired, quantile, BOOTSTRAP_RESAMPLES, BOOTSTRAP_SEED, Z_95, type RateCI, type DifferenceCI } from './stats.ts';
 export { renderReport, writeReport, type ReportInput } from './report.ts';
 export { resultsTable, type TableInput } from './table.ts';
 export { createScorer, sameAnswer, type ScorerOptions } from './target.ts';
-export { evaluate, loadItems, type EvaluateOptions, type EvaluateResult, type LoadItemsOptions } from './evaluate.ts';
+export { processPool, serveJobs, type PoolOptions } from './pool.ts';
+export { evaluate, inProcess, loadItems, type RowProducer, type EvaluateOptions, type EvaluateResult, type LoadItemsOptions } from './evaluate.ts';
