@@ -41,6 +41,15 @@ export class WalkContext {
   deferFrames: unknown = null;
   /** keep context: a scope-sensitive option started away from the position's own level */
   unkeepable = false;
+  /** keep context: the option the walk started with at the position's own level (-1: none yet) */
+  curOrigin = -1;
+  /** keep context: options of the position's own level under which a sensitive option started deeper */
+  readonly deepHits: number[] = [];
+  /**
+   * options of the position's own level deferred whole (a sensitive option starts inside their
+   * continuation): left out while keeping (defer 1), walked by the live pass (defer 2)
+   */
+  deepSet: ReadonlySet<number> | null = null;
   /** keep context, sub-local walks: marked token ids are appended here instead of set in `mask` */
   collect: number[] | null = null;
   /** keep context: the trie nodes where the stand-in frame was popped */
@@ -70,13 +79,16 @@ export class WalkContext {
   }
 
   /** Keep context: starts a kept-mask computation into `mask` (or into `collect`, when given). */
-  beginKept(mask: Uint32Array, collect: number[] | null, deferFrames: unknown = null, scopes = false): void {
+  beginKept(mask: Uint32Array, collect: number[] | null, deferFrames: unknown = null, scopes = false, deep: ReadonlySet<number> | null = null): void {
     this.mask = mask;
     this.collect = collect;
     this.defer = scopes ? 1 : 0;
     this.origin = true;
     this.deferFrames = deferFrames;
     this.unkeepable = false;
+    this.curOrigin = -1;
+    this.deepHits.length = 0;
+    this.deepSet = deep;
     this.lim = INF;
     this.rootPrevWord = false;
     this.maxSeen = 0;

@@ -33,8 +33,10 @@ interface LocalMask {
   readonly ids: Uint32Array | null;
   readonly maxDist: number;
   readonly pops: Uint32Array;
-  /** a scope-sensitive option starts below the position's own level: walk it live instead */
+  /** a scope-sensitive option starts where no option of the position's own level can carry it: walk the position live */
   readonly unkeepable: boolean;
+  /** options of the position's own level left to the live pass whole (see WalkContext.deepSet) */
+  readonly deep: ReadonlySet<number> | null;
 }
 
 interface LexLocal {
@@ -46,6 +48,7 @@ interface LexLocal {
   readonly popsLex: Uint32Array;
   readonly popsRoot: Uint32Array;
   readonly unkeepable: boolean;
+  readonly deep: ReadonlySet<number> | null;
 }
 
 interface SubLocal {
@@ -53,6 +56,7 @@ interface SubLocal {
   readonly maxDist: number;
   readonly pops: Uint32Array;
   readonly unkeepable: boolean;
+  readonly deep: ReadonlySet<number> | null;
 }
 
 const NO_POPS = new Uint32Array(0);
@@ -105,7 +109,7 @@ export class KeptMasks implements KeptMaskSource {
     ctx.orPacked(local.bits, local.ids, ctx.rootPrevWord);
     // after the program's end only spaces follow: the local mask already has them
     if (frames !== null) this.resumeAtRoot(ctx, local.pops, frames);
-    if (ctx.res !== null) this.walker.walkDeferred(ctx, 0, node, frames);
+    if (ctx.res !== null) this.walker.walkDeferred(ctx, 0, node, frames, local.deep);
     return true;
   }
 
@@ -120,8 +124,8 @@ export class KeptMasks implements KeptMaskSource {
     }
     if (ctx.res !== null) {
       const ex = tables.exits[d];
-      for (let i = 0; i < ex.length; i++) this.walker.walkDeferred(ctx, ex[i], node, frames);
-      if (local.rootBits !== null) this.walker.walkDeferred(ctx, 0, node, frames);
+      for (let i = 0; i < ex.length; i++) this.walker.walkDeferred(ctx, ex[i], node, frames, local.deep);
+      if (local.rootBits !== null) this.walker.walkDeferred(ctx, 0, node, frames, local.deep);
     }
     return true;
   }
@@ -131,7 +135,7 @@ export class KeptMasks implements KeptMaskSource {
     if (sub.unkeepable || sub.maxDist + (frames === null ? 0 : frames.rest) + this.pda.penaltyBound(ctx.res) > ctx.lim) return false;
     ctx.markIds(sub.ids);
     if (frames !== null) this.resumeBelow(ctx, sub.pops, frames);
-    if (ctx.res !== null) this.walker.walkDeferred(ctx, x, node, frames);
+    if (ctx.res !== null) this.walker.walkDeferred(ctx, x, node, frames, sub.deep);
     return true;
   }
 
@@ -166,11 +170,22 @@ export class KeptMasks implements KeptMaskSource {
     const hit = this.locals[n];
     if (hit !== undefined) return hit;
     const k = this.keep;
-    const bits = new Uint32Array(this.walker.vt.nWords);
-    k.beginKept(bits, null, SENTINEL, this.pda.scopes !== null);
-    this.walker.maskBetween(k, n, SENTINEL, null);
-    const entry: LocalMask = { bits, ids: sparseIds(bits), maxDist: k.maxSeen, pops: k.takePops(), unkeepable: k.unkeepable };
-    k.end();
+    let deep: Set<number> | null = null;
+    let entry: LocalMask;
+    for (;;) {
+      const bits = new Uint32Array(this.walker.vt.nWords);
+      k.beginKept(bits, null, SENTINEL, this.pda.scopes !== null, deep);
+      this.walker.maskBetween(k, n, SENTINEL, null);
+      const more = this.moreDeep(deep);
+      if (more !== null) {
+        deep = more;
+        k.end();
+        continue;
+      }
+      entry = { bits, ids: sparseIds(bits), maxDist: k.maxSeen, pops: k.takePops(), unkeepable: k.unkeepable, deep };
+      k.end();
+      break;
+    }
     this.locals[n] = entry;
     return entry;
   }
@@ -181,11 +196,22 @@ export class KeptMasks implements KeptMaskSource {
     const hit = this.subLocals.get(key);
     if (hit !== undefined) return hit;
     const k = this.keep;
-    const ids: number[] = [];
-    k.beginKept(NO_MASK, ids, SENTINEL, this.pda.scopes !== null);
-    this.walker.walkBetween(k, x, n, SENTINEL, null);
-    const entry: SubLocal = { ids: Uint32Array.from(new Set(ids)), maxDist: k.maxSeen, pops: k.takePops(), unkeepable: k.unkeepable };
-    k.end();
+    let deep: Set<number> | null = null;
+    let entry: SubLocal;
+    for (;;) {
+      const ids: number[] = [];
+      k.beginKept(NO_MASK, ids, SENTINEL, this.pda.scopes !== null, deep);
+      this.walker.walkBetween(k, x, n, SENTINEL, null);
+      const more = this.moreDeep(deep);
+      if (more !== null) {
+        deep = more;
+        k.end();
+        continue;
+      }
+      entry = { ids: Uint32Array.from(new Set(ids)), maxDist: k.maxSeen, pops: k.takePops(), unkeepable: k.unkeepable, deep };
+      k.end();
+      break;
+    }
     this.subLocals.set(key, entry);
     return entry;
   }
@@ -203,25 +229,49 @@ export class KeptMasks implements KeptMaskSource {
     const k = this.keep;
     const w = this.walker;
     const nWords = w.vt.nWords;
-    const bits = new Uint32Array(nWords);
-    k.beginKept(bits, null, SENTINEL, this.pda.scopes !== null);
-    w.orInside(k, tables, d, INF - this.pda.betweenDist(n, null, SENTINEL), false);
-    const ex = tables.exits[d];
-    for (let i = 0; i < ex.length; i++) w.walkBetween(k, ex[i], n, SENTINEL, null);
-    const popsLex = k.takePops();
-    let rootBits: Uint32Array | null = null;
-    let popsRoot: Uint32Array = NO_POPS;
-    if (tables.dfa.accept[d]) {
-      // same keep walk (maxSeen carries over), into a second bitset
-      rootBits = new Uint32Array(nWords);
-      k.mask = rootBits;
-      w.maskBetween(k, n, SENTINEL, null);
-      popsRoot = k.takePops();
+    let deep: Set<number> | null = null;
+    let entry: LexLocal;
+    for (;;) {
+      const bits = new Uint32Array(nWords);
+      k.beginKept(bits, null, SENTINEL, this.pda.scopes !== null, deep);
+      w.orInside(k, tables, d, INF - this.pda.betweenDist(n, null, SENTINEL), false);
+      const ex = tables.exits[d];
+      for (let i = 0; i < ex.length; i++) w.walkBetween(k, ex[i], n, SENTINEL, null);
+      const popsLex = k.takePops();
+      let rootBits: Uint32Array | null = null;
+      let popsRoot: Uint32Array = NO_POPS;
+      if (tables.dfa.accept[d]) {
+        // same keep walk (maxSeen carries over), into a second bitset
+        rootBits = new Uint32Array(nWords);
+        k.mask = rootBits;
+        w.maskBetween(k, n, SENTINEL, null);
+        popsRoot = k.takePops();
+      }
+      const more = this.moreDeep(deep);
+      if (more !== null) {
+        deep = more;
+        k.end();
+        continue;
+      }
+      entry = { bits, ids: sparseIds(bits), rootBits, rootIds: rootBits === null ? null : sparseIds(rootBits), maxDist: k.maxSeen, popsLex, popsRoot, unkeepable: k.unkeepable, deep };
+      k.end();
+      break;
     }
-    const entry: LexLocal = { bits, ids: sparseIds(bits), rootBits, rootIds: rootBits === null ? null : sparseIds(rootBits), maxDist: k.maxSeen, popsLex, popsRoot, unkeepable: k.unkeepable };
-    k.end();
     perClass.set(key, entry);
     return entry;
+  }
+
+  /**
+   * After a keep walk: the deferred-whole set grown by the options under which a sensitive option
+   * started deeper (null when none did: the walk is final). Each round defers at least one more
+   * option of the position's own level, so the rounds end.
+   */
+  private moreDeep(deep: Set<number> | null): Set<number> | null {
+    const hits = this.keep.deepHits;
+    if (hits.length === 0 || this.keep.unkeepable) return null;
+    const out = new Set(deep ?? []);
+    for (const o of hits) out.add(o);
+    return out;
   }
 
   /** Computes the local mask of every RTN node a BETWEEN position can be at. Returns the count. */

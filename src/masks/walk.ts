@@ -129,27 +129,35 @@ export class TrieWalker implements LevelVisitor<WalkContext> {
    * The scope-sensitive options of the BETWEEN position (node, frames) from the trie root — the
    * part of its mask a kept mask leaves out (kept.ts); `x` ≠ 0: below trie node x.
    */
-  walkDeferred(ctx: WalkContext, x: number, node: number, frames: Frame | null): void {
+  walkDeferred(ctx: WalkContext, x: number, node: number, frames: Frame | null, deep: ReadonlySet<number> | null): void {
     const d0 = ctx.defer;
     const o0 = ctx.origin;
     const f0 = ctx.deferFrames;
+    const s0 = ctx.deepSet;
     ctx.defer = 2;
     ctx.origin = true;
     ctx.deferFrames = frames;
+    ctx.deepSet = deep;
     if (x === 0) this.maskBetween(ctx, node, frames, null);
     else this.walkBetween(ctx, x, node, frames, null);
     ctx.defer = d0;
     ctx.origin = o0;
     ctx.deferFrames = f0;
+    ctx.deepSet = s0;
   }
 
   /** Option o is left out here: deferral of scope-sensitive options (WalkContext.defer). */
   private skipOption(ctx: WalkContext, o: number, frames: Frame | null): boolean {
     if (ctx.defer === 0) return false;
     const sens = this.a.optSensitive[o] === 1;
-    if (ctx.origin && frames === ctx.deferFrames) return ctx.defer === 1 ? sens : !sens;
+    if (ctx.origin && frames === ctx.deferFrames) {
+      const whole = sens || (ctx.deepSet !== null && ctx.deepSet.has(o));
+      return ctx.defer === 1 ? whole : !whole;
+    }
     if (ctx.defer === 1 && sens) {
-      ctx.unkeepable = true;
+      // deeper inside a token: defer the whole option of the position's own level it came from
+      if (ctx.curOrigin >= 0) ctx.deepHits.push(ctx.curOrigin);
+      else ctx.unkeepable = true;
       return true;
     }
     return false;
@@ -230,6 +238,8 @@ export class TrieWalker implements LevelVisitor<WalkContext> {
           ctx.res = info.res;
           pen = info.pen;
         }
+        const cur = ctx.curOrigin;
+        if (origin) ctx.curOrigin = o;
         ctx.origin = false;
         const tables = this.classes[this.rtn.terminals[a.optTerm[o]].tokenClass]!;
         const target = a.optTarget[o];
@@ -247,6 +257,7 @@ export class TrieWalker implements LevelVisitor<WalkContext> {
         }
         ctx.res = lr;
         ctx.origin = origin;
+        ctx.curOrigin = cur;
       }
       const d = pda.dispatch(node, mode, true);
       const bytes = d.bytes;
@@ -312,6 +323,8 @@ export class TrieWalker implements LevelVisitor<WalkContext> {
         pen = info.pen;
         ctx.res = info.res;
       }
+      const cur = ctx.curOrigin;
+      if (origin) ctx.curOrigin = o;
       ctx.origin = false;
       if (kind === 'lit' || kind === 'class' || kind === 'names') {
         const rest = pda.nodeDist(target, env) + pda.pushedRest(o, frames, env) + pen;
@@ -324,6 +337,7 @@ export class TrieWalker implements LevelVisitor<WalkContext> {
       }
       ctx.res = lr;
       ctx.origin = origin;
+      ctx.curOrigin = cur;
     }
   }
 
