@@ -58,7 +58,7 @@ export function namesFor(name: GrammarName): NameBindings {
     case 'arith':
       return loadNames(join(ROOT, 'grammars/arith/samples/names.json'));
     case 'lf':
-      return loadNames(join(ROOT, 'grammars/lf/samples/names.json'));
+      return loadNames(join(ROOT, 'grammars/lf/samples/names.json'), grammar('lf')); // kinds: the object form is read with the grammar
     case 'sql':
       return demoSqlNames();
     case 'json':
