@@ -6,6 +6,7 @@
  * Uses the mask cache (`--cache DIR`; `--no-cache`).
  * Exit 1 with a message on stderr for bad input (grammar, tokenizer, names, cache directory).
  */
+import { byteFallbackIds } from '../../vocab/index.ts';
 import { readFileSync } from 'node:fs';
 import type { Command } from 'commander';
 import { loadOrCompile } from '../../masks/index.ts';
@@ -58,9 +59,17 @@ export const register: RegisterCommand = (program: Command, setExit) => {
           if (ids.length > 0) {
             const step = Math.max(1, Math.floor(ids.length / 24));
             const sample: string[] = [];
+            let byteIds: ReadonlySet<number> = new Set();
+            try {
+              byteIds = byteFallbackIds(JSON.parse(readFileSync(opts.tokenizer, 'utf8')), opts.tokenizer);
+            } catch {
+              // the tokenizer was read once already; byte tokens are then only not marked
+            }
             for (let i = 0; i < ids.length && sample.length < 24; i += step) {
               const id = ids[i];
-              sample.push(`${id}:${v.eosIds.includes(id) ? '<end of sequence>' : JSON.stringify(v.text(id))}`);
+              // a byte-fallback token is shown as its piece (<0x61>), apart from the ordinary "a"
+              const byte = byteIds.has(id) ? `<0x${v.byteAt(id, 0).toString(16).toUpperCase().padStart(2, '0')}>` : null;
+              sample.push(`${id}:${v.eosIds.includes(id) ? '<end of sequence>' : (byte ?? JSON.stringify(v.text(id)))}`);
             }
             lines.push(`sample:   ${sample.join('  ')}`);
           }
