@@ -228,4 +228,24 @@ describe('slow SQL never holds the model slots', () => {
       await a.close();
     }
   });
+
+  it('a decode whose program cannot get an executor slot still answers with its program', async () => {
+    const registry = await Registry.open({ models: ['test/fixtures/tiny-seq2seq'], warm: false, threads: 1, grammars: ['sql'], sqlTimeoutMs: 1500 });
+    const a = await buildServer(registry, { execActive: 1, execQueued: 0 });
+    try {
+      const slow = 'SELECT lots.id FROM lots JOIN sheds ON lots.id = lots.id JOIN growers ON lots.id = lots.id JOIN orchards ON lots.id = lots.id JOIN varieties ON lots.id = lots.id ORDER BY growers.name, orchards.name DESC LIMIT 3';
+      const busy = a.inject({ method: 'POST', url: '/api/execute', payload: { grammar: 'sql', text: slow } });
+      await new Promise((r) => setTimeout(r, 20));
+      const d = await a.inject({ method: 'POST', url: '/api/decode', payload: { question: 'how many sheds', grammar: 'sql', max_tokens: 40, execute: true } });
+      expect(d.statusCode).toBe(200);
+      const body = d.json() as { text: string; well_typed: boolean; answer: { ok: boolean; error?: string } };
+      expect(typeof body.text).toBe('string');
+      // constrained decoding of the fixture gives a well-typed program here, so its run was attempted
+      expect(body.well_typed).toBe(true);
+      expect(body.answer).toEqual({ ok: false, error: expect.stringMatching(/^not run: the server is busy/) });
+      await busy;
+    } finally {
+      await a.close();
+    }
+  });
 });

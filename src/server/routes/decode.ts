@@ -136,7 +136,13 @@ export function register(app: FastifyInstance, ctx: ServerContext): void {
     if (program !== null) {
       const run = g.execute!;
       const tree = program;
-      out.answer = await withExecSlot(ctx, () => run(tree, { grammar: g.grammar, timeoutMs: ctx.timeLimitMs }));
+      try {
+        out.answer = await withExecSlot(ctx, () => run(tree, { grammar: g.grammar, timeoutMs: ctx.timeLimitMs }));
+      } catch (e) {
+        // the decoded program is still the answer to this request: only its run is refused
+        if (!(e instanceof ApiError) || e.status !== 503) throw e;
+        out.answer = { ok: false, error: `not run: ${e.message}` };
+      }
     }
     return out;
   });
