@@ -53,7 +53,10 @@ export function validateTree(grammar: Grammar, value: unknown, opts: ValidateOpt
   // the checks below recurse once per level: deeper values are refused first (src/util/depth.ts)
   const deep = jsonDepthProblem(value, MAX_JSON_DEPTH);
   if (deep !== null) return { path: deep, message: tooDeepMessage(MAX_JSON_DEPTH) };
-  return checkNode(info, opts.names, value, sort, '$', []);
+  const issue = checkNode(info, opts.names, value, sort, '$', []);
+  if (issue !== null || !grammar.scoped || opts.resolve === false) return issue;
+  const first = resolveTree(grammar, value as Tree, opts.names)[0];
+  return first === undefined ? null : { path: first.path, message: first.message };
 }
 
 /** Throws TreeError when validateTree finds a problem. */

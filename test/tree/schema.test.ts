@@ -8,7 +8,7 @@ import { Ajv2020 } from 'ajv/dist/2020.js';
 import { describe, expect, it } from 'vitest';
 import { loadGrammar } from '../../src/description/index.ts';
 import type { Grammar, NameBindings } from '../../src/description/ir.ts';
-import { createSampler, mulberry32, toJsonSchema, validateTree, type Tree, type TreeValue } from '../../src/tree/index.ts';
+import { createSampler, mulberry32, namesFromJson, toJsonSchema, validateTree, type Tree, type TreeValue } from '../../src/tree/index.ts';
 
 
 const SAMPLES = 250;
@@ -130,4 +130,31 @@ describe.each(GRAMMARS)('%s', (name) => {
       throw new Error(`no ${field.c.name} node in 200 samples`);
     });
   }
+});
+
+describe('sql with owners bound: what the schema says about scopes', () => {
+  const grammar = loadGrammar('grammars/sql/sql.twg');
+  const names = namesFromJson({ Table: ['growers', 'orchards'], Column: { id: ['growers', 'orchards'], village: ['growers'], hectares: ['orchards'] } }, 'names', grammar);
+  const ajv = new Ajv2020({ strict: true, allErrors: false });
+  const validate = ajv.compile(toJsonSchema(grammar, names));
+  const query = (col: unknown) => ({ kind: 'select', distinct: null, items: [{ kind: 'column', col }], from: 'growers', joins: [], where: null, order: [], limit: null });
+
+  it('a qualified column must belong to its table (if/then per table)', () => {
+    expect(validate(query({ kind: 'col', table: 'growers', column: 'village' }))).toBe(true);
+    expect(validate(query({ kind: 'col', table: 'growers', column: 'hectares' }))).toBe(false);
+    expect(validateTree(grammar, query({ kind: 'col', table: 'growers', column: 'hectares' }), { names })?.message).toBe(
+      '`hectares` is not a Column of `growers` (its Column names: id, village)',
+    );
+  });
+
+  it('what needs the rest of the tree is described, and left to validateTree', () => {
+    // `hectares` is a column, but of no table in this query: only validateTree sees it
+    const tree = query({ kind: 'col', table: null, column: 'hectares' });
+    expect(validate(tree)).toBe(true);
+    expect(validateTree(grammar, tree, { names })?.message).toBe('`hectares` is not a Column of any Table in scope (growers)');
+    const col = ((toJsonSchema(grammar, names).$defs as Record<string, { oneOf: { properties: Record<string, { description?: string }> }[] }>).ColumnRef!).oneOf[0]!;
+    expect(col.properties.column!.description).toBe(
+      'must be a Column of exactly one Table in the innermost scope that has one (the one named by table when present) (checked by validateTree, not by this schema)',
+    );
+  });
 });
