@@ -112,5 +112,8 @@ export function locateJsonError(text: string): JsonErrorLocation | null {
     const after = root !== undefined && first.offset >= root.offset + root.length;
     message = `found \`${found}\`; expected ${code === 'InvalidNumberFormat' ? 'a JSON number' : after ? 'the end of the text' : 'a JSON value'}`;
   }
-  return { offset: first.offset, ...lineColumn(text, first.offset), message };
+  // An unterminated string is located where its closing quote was due (the line break or the end
+  // of the text), as V8's JSON.parse reports it, not at its opening quote.
+  const offset = code === 'UnexpectedEndOfString' ? first.offset + first.length : first.offset;
+  return { offset, ...lineColumn(text, offset), message };
 }
