@@ -1,6 +1,6 @@
 /**
  * `treewright bench --decode --model DIR --grammar G [--db F|--names F] --questions FILE.jsonl
- * --limit N [--beam K] [--json]`: what the masks cost inside the decoder loop, measured in one
+ * --limit N [--decode-beam K] [--json]`: what the masks cost inside the decoder loop, measured in one
  * process and one run — unconstrained and constrained decoding interleaved question by question
  * (the order alternates), so the machine's load hits both alike.
  *

@@ -291,7 +291,7 @@ interface Flags {
   model?: string;
   questions?: string;
   limit: number;
-  beam: number;
+  decodeBeam: number;
   maxTokens?: number;
   prefix?: string;
   threads?: number;
@@ -361,7 +361,7 @@ export const register: RegisterCommand = (program: Command, setExit) => {
     .addOption(new Option('--model <dir>', '--decode: model folder (config.json, tokenizer.json, onnx/…)'))
     .addOption(new Option('--questions <file>', '--decode: JSON lines with a "question" field'))
     .addOption(new Option('--limit <n>', '--decode: first N questions').argParser(integer(2)).default(40))
-    .addOption(new Option('--beam <k>', '--decode: beam width of the beam-search runs').argParser(integer(1, 64)).default(4))
+    .addOption(new Option('--decode-beam <k>', '--decode: beam width of the beam-search runs').argParser(integer(1, 64)).default(4))
     .addOption(opt.maxTokens())
     .addOption(opt.inputPrefix())
     .addOption(new Option('--threads <n>', '--decode: onnxruntime intra-op threads (default: its choice)').argParser(integer(1, 256)))
@@ -390,7 +390,7 @@ export const register: RegisterCommand = (program: Command, setExit) => {
           if (!opts.grammar || !opts.model || !opts.questions) throw new UsageError('bench --decode: expected --model DIR --grammar G --questions FILE.jsonl');
           const { model, questions } = opts;
           await withInputs({ ...opts, grammar: opts.grammar }, async ({ grammar, names }) => {
-            const r = await runDecodeBench(grammar, names ?? defaultNames(grammar), { model, questions, limit: opts.limit, beam: opts.beam, maxTokens: opts.maxTokens, prefix: opts.prefix, threads: opts.threads, spinning: opts.spinning, oneCallPerToken: opts.oneCallPerToken });
+            const r = await runDecodeBench(grammar, names ?? defaultNames(grammar), { model, questions, limit: opts.limit, beam: opts.decodeBeam, maxTokens: opts.maxTokens, prefix: opts.prefix, threads: opts.threads, spinning: opts.spinning, oneCallPerToken: opts.oneCallPerToken });
             const file = figuresFile(opts.writeFigures);
             if (file !== null) {
               writeFiguresSection({ id: `decode-${r.grammar}${r.spinning ? '-spinning' : ''}${r.forced_runs ? '' : '-per-token'}`.replace(/[^A-Za-z0-9_.-]+/g, '-'), title: `Decoding: masks inside the decoder loop (${r.grammar}, ${r.model.replace(ROOT, '')})`, command: commandLine(), body: decodeBenchTable(r), data: r, machine: machine() }, file);
