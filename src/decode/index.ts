@@ -14,7 +14,7 @@
  *   const grammar = loadGrammar('grammars/sql/sql.twg');
  *   const r = await generate(model, 'sql: which sheds hold elstar?', {
  *     grammar, names: namesFromDatabase('demo.db'), strategy: 'beam', beamWidth: 4 });
- *   r.text; r.tree; r.well_typed;                 // constrained: parses and is well-typed
+ *   r.text; r.tree; r.well_typed;                 // constrained: parses; names resolve (kinds: see README)
  *   for await (const t of decodeStream(model, q, { constraint })) process.stdout.write(t.text);
  *
  * Cost per step: one batched decoder call, plus per hypothesis one mask fill (the mask engine's

@@ -78,15 +78,23 @@ export function grammar(name: GrammarName): Grammar {
 }
 
 /**
- * The grammar the nearley oracle (oracle.ts) is built from: the shipped grammar, except lf with its
- * scoping markers removed (the oracle is context-free; scoping has its own tests).
+ * The grammar the nearley oracle (oracle.ts) is built from: the shipped grammar with its scoping,
+ * relation and kind markers removed (the oracle is context-free; variable scoping, name scopes and
+ * kinds have their own tests: automaton/pda.test.ts, masks/walks.test.ts, masks/scopes.test.ts,
+ * tree/resolve.test.ts).
  */
 export function oracleGrammar(name: GrammarName): Grammar {
-  if (name !== 'lf') return grammar(name);
+  if (name !== 'lf' && name !== 'sql') return grammar(name);
   let g = oracleCache.get(name);
   if (!g) {
-    const text = readFileSync(join(ROOT, 'grammars/lf/lf.twg'), 'utf8').replace(/: (new|bound) /g, ': ');
-    const file = join(mkdtempSync(join(tmpdir(), 'tw-oracle-')), 'lf-unscoped.twg');
+    const text = readFileSync(join(ROOT, `grammars/${name}/${name}.twg`), 'utf8')
+      .replace(/^kinds .*$/gm, '')
+      .replace(/: (new|bound|enter|known) /g, ': ')
+      .replace(/ by [A-Za-z_]\w*/g, '')
+      .replace(/ kind [A-Za-z_]\w*(\.[A-Za-z_]\w*)?/g, '')
+      .replace(/\) scope\b/g, ')')
+      .replace(/^(names \w+\s+of \w+)\s+(in \w+|with \([^)]*\))/gm, '$1');
+    const file = join(mkdtempSync(join(tmpdir(), 'tw-oracle-')), `${name}-unscoped.twg`);
     writeFileSync(file, text);
     g = loadGrammar(file);
     oracleCache.set(name, g);
