@@ -2,7 +2,7 @@
  * JSON Schema Test Suite cases for keywords new in (or changed by) draft 2020-12 — const,
  * prefixItems, items after prefixItems, numeric exclusiveMinimum/exclusiveMaximum, $defs and $ref
  * (escaped pointers, recursion), string lengths in code points, and the date, date-time and email
- * formats — transcribed from the suite's tests/draft2020-12 files (typed from memory; source file
+ * formats — written out from the suite's tests/draft2020-12 files (typed from memory; source file
  * named in each group of test/cases/from-schema/suite-2020-12.json). Because they are typed from
  * memory, ajv's draft 2020-12 validator (with ajv-formats) must agree with every "valid" flag
  * first. Then, as in suite.test.ts: valid documents parse in canonical key order unless a
@@ -20,10 +20,10 @@ const { groups } = JSON.parse(readFileSync(new URL('../cases/from-schema/suite-2
 // seconds 00–59 (policy), so that valid document is outside by policy, named here.
 const LEAP_SECOND = '1998-12-31T23:59:60Z';
 
-describe('JSON-Schema-Test-Suite draft 2020-12 (transcribed)', () => {
+describe('JSON-Schema-Test-Suite draft 2020-12 (written out from memory)', () => {
   it.each(groups.map((g) => [`${g.file}: ${g.description}`, g] as const))('%s', (_name, g) => {
     const validate = referenceValidator().compile(g.schema as object);
-    for (const t of g.tests) expect(validate(t.data), `ajv on ${t.description} (transcription check)`).toBe(t.valid);
+    for (const t of g.tests) expect(validate(t.data), `ajv on ${t.description} (check of the written-out case)`).toBe(t.valid);
     let gen;
     try {
       gen = generate(g.schema);
