@@ -4,6 +4,8 @@
 //   <!-- readme-test: output -->  each `$ command` line is run; what it prints (stdout and stderr,
 //                                  merged) must equal the lines that follow it up to the next `$`
 //                                  line or the end of the block, whatever the exit status
+//   <!-- readme-test: output, times vary -->  as `output`, except that a number followed by ` ms`
+//                                  matches any number (timings change from run to run)
 //   <!-- readme-test: runs -->    each `$ command` line is run and must exit with status 0
 //
 // A command continues on the next line when its line ends with `\`. `npx treewright` runs this
@@ -19,7 +21,7 @@ export interface ReadmeCommand {
 }
 export interface ReadmeBlock {
   readonly line: number;
-  readonly mode: 'output' | 'runs';
+  readonly mode: 'output' | 'timed' | 'runs';
   readonly commands: readonly ReadmeCommand[];
 }
 
@@ -28,7 +30,7 @@ export function markedBlocks(text: string): ReadmeBlock[] {
   const lines = text.split('\n');
   const blocks: ReadmeBlock[] = [];
   for (let i = 0; i < lines.length; i++) {
-    const m = /^<!-- readme-test: (output|runs) -->$/.exec(lines[i]!);
+    const m = /^<!-- readme-test: (output|output, times vary|runs) -->$/.exec(lines[i]!);
     if (!m) continue;
     const fence = i + 1;
     if (!/^```/.test(lines[fence] ?? '')) throw new Error(`README.md:${i + 1}: a readme-test marker must stand right before a fenced block`);
@@ -51,10 +53,15 @@ export function markedBlocks(text: string): ReadmeBlock[] {
       while (j < end && !lines[j]!.startsWith('$ ')) out.push(lines[j++]!);
       commands.push({ line: at, command, expected: out.join('\n') });
     }
-    blocks.push({ line: fence + 1, mode: m[1] as 'output' | 'runs', commands });
+    blocks.push({ line: fence + 1, mode: m[1] === 'output, times vary' ? 'timed' : (m[1] as 'output' | 'runs'), commands });
     i = end;
   }
   return blocks;
+}
+
+/** Output with every timing (a number followed by ` ms`) replaced by `… ms`. */
+export function withoutTimes(text: string): string {
+  return text.replace(/\b\d+(?:\.\d+)? ms\b/g, '… ms');
 }
 
 function run(command: string): { status: number | null; output: string } {
@@ -81,6 +88,9 @@ describe('README', () => {
       { line: 10, mode: 'runs', commands: [{ line: 11, command: 'ls', expected: '' }] },
     ]);
     expect(run('echo a \\\n  b; echo err >&2')).toEqual({ status: 0, output: 'a b\nerr' });
+    expect(markedBlocks(['<!-- readme-test: output, times vary -->', '```', '$ true', '```'].join('\n'))[0]!.mode).toBe('timed');
+    expect(withoutTimes('model 41.3 ms · mask 5 ms · 44 tokens')).toBe('model … ms · mask … ms · 44 tokens');
+    expect(withoutTimes('model 41.3 ms')).not.toBe(withoutTimes('model 41.3 s'));
   });
 
   for (const b of blocks) {
@@ -88,6 +98,7 @@ describe('README', () => {
       it(`README.md:${c.line}: ${c.command.split('\n')[0]}`, () => {
         const r = run(c.command);
         if (b.mode === 'runs') expect(r.status, r.output).toBe(0);
+        else if (b.mode === 'timed') expect(withoutTimes(r.output)).toBe(withoutTimes(c.expected));
         else expect(r.output).toBe(c.expected);
       }, 300_000);
     }

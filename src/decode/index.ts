@@ -7,14 +7,14 @@
  * own package entry `treewright/transformers`, so that importing decode/ never loads transformers.js).
  *
  * Produces: `DecodeResult` {text, tokens, tokenTexts, logprobs, finished, score, model_ms, mask_ms,
- * total_ms}; `generate()` adds {tree, parses, well_typed, parse_error} when given a grammar.
+ * total_ms}; `generate()` adds {tree, valid, well_typed, parse_error} when given a grammar.
  *
  * Example:
  *   const model = await loadModel('models/coop');
  *   const grammar = loadGrammar('grammars/sql/sql.twg');
  *   const r = await generate(model, 'sql: which sheds hold elstar?', {
  *     grammar, names: namesFromDatabase('demo.db'), strategy: 'beam', beamWidth: 4 });
- *   r.text; r.tree; r.well_typed;                 // constrained: parses; names resolve (kinds: see README)
+ *   r.text; r.tree; r.well_typed;                 // constrained: valid; names resolve (kinds: see README)
  *   for await (const t of decodeStream(model, q, { constraint })) process.stdout.write(t.text);
  *
  * Cost per step: one batched decoder call, plus per hypothesis one mask fill (the mask engine's
@@ -54,8 +54,9 @@ export interface GenerateOptions extends DecodeOptions {
 export interface GenerateResult extends DecodeResult {
   /** the parsed tree, or null when the text does not parse (or no grammar was given) */
   tree: Tree | null;
-  parses: boolean;
-  /** parses and passes validateTree with the bound names */
+  /** the text is a program of the grammar (the parser accepts it); the measure `valid` of metrics.json */
+  valid: boolean;
+  /** valid, and the tree passes validateTree with the bound names */
   well_typed: boolean;
   /** the parser's or validator's message when `well_typed` is false (null without a grammar) */
   parse_error: string | null;
@@ -110,14 +111,14 @@ export async function generate(model: Seq2SeqModel, question: string | readonly 
   let constraint = rest.constraint ?? null;
   if (grammar !== null && !unconstrained && constraint === null) constraint = boundConstraint(maskEngine(model, grammar), names);
   const result = await decode(model, question, { ...rest, constraint: unconstrained ? null : constraint });
-  if (grammar === null) return { ...result, tree: null, parses: false, well_typed: false, parse_error: null };
+  if (grammar === null) return { ...result, tree: null, valid: false, well_typed: false, parse_error: null };
   let tree: Tree;
   try {
     // syntax only here: scopes and kinds are part of well_typed (validateTree below)
     tree = createParser(grammar).parse(result.text, { file: '<output>', resolve: false });
   } catch (e) {
-    return { ...result, tree: null, parses: false, well_typed: false, parse_error: (e as Error).message };
+    return { ...result, tree: null, valid: false, well_typed: false, parse_error: (e as Error).message };
   }
   const issue = validateTree(grammar, tree, { names });
-  return { ...result, tree, parses: true, well_typed: issue === null, parse_error: issue === null ? null : `${issue.path}: ${issue.message}` };
+  return { ...result, tree, valid: true, well_typed: issue === null, parse_error: issue === null ? null : `${issue.path}: ${issue.message}` };
 }

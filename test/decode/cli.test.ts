@@ -28,8 +28,9 @@ describe('treewright generate', () => {
     const r = await run([...BASE, '--max-tokens', '40', '--json', 'lf: which orchards does chen li own?']);
     expect(r.code).toBe(0);
     const o = JSON.parse(r.out);
-    for (const k of ['text', 'tree', 'parses', 'well_typed', 'tokens', 'model_ms', 'mask_ms']) expect(o).toHaveProperty(k);
-    expect(o).toMatchObject({ parses: true, well_typed: true, constrained: true, strategy: 'greedy', finished: 'eos' });
+    for (const k of ['text', 'tree', 'valid', 'well_typed', 'tokens', 'model_ms', 'mask_ms']) expect(o).toHaveProperty(k);
+    expect(o).not.toHaveProperty('parses'); // the measure's one name is metrics.json's `valid`
+    expect(o).toMatchObject({ valid: true, well_typed: true, constrained: true, strategy: 'greedy', finished: 'eos' });
     expect(o.tree.kind).toMatch(/^(lambda|argmax|argmin|value|truth)$/);
     // the fixture's config.json names no prefixes: the default "to <grammar>: " is put before the question
     expect(o.input).toBe('to lf: lf: which orchards does chen li own?');
@@ -48,11 +49,11 @@ describe('treewright generate', () => {
     const s = JSON.parse((await run([...BASE, '--sample', '--temperature', '0.8', '--seed', '7', '--max-tokens', '40', '--json', 'lf: which growers grow elstar?'])).out);
     // the masks do not enforce LF kinds yet (README, "What the guarantee covers"): a sampled output
     // is a program, and a kind clash is the one well-typedness failure it may have
-    expect(s).toMatchObject({ strategy: 'sample', parses: true });
+    expect(s).toMatchObject({ strategy: 'sample', valid: true });
     if (!s.well_typed) expect(s.parse_error).toMatch(/kinds disagree/);
     const u = await run([...BASE, '--unconstrained', '--max-tokens', '10', 'lf: which growers grow elstar?']);
     expect(u.code).toBe(2);
-    expect(u.err).toMatch(/^parses: no · well-typed: no · \d+ tokens \((eos|length)\) · model [\d.]+ ms · mask 0\.0 ms · total [\d.]+ ms\n<output>:1:\d+: /);
+    expect(u.err).toMatch(/^valid: no · well_typed: no · \d+ tokens \((eos|length)\) · model [\d.]+ ms · mask 0\.0 ms · total [\d.]+ ms\n<output>:1:\d+: /);
   });
 
   it('reports a missing model folder on stderr with exit 1', async () => {

@@ -32,7 +32,7 @@ describe('generate() with a grammar', () => {
     for (const q of QUESTIONS) {
       for (const opts of [{}, { strategy: 'beam' as const, beamWidth: 3 }, { strategy: 'sample' as const, seed: 5, temperature: 1.2 }]) {
         const r = await generate(model, q, { grammar: lf, names, maxTokens: 48, ...opts });
-        expect(r).toMatchObject({ parses: true, finished: 'eos' });
+        expect(r).toMatchObject({ valid: true, finished: 'eos' });
         // The masks keep constrained LF outputs well-formed with bound names and bound variables;
         // they do not enforce kinds yet (README, "What the guarantee covers"), so a kind clash is
         // the only well-typedness failure allowed here.
@@ -49,7 +49,7 @@ describe('generate() with a grammar', () => {
   it('unconstrained output of the random model is reported as not parsing, with the parser message', async () => {
     const r = await generate(model, QUESTIONS[0], { grammar: lf, names, unconstrained: true, maxTokens: 12 });
     expect(r.mask_ms).toBe(0);
-    expect(r.parses).toBe(false);
+    expect(r.valid).toBe(false);
     expect(r.tree).toBeNull();
     expect(r.parse_error).toMatch(/^<output>:1:\d+: /);
   });

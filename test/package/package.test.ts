@@ -209,6 +209,6 @@ console.log(JSON.stringify({ text }));
     expect(JSON.parse(mask.stdout)).toMatchObject({ viable: true, complete: false });
     const gen = bin(dir, ['generate', '--model', MODEL, '--grammar', 'sql', '--db', COOP_SQL, '--json', 'Which orchards cover more than 5 hectares?']);
     expect(gen.status, gen.stderr).toBe(0);
-    expect(JSON.parse(gen.stdout)).toMatchObject({ parses: true, well_typed: true });
+    expect(JSON.parse(gen.stdout)).toMatchObject({ valid: true, well_typed: true });
   });
 });

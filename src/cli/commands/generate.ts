@@ -2,11 +2,11 @@
  * `treewright generate --model DIR --grammar G [--names F | --db F] [--unconstrained] [--beam K]
  * [--sample --temperature T --seed S] [--max-tokens N] [--json] "question"`: answers one question
  * with a seq2seq model folder, constrained by the grammar's token masks unless --unconstrained, and
- * reports whether the output parses and is well-typed. The model's input is `<prefix><question>`
+ * reports whether the output is valid (a program of the grammar) and well-typed. The model's input is `<prefix><question>`
  * (--prefix, else config.json's treewright.prefixes[grammar name], else "to <grammar name>: "; the
  * prefix is not repeated when the question already starts with it). `--json` prints one object:
  * question, input, text, tree,
- * parses, well_typed, parse_error, tokens, token_texts, logprobs, finished, score, strategy,
+ * valid, well_typed, parse_error, tokens, token_texts, logprobs, finished, score, strategy,
  * constrained, model_ms, mask_ms, total_ms. Exit code 0 when the output is well-typed, 2 when it is
  * not, 1 on an error (printed on stderr, naming the file).
  */
@@ -77,7 +77,7 @@ export const register: RegisterCommand = (program: Command, setExit) => {
                   input,
                   text: r.text,
                   tree: r.tree,
-                  parses: r.parses,
+                  valid: r.valid,
                   well_typed: r.well_typed,
                   parse_error: r.parse_error,
                   tokens: r.tokens,
@@ -96,7 +96,7 @@ export const register: RegisterCommand = (program: Command, setExit) => {
               process.stdout.write(r.text + '\n');
               const yes = (b: boolean) => (b ? 'yes' : 'no');
               process.stderr.write(
-                `parses: ${yes(r.parses)} · well-typed: ${yes(r.well_typed)} · ${r.tokens.length} tokens (${r.finished}) · ` +
+                `valid: ${yes(r.valid)} · well_typed: ${yes(r.well_typed)} · ${r.tokens.length} tokens (${r.finished}) · ` +
                   `model ${r.model_ms.toFixed(1)} ms · mask ${r.mask_ms.toFixed(1)} ms · total ${r.total_ms.toFixed(1)} ms\n`,
               );
               if (r.parse_error !== null) process.stderr.write(r.parse_error + '\n');

@@ -245,14 +245,14 @@ function renderRun(key, run, upto) {
   } else if (cur.viable === false || cur.viable === null) {
     treeBox.append(el('span', { class: 'note', text: 'no tree: the text has left the grammar' }));
   } else {
-    treeBox.append(el('span', { class: 'note', text: shown >= run.steps.length && !run.parses ? 'no tree: the output ends before the program is complete' : 'no tree yet: the text so far is not a complete program' }));
+    treeBox.append(el('span', { class: 'note', text: shown >= run.steps.length && !run.valid ? 'no tree: the output ends before the program is complete' : 'no tree yet: the text so far is not a complete program' }));
   }
   parts.push(treeBox);
 
   if (upto >= run.steps.length) {
     const yes = (b, t) => el('span', { class: `badge ${b ? 'yes' : 'no'}`, text: `${t}: ${b ? 'yes' : 'no'}` });
     parts.push(el('div', { class: 'note', text: 'final output' }));
-    parts.push(el('div', { class: 'badges' }, yes(run.parses, 'parses'), yes(run.well_typed, 'well-typed'), el('span', { class: 'badge', text: `ended: ${run.finished === 'eos' ? 'end of sequence' : run.finished}` })));
+    parts.push(el('div', { class: 'badges' }, yes(run.valid, 'valid'), yes(run.well_typed, 'well-typed'), el('span', { class: 'badge', text: `ended: ${run.finished === 'eos' ? 'end of sequence' : run.finished}` })));
     parts.push(el('div', { class: 'code', id: `${key}-code`, text: run.text }));
     if (run.canonical !== null && run.canonical !== undefined && run.canonical !== run.text) {
       parts.push(el('div', { class: 'note', text: 'canonical print (what runs)' }), el('div', { class: 'code', id: `${key}-canonical`, text: run.canonical }));

@@ -110,7 +110,7 @@ export function register(app: FastifyInstance, ctx: ServerContext): void {
         done();
       }
       const out: Record<string, unknown> = {
-        question: input.text, text: r.text, tree: r.tree, parses: r.parses, well_typed: r.well_typed, parse_error: r.parse_error,
+        question: input.text, text: r.text, tree: r.tree, valid: r.valid, well_typed: r.well_typed, parse_error: r.parse_error,
         canonical: r.tree !== null && r.well_typed ? printTree(g.grammar, r.tree) : null,
         tokens: r.tokens, token_texts: r.tokenTexts, finished: r.finished, score: r.score, strategy,
         constrained: b.constrained, model: m.id, grammar: g.id, model_ms: r.model_ms, mask_ms: r.mask_ms, total_ms: r.total_ms,
