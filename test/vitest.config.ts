@@ -10,5 +10,7 @@ export default defineConfig({
   test: {
     testTimeout: 60_000,
     hookTimeout: 60_000,
+    // prints one line when the browser tests are skipped for want of Chromium (test/browser.ts)
+    globalSetup: ['test/setup/browsers.ts'],
   },
 });

@@ -101,7 +101,7 @@ describe('npm pack', () => {
     for (const f of ['package.json', 'README.md', 'dist/index.js', 'dist/index.d.ts', 'dist/cli/bin.js', 'dist/decode/hook.js', 'dist/server/index.js', 'dist/exec/sql-child.mjs', 'dist/server/page/index.html', 'grammars/sql/sql.twg']) {
       expect(files, f).toContain(f);
     }
-    expect(files.filter((f) => /^(src|test|models|scripts)\//.test(f) || f.endsWith('.ts') && !f.endsWith('.d.ts'))).toEqual([]);
+    expect(files.filter((f) => /^(src|test|models|docs|\.build)\//.test(f) || f.endsWith('.ts') && !f.endsWith('.d.ts'))).toEqual([]);
     const manifest = JSON.parse(readFileSync(join(ROOT, 'package.json'), 'utf8')) as { bin: Record<string, string>; exports: Record<string, unknown> };
     expect(files).toContain(manifest.bin.treewright);
     expect(readFileSync(join(ROOT, manifest.bin.treewright), 'utf8').startsWith('#!/usr/bin/env node\n')).toBe(true);

@@ -1,5 +1,5 @@
 // Builds the package: TypeScript sources (src/) → ES modules with .d.ts types (dist/), by
-// TypeScript's own emit (tsconfig.build.json; relative `.ts` imports rewritten to `.js`), plus the
+// TypeScript's own emit (.build/tsconfig.json; relative `.ts` imports rewritten to `.js`), plus the
 // files tsc does not copy: plain JavaScript modules started as child processes and the server's
 // page. Run by `npm install` in the repository (prepare) and before `npm pack`.
 import { spawnSync } from 'node:child_process';
@@ -14,7 +14,7 @@ const require = createRequire(import.meta.url);
 
 rmSync(dist, { recursive: true, force: true });
 // all output on stderr: `npm pack --json` prints its JSON on stdout after this script ran
-const tsc = spawnSync(process.execPath, [require.resolve('typescript/bin/tsc'), '-p', join(root, 'tsconfig.build.json')], { stdio: ['ignore', 2, 2] });
+const tsc = spawnSync(process.execPath, [require.resolve('typescript/bin/tsc'), '-p', join(root, '.build', 'tsconfig.json')], { stdio: ['ignore', 2, 2] });
 if (tsc.status !== 0) {
   console.error('build: tsc failed');
   process.exit(tsc.status ?? 1);
