@@ -3,7 +3,7 @@
  * input, and the wrapper that turns errors into a message on stderr and exit code 1.
  *
  * Adding a command: write `commands/NAME.ts` exporting `register: RegisterCommand` (options from
- * ../options.ts, body inside `runCommand`), and add one line to `commands/index.ts`.
+ * ../options.ts, body inside `runCommand`), and add an entry (name, help term, summary, import) to `commands/index.ts`.
  */
 import type { Command } from 'commander';
 

@@ -22,7 +22,7 @@ import { suggest } from './compile.ts';
 import * as E from './errors.ts';
 import type { Diagnostic } from './errors.ts';
 import type { Span } from './ir.ts';
-import { notation, parseNotation, type NotationFailure } from './notation.ts';
+import { notationGrammar, parseNotation, type NotationFailure } from './notation.ts';
 
 interface PExpr {
   readonly constructor: { readonly name: string };
@@ -40,19 +40,31 @@ function leadingKeyword(rules: Rules, ruleName: string): string | null {
   return typeof kw === 'string' ? kw : null;
 }
 
-const RULES = notation.rules as unknown as Rules;
+let read: { keywords: readonly string[]; descriptions: ReadonlySet<string> } | null = null;
+
+/** What the wording reads from the notation grammar, read once, on the first syntax error. */
+function fromNotation(): { keywords: readonly string[]; descriptions: ReadonlySet<string> } {
+  if (read === null) {
+    const rules = notationGrammar().rules as unknown as Rules;
+    read = {
+      keywords: (rules['Decl']?.body.terms ?? [])
+        .map((t) => (t.ruleName === undefined ? null : leadingKeyword(rules, t.ruleName)))
+        .filter((k): k is string => k !== null),
+      // descriptions written in the notation grammar (`name (a name) = ...`): our own words, safe to show
+      descriptions: new Set(
+        Object.values(rules)
+          .map((r) => r.description)
+          .filter((d): d is string => typeof d === 'string' && d.length > 0),
+      ),
+    };
+  }
+  return read;
+}
 
 /** The words that begin a declaration, in the order of the notation's `Decl` rule. */
-export const DECLARATION_KEYWORDS: readonly string[] = (RULES['Decl']?.body.terms ?? [])
-  .map((t) => (t.ruleName === undefined ? null : leadingKeyword(RULES, t.ruleName)))
-  .filter((k): k is string => k !== null);
-
-/** Descriptions written in the notation grammar (`name (a name) = ...`): our own words, safe to show. */
-const OUR_DESCRIPTIONS = new Set(
-  Object.values(RULES)
-    .map((r) => r.description)
-    .filter((d): d is string => typeof d === 'string' && d.length > 0),
-);
+export function declarationKeywords(): readonly string[] {
+  return fromNotation().keywords;
+}
 
 /** ohm's built-in descriptions that may appear, in our words. */
 const BUILTIN_WORDS: Record<string, string> = {
@@ -67,7 +79,7 @@ function itemOf(f: NotationFailure): string | null {
   if (f.fluffy) return null;
   if (f.type === 'string') return JSON.stringify(f.text);
   if (f.type !== 'description') return null;
-  if (OUR_DESCRIPTIONS.has(f.text)) return f.text;
+  if (fromNotation().descriptions.has(f.text)) return f.text;
   return BUILTIN_WORDS[f.text] ?? null;
 }
 
@@ -210,8 +222,9 @@ export function notationSyntaxError(
   }
   const { found, end } = foundAt(text, pos);
   const at = { file, span: { start: pos, end } };
-  const declWords = DECLARATION_KEYWORDS.filter((k) => items.includes(JSON.stringify(k)));
-  if (declWords.length > 0 && declWords.length === DECLARATION_KEYWORDS.length && pos < text.length) {
+  const keywords = declarationKeywords();
+  const declWords = keywords.filter((k) => items.includes(JSON.stringify(k)));
+  if (declWords.length > 0 && declWords.length === keywords.length && pos < text.length) {
     const word = /^[A-Za-z_][A-Za-z0-9_]*/.exec(text.slice(pos, end))?.[0] ?? null;
     const words = items.filter((i) => /^"[a-z]+"$/.test(i)).map((i) => JSON.parse(i) as string);
     return E.notADeclaration(at, found, declWords, word === null ? null : suggest(word, words));

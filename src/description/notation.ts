@@ -8,6 +8,7 @@
 import * as ohm from 'ohm-js';
 import type { Span } from './ir.ts';
 import { guardedMatch } from '../util/ohm-depth.ts';
+import { NOTATION_RECIPE } from './notation-recipe.ts';
 import type {
   CtorAst,
   DeclAst,
@@ -106,7 +107,35 @@ Twg {
 }
 `;
 
-export const notation: ohm.Grammar = ohm.grammar(NOTATION_SOURCE);
+/**
+ * The notation as an ohm grammar, built on first use (importing the description stage costs
+ * nothing until a description is read). It is built from ohm's own serialised form of the grammar,
+ * a recipe (notation-recipe.ts, written by `.build/gen-notation-recipe.mjs`): ohm rebuilds a
+ * grammar from its recipe in milliseconds, while compiling NOTATION_SOURCE takes ohm a few hundred
+ * on a cold process. The recipe carries the source it was made from (ohm keeps it trimmed); when that differs from
+ * NOTATION_SOURCE (an edit not yet regenerated) the source is compiled instead, so the notation
+ * read is always NOTATION_SOURCE. test/description/notation-recipe.test.ts fails until the recipe
+ * is regenerated.
+ */
+export function notationGrammar(): ohm.Grammar {
+  return built().grammar;
+}
+
+let cache: { grammar: ohm.Grammar; semantics: ohm.Semantics } | null = null;
+
+// ohm exports makeRecipe (its CLI's generated modules call it) but its typings omit it
+const { makeRecipe } = ohm as unknown as { makeRecipe(recipe: unknown): ohm.Grammar };
+
+function built(): { grammar: ohm.Grammar; semantics: ohm.Semantics } {
+  if (cache === null) {
+    const recipe = JSON.parse(NOTATION_RECIPE) as unknown[];
+    const grammar = (recipe[1] as { source?: unknown } | undefined)?.source === NOTATION_SOURCE.trim() ? makeRecipe(recipe) : ohm.grammar(NOTATION_SOURCE);
+    const semantics = grammar.createSemantics();
+    semantics.addOperation<unknown>('ast', ACTIONS);
+    cache = { grammar, semantics };
+  }
+  return cache;
+}
 
 type Node = ohm.Node;
 
@@ -127,9 +156,7 @@ function opt(node: Node): Node | null {
   return node.numChildren > 0 ? node.child(0) : null;
 }
 
-const semantics = notation.createSemantics();
-
-semantics.addOperation<unknown>('ast', {
+const ACTIONS: ohm.ActionDict<unknown> = {
   Description(head: Node, decls: Node, _end: Node): DescriptionAst {
     return { grammar: head.ast(), decls: decls.children.map((d) => d.ast()) };
   },
@@ -262,7 +289,7 @@ semantics.addOperation<unknown>('ast', {
       span: spanOf(self),
     };
   },
-});
+};
 
 /** One of ohm's rightmost failures: literal text (type `string`) or a rule's description, and whether ohm counts it as fluffy (not worth listing). */
 export interface NotationFailure {
@@ -284,7 +311,8 @@ type OhmFailure = { getType(): string; getText(): string; isFluffy(): boolean };
  */
 export function parseNotation(text: string): ParseOutcome {
   // throws NestingLimit past the nesting limit (src/util/ohm-depth.ts); compileDescription reports it
-  const match = guardedMatch(notation, text, 'Description');
+  const { grammar, semantics } = built();
+  const match = guardedMatch(grammar, text, 'Description');
   if (match.failed()) {
     const records = (match as unknown as { getRightmostFailures(): OhmFailure[] }).getRightmostFailures();
     const failures = records.map((f) => ({

@@ -4,8 +4,8 @@
 // excerpt are common practice for compilers (no source).
 import { describe, expect, it } from 'vitest';
 import { compileDescription, formatDiagnostics } from '../../src/description/index.ts';
-import { DECLARATION_KEYWORDS, scanLiterals } from '../../src/description/notation-errors.ts';
-import { notation } from '../../src/description/notation.ts';
+import { declarationKeywords, scanLiterals } from '../../src/description/notation-errors.ts';
+import { notationGrammar } from '../../src/description/notation.ts';
 
 const HEAD = 'grammar g\nstart A\nspace " "\n';
 
@@ -19,7 +19,7 @@ const lines = (...ls: string[]) => ls.join('\n');
 
 describe('notation syntax errors', () => {
   it('the declaration keywords are read from the notation grammar', () => {
-    expect(DECLARATION_KEYWORDS).toEqual(['start', 'space', 'token', 'names', 'kinds', 'sort']);
+    expect(declarationKeywords()).toEqual(['start', 'space', 'token', 'names', 'kinds', 'sort']);
   });
 
   it('not-a-declaration: a keyword with extra letters is reported as one word, with the closest keyword', () => {
@@ -155,7 +155,7 @@ describe('notation syntax errors', () => {
   });
 
   it('no message shows an internal rule name or the library wording', () => {
-    const internal = Object.keys(notation.rules).filter((r) => /[a-z][A-Z]|Decl|Kw$/.test(r));
+    const internal = Object.keys(notationGrammar().rules).filter((r) => /[a-z][A-Z]|Decl|Kw$/.test(r));
     expect(internal.length).toBeGreaterThan(10);
     const cases = [
       'sortt', 'srot', 'sort A { a() = "x" }', 'sort A { a(x: T = "x"; }', 'token T = /a/ as', 'token T = /a/ as text reservedx',
