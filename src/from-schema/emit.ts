@@ -32,6 +32,8 @@ import {
   stringRegex,
   upperGrid,
 } from './lexemes.ts';
+import { compileTokenRegex, type Rx } from '../description/regex/index.ts';
+import { lexemeBody, PatternTooLarge, withLength } from './pattern.ts';
 import { LIMITS, type ArrSem, type ObjSem, type Reader, type Sem, type TypeName } from './read.ts';
 
 type Typed = Extract<Sem, { k: 'typed' }>;
@@ -601,6 +603,13 @@ export class Emitter {
       const { min, format } = sem.str;
       const max = sem.str.max ?? Infinity;
       if (min > max) return null;
+      if (sem.str.pattern !== null) {
+        if (format !== null) {
+          this.note(E.patternWithFormat(`${sem.loc.path}/pattern`, sem.loc.keys.get('pattern') ?? sem.loc.span));
+          return null;
+        }
+        return this.patternToken(sem, min, max, hint);
+      }
       if (format !== null) {
         const [f0, f1] = FORMAT_LENGTHS[format];
         if (max < f0 || min > f1) return null;
@@ -639,6 +648,35 @@ export class Emitter {
     ].filter((x) => x !== null);
     const words = t === 'integer' ? `an integer${range.length ? ' ' + range.join(' and ') : ''} (at most ${MAX_DIGITS} digits)` : `a number${range.length ? ' ' + range.join(' and ') : ''} (no exponent, at most ${MAX_DIGITS} digits, ${MAX_FRACTION} after the point)`;
     return this.token(re, '', t === 'integer' ? 'int' : 'number', bounded ? hint.type : t === 'integer' ? 'Integer' : 'Number', `${sem.loc.path}: ${words}`);
+  }
+
+  /** A string with a pattern (and length bounds): pattern.ts, spelled as JSON.stringify spells it. */
+  private patternToken(sem: Typed, min: number, max: number, hint: Hint): string | null {
+    const p = sem.str.pattern!;
+    const path = `${sem.loc.path}/pattern`;
+    const span = sem.loc.keys.get('pattern') ?? sem.loc.span;
+    let rx: Rx | null;
+    try {
+      rx = withLength(p.rx, min, max);
+    } catch (err) {
+      if (!(err instanceof PatternTooLarge)) throw err;
+      this.note(E.patternTooLarge(path, span, `cutting it to ${min}..${max === Infinity ? '' : max} characters writes ${err.message}`));
+      return null;
+    }
+    if (rx === null) return null;
+    const regex = `"${lexemeBody(rx)}"`;
+    // the automaton is built here once, so that a pattern too large for it is this error, located
+    const compiled = compileTokenRegex(regex, 'u');
+    if ('code' in compiled) {
+      if (compiled.code === 'regex-too-large') {
+        this.note(E.patternTooLarge(path, span, compiled.message));
+        return null;
+      }
+      this.note(E.internalError(`the token regex written for ${path}: ${compiled.message}`));
+      return null;
+    }
+    const length = min === 0 && max === Infinity ? '' : max === Infinity ? `, at least ${min} characters` : min === max ? `, ${min} characters` : `, ${min} to ${max} characters`;
+    return this.token(regex, 'u', 'json-string', hint.type, `${sem.loc.path}: a string in which /${p.source}/u finds a match${length} (code points; spelled as JSON.stringify spells it)`);
   }
 
   private stringEnumToken(values: readonly string[], hint: Hint, path: string): string {
@@ -766,7 +804,7 @@ const ANY_INTEGER: Typed = {
   inferredFrom: [],
   obj: { props: [], required: [], closed: true },
   arr: { prefix: [], items: null, min: 0, max: null },
-  str: { min: 0, max: null, format: null },
+  str: { min: 0, max: null, format: null, pattern: null },
   num: { minimum: null, exclusiveMinimum: null, maximum: null, exclusiveMaximum: null },
 };
 

@@ -71,16 +71,36 @@ export const unsupportedKeyword = (path: string, span: Span | null, suggestion: 
     `${path} is not supported`,
     suggestion !== null
       ? `did you mean "${suggestion}"?`
-      : 'supported: type, enum, const, properties, required, additionalProperties (false), items, prefixItems, minItems, maxItems, anyOf, oneOf, $ref, $defs, minLength, maxLength, format (date, date-time, email), minimum, maximum, exclusiveMinimum, exclusiveMaximum, and the annotations title, description, $comment, examples, default, deprecated, readOnly, writeOnly',
+      : 'supported: type, enum, const, properties, required, additionalProperties (false), items, prefixItems, minItems, maxItems, anyOf, oneOf, $ref, $defs, minLength, maxLength, pattern, format (date, date-time, email), minimum, maximum, exclusiveMinimum, exclusiveMaximum, and the annotations title, description, $comment, examples, default, deprecated, readOnly, writeOnly',
   );
 
-export const patternPending = (path: string, span: Span | null) =>
+export const badPattern = (path: string, span: Span | null, syntax: boolean, detail: string, offset: number) =>
   error(
-    'pattern-pending',
+    syntax ? 'bad-pattern' : 'unsupported-pattern',
     path,
     span,
-    `${path} is not supported yet`,
-    'pattern needs the single ECMAScript regex front-end the notation is getting; until then use enum, format or minLength/maxLength',
+    `${path}: ${syntax ? 'not an ECMAScript regular expression' : 'not supported'}: ${detail} (at character ${offset + 1} of the pattern)`,
+    syntax
+      ? 'JSON Schema patterns are ECMAScript regular expressions, read with the u flag'
+      : 'patterns may use alternation, groups, quantifiers, classes, escapes, ., \\d \\w \\s, and ^ / $ at the ends of the pattern or of its top-level alternatives',
+  );
+
+export const patternTooLarge = (path: string, span: Span | null, detail: string) =>
+  error(
+    'pattern-too-large',
+    path,
+    span,
+    `${path} is too large to write as one token class: ${detail}`,
+    'anchor the pattern (^…$), or narrow minLength/maxLength: an unanchored pattern under a length bound is written out once per position it may start at',
+  );
+
+export const patternWithFormat = (path: string, span: Span | null) =>
+  error(
+    'pattern-with-format',
+    path,
+    span,
+    `${path}: pattern together with format cannot be expressed`,
+    'a token class is one regular expression and the notation cannot intersect two; drop the format or fold it into the pattern',
   );
 
 export const badKeywordValue = (path: string, span: Span | null, expected: string) =>

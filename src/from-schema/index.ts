@@ -32,7 +32,8 @@
  * check costs what `treewright check` costs.
  *
  * Limits (each a located error, never a silent change): keywords outside the subset; `pattern`
- * (waits for the project's single regex front-end); `additionalProperties` other than false; a
+ * features the regex front-end refuses, anchors inside a pattern, a pattern too large for one token
+ * class, `pattern` with `format`; `additionalProperties` other than false; a
  * `$ref` outside the document or with sibling keywords; `anyOf`/`oneOf` beside keywords other than
  * `type`; `oneOf` branches not provably disjoint; formats other than date, date-time, email, and a
  * format together with length bounds it does not imply; string lengths above 256; arrays needing

@@ -12,6 +12,8 @@ import * as E from './errors.ts';
 import type { SchemaDiagnostic } from './errors.ts';
 import { entry, jsonEqual, jsonTypeOf, pointer, valueOf, type JsonNode, type JsonValue } from './json.ts';
 import { DATE_RAW, DATE_TIME_RAW, EMAIL_RAW } from './lexemes.ts';
+import { searchIr } from './pattern.ts';
+import { buildByteDfa, longestMatch, RegexTooLargeError, type ByteDfa, type Rx } from '../description/regex/index.ts';
 
 export const TYPE_NAMES = ['null', 'boolean', 'object', 'array', 'string', 'integer', 'number'] as const;
 export type TypeName = (typeof TYPE_NAMES)[number];
@@ -46,6 +48,13 @@ export interface StrSem {
   readonly min: number;
   readonly max: number | null;
   readonly format: Format | null;
+  /** `pattern`: its source and the IR of the strings it finds a match in (pattern.ts) */
+  readonly pattern: Pattern | null;
+}
+
+export interface Pattern {
+  readonly source: string;
+  readonly rx: Rx;
 }
 
 export interface NumSem {
@@ -79,7 +88,7 @@ export type Sem =
 const ANNOTATIONS = new Set(['title', 'description', '$comment', 'examples', 'default', 'deprecated', 'readOnly', 'writeOnly']);
 const OBJECT_KW = ['properties', 'required', 'additionalProperties'];
 const ARRAY_KW = ['items', 'prefixItems', 'minItems', 'maxItems'];
-const STRING_KW = ['minLength', 'maxLength', 'format'];
+const STRING_KW = ['minLength', 'maxLength', 'format', 'pattern'];
 const NUMBER_KW = ['minimum', 'maximum', 'exclusiveMinimum', 'exclusiveMaximum'];
 const VALUE_KW = ['type', 'enum', 'const', ...OBJECT_KW, ...ARRAY_KW, ...STRING_KW, ...NUMBER_KW];
 const STRUCTURE_KW = ['$schema', '$id', '$defs', '$ref', 'anyOf', 'oneOf'];
@@ -183,10 +192,6 @@ export class Reader {
     const present = new Set<string>();
     for (const e of node.entries) {
       const kp = pointer([...at, e.key]);
-      if (e.key === 'pattern') {
-        this.diagnostics.push(E.patternPending(kp, e.keySpan));
-        continue;
-      }
       if (!SUPPORTED.has(e.key)) {
         this.diagnostics.push(E.unsupportedKeyword(kp, e.keySpan, suggestKeyword(e.key)));
         continue;
@@ -320,6 +325,16 @@ export class Reader {
       else if (v.value === 'date' || v.value === 'date-time' || v.value === 'email') format = v.value;
       else this.diagnostics.push(E.unknownFormat(pointer([...at, 'format']), v.span, v.value));
     }
+    let pattern: Pattern | null = null;
+    if (present.has('pattern')) {
+      const v = get('pattern')!.value;
+      if (v.type !== 'string') bad('pattern', 'a string (an ECMAScript regular expression)');
+      else {
+        const rx = searchIr(v.value);
+        if ('code' in rx) this.diagnostics.push(E.badPattern(pointer([...at, 'pattern']), v.span, rx.code === 'bad-regex', rx.message, rx.offset));
+        else pattern = { source: v.value, rx };
+      }
+    }
     // number
     const num: NumSem = {
       minimum: numberKw('minimum'),
@@ -352,7 +367,7 @@ export class Reader {
       inferredFrom,
       obj: { props, required, closed },
       arr: { prefix, items, min: minItems, max: maxItems },
-      str: { min: minLength, max: maxLength, format },
+      str: { min: minLength, max: maxLength, format, pattern },
       num,
     };
 
@@ -442,6 +457,10 @@ export class Reader {
       const s = v as string;
       const n = [...s].length; // code points, as JSON Schema counts string length (2020-12 Validation §6.3.1)
       if (n < sem.str.min || (sem.str.max !== null && n > sem.str.max)) return 'no';
+      if (sem.str.pattern !== null) {
+        const found = patternFinds(sem.str.pattern, s);
+        if (found !== 'yes') return found;
+      }
       switch (sem.str.format) {
         case null:
           return 'yes';
@@ -464,6 +483,28 @@ export class Reader {
     }
     return 'yes';
   }
+}
+
+const patternDfas = new WeakMap<Pattern, ByteDfa | null>();
+
+/**
+ * Does the pattern find a match in `s`? Decided on the front-end's automaton (linear in `s`, so a
+ * hostile pattern cannot make this hang); 'maybe' when the automaton is too large to build or `s`
+ * holds a lone surrogate (no JSON text decodes to one in a valid document).
+ */
+export function patternFinds(p: Pattern, s: string): Verdict {
+  let dfa = patternDfas.get(p);
+  if (dfa === undefined) {
+    try {
+      dfa = buildByteDfa({ rx: p.rx, unicode: true });
+    } catch (err) {
+      if (!(err instanceof RegexTooLargeError)) throw err;
+      dfa = null;
+    }
+    patternDfas.set(p, dfa);
+  }
+  if (dfa === null || /\p{Cs}/u.test(s)) return 'maybe';
+  return longestMatch(dfa, s, 0) === s.length ? 'yes' : 'no';
 }
 
 /** Does the value's JSON type fit one of `types` (an integer fits "number"; 1.0 is an integer)? */

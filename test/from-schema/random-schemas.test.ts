@@ -31,6 +31,7 @@ function randomSchema(rand: () => number, depth: number, defs: string[]): S {
       else {
         if (rand() < 0.5) s.minLength = int(0, 4);
         if (rand() < 0.5) s.maxLength = int(0, 12);
+        if (rand() < 0.35) s.pattern = pick(['^[a-z]+$', 'b', '^x', 'y$', '^(?:ab|c)*$', '\\d{2}', '^[^"\\\\]?$', 'é|😀', '\\s', '^a|b$']);
       }
       break;
     case 'integer':
@@ -83,7 +84,7 @@ function randomSchema(rand: () => number, depth: number, defs: string[]): S {
       break;
     }
   }
-  if (rand() < 0.04) s[pick(['multipleOf', 'pattern', 'allOf', 'uniqueItems', 'requried'])] = pick([2, 'a+', [], true]);
+  if (rand() < 0.04) s[pick(['multipleOf', 'pattern', 'allOf', 'uniqueItems', 'requried'])] = pick([2, '(?=a)', [], true]);
   if (rand() < 0.1) s.description = 'invented';
   return s;
 }

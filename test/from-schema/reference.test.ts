@@ -1,6 +1,7 @@
 /**
  * Outside checks of generated descriptions on the schemas in test/cases/from-schema/schemas.json
  * (the shed-command demo, a recursive tree, numeric bounds, formats, tuples, unions, any-values,
+ * string patterns with and without anchors and length bounds,
  * an open object):
  * - every sampled program is a JSON text (reference: the ECMAScript built-in JSON.parse) that the
  *   ORIGINAL schema accepts (reference: ajv 8's draft 2020-12 validator with ajv-formats), and it

@@ -1,8 +1,9 @@
 /**
  * JSON Schema Test Suite cases for keywords new in (or changed by) draft 2020-12 — const,
  * prefixItems, items after prefixItems, numeric exclusiveMinimum/exclusiveMaximum, $defs and $ref
- * (escaped pointers, recursion), string lengths in code points, and the date, date-time and email
- * formats — written out from the suite's tests/draft2020-12 files (typed from memory; source file
+ * (escaped pointers, recursion), string lengths in code points, the date, date-time and email
+ * formats, and `pattern` (pattern.json, and optional/ecmascript-regex.json on ECMA-262 semantics) —
+ * written out from the suite's tests/draft2020-12 files (typed from memory; source file
  * named in each group of test/cases/from-schema/suite-2020-12.json). Because they are typed from
  * memory, ajv's draft 2020-12 validator (with ajv-formats) must agree with every "valid" flag
  * first. Then, as in suite.test.ts: valid documents parse in canonical key order unless a

@@ -53,14 +53,15 @@ function str(s: string): string {
 
 /**
  * Spellings of `value` in the layout the description prints (`{"a": 1, "b": [1, 2]}`), keys in the
- * order of the `properties` of each schema that could apply (through $ref, anyOf, oneOf); at most
- * `cap` of them.
+ * order of the `properties` of each schema that could apply (through $ref, anyOf, oneOf), strings
+ * with white space escaped and as JSON.stringify writes them; at most `cap` of them.
  */
 export function canonicalTexts(value: Json, schema: Schema, root: Schema, cap = 16): string[] {
   const out = new Set<string>();
   const orders = keyOrders(schema, root, 0);
   const write = (v: Json, s: Schema): string[] => {
-    if (v === null || typeof v !== 'object') return [typeof v === 'string' ? str(v) : JSON.stringify(v)];
+    // a string: the spelling of fixed strings, and JSON.stringify's own (strings with a pattern)
+    if (v === null || typeof v !== 'object') return typeof v === 'string' ? [...new Set([str(v), JSON.stringify(v)])] : [JSON.stringify(v)];
     if (Array.isArray(v)) {
       let acc = [''];
       v.forEach((x, i) => {
