@@ -31,12 +31,14 @@ describe('demo', () => {
     for (const file of ['broken.sql', 'broken.lf', 'broken.json']) {
       expect(lines.some((l) => new RegExp(`^${file.replace('.', '\\.')}:1:\\d+: `).test(l)), file).toBe(true);
     }
-    // the model part: five questions, each decoded both ways; every constrained output is
-    // well-typed and executed (the guarantee), whatever the unconstrained one did
+    // the model part: five questions, each decoded both ways; every constrained output shown is
+    // valid (the guarantee), and these five are also well-typed and executed, whatever the
+    // unconstrained one did; verdicts use the measures' names
     const constrained = lines.flatMap((l, i) => (l.trimStart().startsWith('constrained ') ? [i] : []));
     expect(constrained.length).toBe(5);
+    expect(lines.filter((l) => /^\s+not valid — <output>:1:\d+: /.test(l)).length).toBeGreaterThan(0);
     for (const i of constrained) {
-      expect(lines[i + 1], lines[i]).toMatch(/^\s+well-typed \(/);
+      expect(lines[i + 1], lines[i]).toMatch(/^\s+valid, well-typed \(/);
       expect(lines[i + 2], lines[i]).toMatch(/^\s+answer: /);
     }
     // Q1's gold SQL run by SQLite itself (the outside reference) gives the count the demo shows
@@ -62,7 +64,18 @@ describe('demo', () => {
           expect(row!.trim().split(/\s{2,}/).slice(3)).toEqual(want);
         }
       }
+      // the summary's sentences carry the same figures (never typed)
+      const p = (mode: string, k: string) => `${(100 * m.compositional[mode][k].rate).toFixed(1)} %`;
+      expect(lines).toContain(
+        `  ${target}: executable ${p('unconstrained', 'executable')} → ${p('constrained', 'executable')}, ` +
+          `right answers (execution_accuracy) ${p('unconstrained', 'execution_accuracy')} → ${p('constrained', 'execution_accuracy')}`,
+      );
+      const wellTyped = ['test', 'compositional'].map((s) => m[s].constrained.well_typed.rate);
+      if (wellTyped.every((r) => r === 1)) expect(lines).toContain(`${target}: every constrained output is also well-typed.`);
+      else expect(lines.some((l) => l.startsWith(`${target}: well-typed with the masks ${(100 * wellTyped[0]!).toFixed(1)} % (test)`))).toBe(true);
     }
+    // no sentence claims more than the figures: the shipped LF run is not well-typed throughout
+    expect(text).not.toContain('always parse and are well-typed');
   });
 
   it('compactJson keeps short values on one line and breaks long ones', () => {

@@ -91,14 +91,11 @@ const sampleSection: DemoSection = {
   title: '2. Sample: random well-typed programs, reproducible from a seed',
   run(ctx, out) {
     const sql = ctx.grammars.get('sql')!;
-    out('SQL, names bound from the demo database, one table per program (the grammar does not');
-    out("know which columns belong to which table, so each sample binds one table and its columns),");
-    out("each checked by SQLite's own prepare:");
-    const tables = [...ctx.schema.keys()];
+    out('SQL, names bound from the demo database: every column resolves to a table of its query by');
+    out("the grammar's scope rules (joins left out to keep the lines short), each checked by SQLite's");
+    out('own prepare. Well-formed and resolved, not meaningful:');
     for (let seed = 1; seed <= 4; seed++) {
-      const table = tables[seed % tables.length]!;
-      const names = { Table: [table], Column: [...ctx.schema.get(table)!] };
-      const tree = sampleTree(sql, { seed, maxDepth: 4, names, weights: { join: 0 }, plausible: true });
+      const tree = sampleTree(sql, { seed, maxDepth: 4, names: ctx.sqlNames, weights: { join: 0 }, plausible: true });
       const text = printTree(sql, tree);
       out('  ' + text);
       out('    SQLite: ' + sqliteVerdict(ctx.database, text));
