@@ -728,6 +728,21 @@ export class AutomatonInstance {
   }
 
   /**
+   * The frames with return nodes `rets` (innermost first, no variables in scope) on top of
+   * `frames`, as pushFrames builds them. Keep in sync with pushFrames.
+   */
+  rebuildFrames(rets: Int32Array, frames: Frame | null): Frame | null {
+    let f = frames;
+    for (let i = rets.length - 1; i >= 0; i--) {
+      const r = rets[i];
+      const nd = this.nodeDist(r, null);
+      const fw = nd > 0 ? this.firstWord0[r] === 1 : f !== null && f.restFirstWord;
+      f = new Frame(r, null, f, nd + (f === null ? 0 : f.rest), fw);
+    }
+    return f;
+  }
+
+  /**
    * `rest` of the stack `pushFrames(o, frames, env)` would build (0 for an empty stack), without
    * building it. Keep in sync with pushFrames.
    */

@@ -15,6 +15,24 @@ import type { VocabTables } from './vocab-tables.ts';
 
 const NO_MASK: Uint32Array<ArrayBufferLike> = new Uint32Array(0);
 
+/**
+ * A return level inside a token where a kept mask left out the scope-sensitive options (a column
+ * name after the `(` of `(id`, after the `.` of `.name`): the live pass rebuilds the level's frames
+ * on the real stack and starts exactly those options there (walk.ts `walkDeepStarts`).
+ */
+export interface DeepStart {
+  /** the option of the position's own level the token began with */
+  readonly origin: number;
+  /** the trie node (the token's bytes so far) and the RTN node of the level */
+  readonly x: number;
+  readonly node: number;
+  /** return nodes of the frames pushed inside the token, innermost first */
+  readonly rets: Int32Array;
+  /** memo: the real stack these frames were last rebuilt on (undefined: never), and the result */
+  base: unknown;
+  frames: unknown;
+}
+
 export class WalkContext {
   /** the bitset marked tokens are OR-ed into (live: the caller's mask; keep: the kept bitset) */
   mask: Uint32Array<ArrayBufferLike> = NO_MASK;
@@ -31,25 +49,28 @@ export class WalkContext {
   res: Res | null = null;
   /**
    * Scope-sensitive options (Automaton.optSensitive) in kept masks: 0 no deferral; 1 (keep
-   * context) skip them at the kept position's own level — the live walk takes them — and flag
-   * the kept mask unusable when one starts anywhere else; 2 (live) walk only them at that level.
+   * context) skip them — at the kept position's own level the live walk takes them, at a level
+   * inside a token the level is recorded as a deep start (or the kept mask flagged unusable when
+   * no option of the own level leads there); 2 (live) walk only them at that level.
    */
   defer = 0;
   /** the walk is still at the kept position's own level (no option started yet) */
   origin = false;
   /** the frames of the kept position's own level (SENTINEL while keeping) */
   deferFrames: unknown = null;
-  /** keep context: a scope-sensitive option started away from the position's own level */
+  /** keep context: a scope-sensitive option started where no option of the position's own level leads */
   unkeepable = false;
   /** keep context: the option the walk started with at the position's own level (-1: none yet) */
   curOrigin = -1;
-  /** keep context: options of the position's own level under which a sensitive option started deeper */
-  readonly deepHits: number[] = [];
+  /** keep context: a sensitive option was left out at the return level being visited (walk.ts visitLevel) */
+  skipHere = false;
   /**
-   * options of the position's own level deferred whole (a sensitive option starts inside their
-   * continuation): left out while keeping (defer 1), walked by the live pass (defer 2)
+   * keep context: the return levels inside a token where a scope-sensitive option was left out
+   * (the kept mask keeps everything else below them; the live pass starts exactly those options
+   * there, see DeepStart)
    */
-  deepSet: ReadonlySet<number> | null = null;
+  readonly deepStarts: DeepStart[] = [];
+  private readonly deepKeys = new Set<string>();
   /** keep context, sub-local walks: marked token ids are appended here instead of set in `mask` */
   collect: number[] | null = null;
   /** keep context: the trie nodes where the stand-in frame was popped */
@@ -79,7 +100,7 @@ export class WalkContext {
   }
 
   /** Keep context: starts a kept-mask computation into `mask` (or into `collect`, when given). */
-  beginKept(mask: Uint32Array, collect: number[] | null, deferFrames: unknown = null, scopes = false, deep: ReadonlySet<number> | null = null): void {
+  beginKept(mask: Uint32Array, collect: number[] | null, deferFrames: unknown = null, scopes = false): void {
     this.mask = mask;
     this.collect = collect;
     this.defer = scopes ? 1 : 0;
@@ -87,8 +108,9 @@ export class WalkContext {
     this.deferFrames = deferFrames;
     this.unkeepable = false;
     this.curOrigin = -1;
-    this.deepHits.length = 0;
-    this.deepSet = deep;
+    this.skipHere = false;
+    this.deepStarts.length = 0;
+    this.deepKeys.clear();
     this.lim = INF;
     this.rootPrevWord = false;
     this.maxSeen = 0;
@@ -106,6 +128,27 @@ export class WalkContext {
   recordPop(x: number): void {
     if (this.live) throw new Error('internal: the stand-in frame reached in a live mask walk');
     if (x === 0 || !this.tables.wsNode[x]) this.pops.add(x);
+  }
+
+  /**
+   * Records a return level inside a token (trie node x, RTN node, `rets`: the return nodes of the
+   * frames above the stand-in frame, innermost first) where a scope-sensitive option was left out,
+   * under option `origin` of the position's own level. Kept-mask computations only; once per level.
+   */
+  recordDeep(origin: number, x: number, node: number, rets: Int32Array): void {
+    const key = `${origin}:${x}:${node}:${rets.join(',')}`;
+    if (this.deepKeys.has(key)) return;
+    this.deepKeys.add(key);
+    this.deepStarts.push({ origin, x, node, rets, base: undefined, frames: null });
+  }
+
+  /** The deep starts recorded since `beginKept` (null when none); clears them. */
+  takeDeepStarts(): readonly DeepStart[] | null {
+    if (this.deepStarts.length === 0) return null;
+    const out = this.deepStarts.slice();
+    this.deepStarts.length = 0;
+    this.deepKeys.clear();
+    return out;
   }
 
   /** The pop points recorded since `beginKept`, ascending; clears them. */

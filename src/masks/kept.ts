@@ -25,7 +25,7 @@
 import { INF, WORD, type AutomatonInstance, type Frame } from '../automaton/internal.ts';
 import { popcount32 } from '../util/bitset.ts';
 import type { ClassTables } from './class-tables.ts';
-import { WalkContext } from './context.ts';
+import { WalkContext, type DeepStart } from './context.ts';
 import { SENTINEL, type KeptMaskSource, type TrieWalker } from './walk.ts';
 
 interface LocalMask {
@@ -35,8 +35,8 @@ interface LocalMask {
   readonly pops: Uint32Array;
   /** a scope-sensitive option starts where no option of the position's own level can carry it: walk the position live */
   readonly unkeepable: boolean;
-  /** options of the position's own level left to the live pass whole (see WalkContext.deepSet) */
-  readonly deep: ReadonlySet<number> | null;
+  /** levels inside tokens where scope-sensitive options were left out (WalkContext.deepStarts) */
+  readonly deep: readonly DeepStart[] | null;
 }
 
 interface LexLocal {
@@ -48,7 +48,7 @@ interface LexLocal {
   readonly popsLex: Uint32Array;
   readonly popsRoot: Uint32Array;
   readonly unkeepable: boolean;
-  readonly deep: ReadonlySet<number> | null;
+  readonly deep: readonly DeepStart[] | null;
 }
 
 interface SubLocal {
@@ -56,7 +56,7 @@ interface SubLocal {
   readonly maxDist: number;
   readonly pops: Uint32Array;
   readonly unkeepable: boolean;
-  readonly deep: ReadonlySet<number> | null;
+  readonly deep: readonly DeepStart[] | null;
 }
 
 const NO_POPS = new Uint32Array(0);
@@ -109,7 +109,10 @@ export class KeptMasks implements KeptMaskSource {
     ctx.orPacked(local.bits, local.ids, ctx.rootPrevWord);
     // after the program's end only spaces follow: the local mask already has them
     if (frames !== null) this.resumeAtRoot(ctx, local.pops, frames);
-    if (ctx.res !== null) this.walker.walkDeferred(ctx, 0, node, frames, local.deep);
+    if (ctx.res !== null) {
+      this.walker.walkDeferred(ctx, 0, node, frames);
+      if (local.deep !== null) this.walker.walkDeepStarts(ctx, node, frames, local.deep);
+    }
     return true;
   }
 
@@ -124,8 +127,9 @@ export class KeptMasks implements KeptMaskSource {
     }
     if (ctx.res !== null) {
       const ex = tables.exits[d];
-      for (let i = 0; i < ex.length; i++) this.walker.walkDeferred(ctx, ex[i], node, frames, local.deep);
-      if (local.rootBits !== null) this.walker.walkDeferred(ctx, 0, node, frames, local.deep);
+      for (let i = 0; i < ex.length; i++) this.walker.walkDeferred(ctx, ex[i], node, frames);
+      if (local.rootBits !== null) this.walker.walkDeferred(ctx, 0, node, frames);
+      if (local.deep !== null) this.walker.walkDeepStarts(ctx, node, frames, local.deep);
     }
     return true;
   }
@@ -135,7 +139,10 @@ export class KeptMasks implements KeptMaskSource {
     if (sub.unkeepable || sub.maxDist + (frames === null ? 0 : frames.rest) + this.pda.penaltyBound(ctx.res) > ctx.lim) return false;
     ctx.markIds(sub.ids);
     if (frames !== null) this.resumeBelow(ctx, sub.pops, frames);
-    if (ctx.res !== null) this.walker.walkDeferred(ctx, x, node, frames, sub.deep);
+    if (ctx.res !== null) {
+      this.walker.walkDeferred(ctx, x, node, frames);
+      if (sub.deep !== null) this.walker.walkDeepStarts(ctx, node, frames, sub.deep);
+    }
     return true;
   }
 
@@ -170,22 +177,11 @@ export class KeptMasks implements KeptMaskSource {
     const hit = this.locals[n];
     if (hit !== undefined) return hit;
     const k = this.keep;
-    let deep: Set<number> | null = null;
-    let entry: LocalMask;
-    for (;;) {
-      const bits = new Uint32Array(this.walker.vt.nWords);
-      k.beginKept(bits, null, SENTINEL, this.pda.scopes !== null, deep);
-      this.walker.maskBetween(k, n, SENTINEL, null);
-      const more = this.moreDeep(deep);
-      if (more !== null) {
-        deep = more;
-        k.end();
-        continue;
-      }
-      entry = { bits, ids: sparseIds(bits), maxDist: k.maxSeen, pops: k.takePops(), unkeepable: k.unkeepable, deep };
-      k.end();
-      break;
-    }
+    const bits = new Uint32Array(this.walker.vt.nWords);
+    k.beginKept(bits, null, SENTINEL, this.pda.scopes !== null);
+    this.walker.maskBetween(k, n, SENTINEL, null);
+    const entry: LocalMask = { bits, ids: sparseIds(bits), maxDist: k.maxSeen, pops: k.takePops(), unkeepable: k.unkeepable, deep: k.takeDeepStarts() };
+    k.end();
     this.locals[n] = entry;
     return entry;
   }
@@ -196,22 +192,11 @@ export class KeptMasks implements KeptMaskSource {
     const hit = this.subLocals.get(key);
     if (hit !== undefined) return hit;
     const k = this.keep;
-    let deep: Set<number> | null = null;
-    let entry: SubLocal;
-    for (;;) {
-      const ids: number[] = [];
-      k.beginKept(NO_MASK, ids, SENTINEL, this.pda.scopes !== null, deep);
-      this.walker.walkBetween(k, x, n, SENTINEL, null);
-      const more = this.moreDeep(deep);
-      if (more !== null) {
-        deep = more;
-        k.end();
-        continue;
-      }
-      entry = { ids: Uint32Array.from(new Set(ids)), maxDist: k.maxSeen, pops: k.takePops(), unkeepable: k.unkeepable, deep };
-      k.end();
-      break;
-    }
+    const ids: number[] = [];
+    k.beginKept(NO_MASK, ids, SENTINEL, this.pda.scopes !== null);
+    this.walker.walkBetween(k, x, n, SENTINEL, null);
+    const entry: SubLocal = { ids: Uint32Array.from(new Set(ids)), maxDist: k.maxSeen, pops: k.takePops(), unkeepable: k.unkeepable, deep: k.takeDeepStarts() };
+    k.end();
     this.subLocals.set(key, entry);
     return entry;
   }
@@ -229,49 +214,25 @@ export class KeptMasks implements KeptMaskSource {
     const k = this.keep;
     const w = this.walker;
     const nWords = w.vt.nWords;
-    let deep: Set<number> | null = null;
-    let entry: LexLocal;
-    for (;;) {
-      const bits = new Uint32Array(nWords);
-      k.beginKept(bits, null, SENTINEL, this.pda.scopes !== null, deep);
-      w.orInside(k, tables, d, INF - this.pda.betweenDist(n, null, SENTINEL), false);
-      const ex = tables.exits[d];
-      for (let i = 0; i < ex.length; i++) w.walkBetween(k, ex[i], n, SENTINEL, null);
-      const popsLex = k.takePops();
-      let rootBits: Uint32Array | null = null;
-      let popsRoot: Uint32Array = NO_POPS;
-      if (tables.dfa.accept[d]) {
-        // same keep walk (maxSeen carries over), into a second bitset
-        rootBits = new Uint32Array(nWords);
-        k.mask = rootBits;
-        w.maskBetween(k, n, SENTINEL, null);
-        popsRoot = k.takePops();
-      }
-      const more = this.moreDeep(deep);
-      if (more !== null) {
-        deep = more;
-        k.end();
-        continue;
-      }
-      entry = { bits, ids: sparseIds(bits), rootBits, rootIds: rootBits === null ? null : sparseIds(rootBits), maxDist: k.maxSeen, popsLex, popsRoot, unkeepable: k.unkeepable, deep };
-      k.end();
-      break;
+    const bits = new Uint32Array(nWords);
+    k.beginKept(bits, null, SENTINEL, this.pda.scopes !== null);
+    w.orInside(k, tables, d, INF - this.pda.betweenDist(n, null, SENTINEL), false);
+    const ex = tables.exits[d];
+    for (let i = 0; i < ex.length; i++) w.walkBetween(k, ex[i], n, SENTINEL, null);
+    const popsLex = k.takePops();
+    let rootBits: Uint32Array | null = null;
+    let popsRoot: Uint32Array = NO_POPS;
+    if (tables.dfa.accept[d]) {
+      // same keep walk (maxSeen carries over), into a second bitset
+      rootBits = new Uint32Array(nWords);
+      k.mask = rootBits;
+      w.maskBetween(k, n, SENTINEL, null);
+      popsRoot = k.takePops();
     }
+    const entry: LexLocal = { bits, ids: sparseIds(bits), rootBits, rootIds: rootBits === null ? null : sparseIds(rootBits), maxDist: k.maxSeen, popsLex, popsRoot, unkeepable: k.unkeepable, deep: k.takeDeepStarts() };
+    k.end();
     perClass.set(key, entry);
     return entry;
-  }
-
-  /**
-   * After a keep walk: the deferred-whole set grown by the options under which a sensitive option
-   * started deeper (null when none did: the walk is final). Each round defers at least one more
-   * option of the position's own level, so the rounds end.
-   */
-  private moreDeep(deep: Set<number> | null): Set<number> | null {
-    const hits = this.keep.deepHits;
-    if (hits.length === 0 || this.keep.unkeepable) return null;
-    const out = new Set(deep ?? []);
-    for (const o of hits) out.add(o);
-    return out;
   }
 
   /** Computes the local mask of every RTN node a BETWEEN position can be at. Returns the count. */

@@ -25,7 +25,7 @@
  */
 import { ALLOWED, Frame, LEVELS_STOP, LIVE, Thread, WORD, type Automaton, type AutomatonInstance, type Dispatch, type Env, type LevelVisitor, type Res, type Rtn } from '../automaton/internal.ts';
 import type { Vocabulary } from '../vocab/index.ts';
-import type { WalkContext } from './context.ts';
+import type { DeepStart, WalkContext } from './context.ts';
 import { MAX_LE, wMinAccept, wStep, type ClassTables } from './class-tables.ts';
 import type { VocabTables } from './vocab-tables.ts';
 
@@ -47,9 +47,22 @@ export interface KeptMaskSource {
   below(ctx: WalkContext, x: number, node: number, frames: Frame | null): boolean;
 }
 
+/**
+ * The product of the token trie below a node x and a names automaton from state s, in depth-first
+ * preorder: pair i is (nodes[i], states[i]) with states[i] ≠ dead, and skip[i] is the index just
+ * past its subtree. Memory: three Int32 per pair.
+ */
+interface NameWalk {
+  readonly nodes: Int32Array;
+  readonly states: Int32Array;
+  readonly skip: Int32Array;
+}
+
 export class TrieWalker implements LevelVisitor<WalkContext> {
   /** kept masks, when the grammar allows them (no variables); set once by the constraint */
   kept: KeptMaskSource | null = null;
+  /** per (names terminal, trie node, state): its NameWalk */
+  private readonly nameWalks = new Map<number, NameWalk>();
   private readonly a: Automaton;
   private readonly rtn: Rtn;
   private readonly byte: Uint8Array;
@@ -127,36 +140,68 @@ export class TrieWalker implements LevelVisitor<WalkContext> {
 
   /**
    * The scope-sensitive options of the BETWEEN position (node, frames) from the trie root — the
-   * part of its mask a kept mask leaves out (kept.ts); `x` ≠ 0: below trie node x.
+   * part of its mask a kept mask leaves out at the position's own level (kept.ts); `x` ≠ 0: below
+   * trie node x.
    */
-  walkDeferred(ctx: WalkContext, x: number, node: number, frames: Frame | null, deep: ReadonlySet<number> | null): void {
+  walkDeferred(ctx: WalkContext, x: number, node: number, frames: Frame | null): void {
     const d0 = ctx.defer;
     const o0 = ctx.origin;
     const f0 = ctx.deferFrames;
-    const s0 = ctx.deepSet;
     ctx.defer = 2;
     ctx.origin = true;
     ctx.deferFrames = frames;
-    ctx.deepSet = deep;
     if (x === 0) this.maskBetween(ctx, node, frames, null);
     else this.walkBetween(ctx, x, node, frames, null);
     ctx.defer = d0;
     ctx.origin = o0;
     ctx.deferFrames = f0;
-    ctx.deepSet = s0;
+  }
+
+  /**
+   * The scope-sensitive options a kept mask left out inside its tokens (DeepStart): for each
+   * recorded level, the state after the option of the position's own level that leads there, the
+   * level's frames rebuilt on the real stack `frames`, and only those options started at its trie
+   * node. Frames pushed inside a token lie above the real stack, so no scope of `ctx.res` closes
+   * on the way and non-sensitive options leave the scope state as it is.
+   */
+  walkDeepStarts(ctx: WalkContext, node: number, frames: Frame | null, starts: readonly DeepStart[]): void {
+    const base = ctx.res!;
+    const lr = this.pda.levelRes(base, node, frames);
+    if (lr === null) return;
+    const d0 = ctx.defer;
+    const o0 = ctx.origin;
+    const f0 = ctx.deferFrames;
+    for (let i = 0; i < starts.length; i++) {
+      const ds = starts[i];
+      const info = this.pda.optionInfo(ds.origin, lr, frames);
+      if (info.res === null) continue;
+      let f: Frame | null;
+      if (ds.base === frames && ds.frames !== null) f = ds.frames as Frame | null;
+      else {
+        f = this.pda.rebuildFrames(ds.rets, frames);
+        ds.base = frames;
+        ds.frames = f;
+      }
+      ctx.defer = 2;
+      ctx.origin = true;
+      ctx.deferFrames = f;
+      ctx.res = info.res;
+      this.visitLevel(ctx, ds.x, ds.node, f, null);
+    }
+    ctx.res = base;
+    ctx.defer = d0;
+    ctx.origin = o0;
+    ctx.deferFrames = f0;
   }
 
   /** Option o is left out here: deferral of scope-sensitive options (WalkContext.defer). */
   private skipOption(ctx: WalkContext, o: number, frames: Frame | null): boolean {
     if (ctx.defer === 0) return false;
     const sens = this.a.optSensitive[o] === 1;
-    if (ctx.origin && frames === ctx.deferFrames) {
-      const whole = sens || (ctx.deepSet !== null && ctx.deepSet.has(o));
-      return ctx.defer === 1 ? whole : !whole;
-    }
+    if (ctx.origin && frames === ctx.deferFrames) return ctx.defer === 1 ? sens : !sens;
     if (ctx.defer === 1 && sens) {
-      // deeper inside a token: defer the whole option of the position's own level it came from
-      if (ctx.curOrigin >= 0) ctx.deepHits.push(ctx.curOrigin);
+      // inside a token: the level is recorded (visitLevel) and the live pass starts the option there
+      if (ctx.curOrigin >= 0) ctx.skipHere = true;
       else ctx.unkeepable = true;
       return true;
     }
@@ -202,6 +247,35 @@ export class TrieWalker implements LevelVisitor<WalkContext> {
    * the token there, the byte of x elsewhere.
    */
   visitLevel(ctx: WalkContext, x: number, node: number, frames: Frame | null, env: Env | null): void {
+    if (ctx.defer === 1) {
+      // keep context: a level inside a token where a sensitive option is left out is recorded
+      const saved = ctx.skipHere;
+      ctx.skipHere = false;
+      this.visitLevelRes(ctx, x, node, frames, env);
+      if (ctx.skipHere) this.recordDeep(ctx, x, node, frames);
+      ctx.skipHere = saved;
+      return;
+    }
+    this.visitLevelRes(ctx, x, node, frames, env);
+  }
+
+  /** Records a deep start (WalkContext.recordDeep): the return nodes of `frames` above the stand-in frame. */
+  private recordDeep(ctx: WalkContext, x: number, node: number, frames: Frame | null): void {
+    let k = 0;
+    for (let f = frames; f !== ctx.deferFrames; f = f.next) {
+      if (f === null) {
+        ctx.unkeepable = true; // not above the stand-in frame (cannot happen in a keep walk)
+        return;
+      }
+      k++;
+    }
+    const rets = new Int32Array(k);
+    let i = 0;
+    for (let f = frames; f !== ctx.deferFrames; f = f!.next) rets[i++] = f!.ret;
+    ctx.recordDeep(ctx.curOrigin, x, node, rets);
+  }
+
+  private visitLevelRes(ctx: WalkContext, x: number, node: number, frames: Frame | null, env: Env | null): void {
     const pda = this.pda;
     const base = ctx.res;
     if (base !== null) {
@@ -348,19 +422,13 @@ export class TrieWalker implements LevelVisitor<WalkContext> {
    * lexeme ends inside a token and the walk goes on below (distances come from `rest`).
    */
   private walkLex(ctx: WalkContext, x: number, term: number, node: number, o: number, frames: Frame | null, env: Env | null, s: number, rest: number, filter: Uint8Array | null, far: Int32Array | null = null): void {
+    if (this.rtn.terminals[term].kind === 'names') {
+      this.walkNames(ctx, x, term, node, o, frames, env, s, rest, filter, far);
+      return;
+    }
     const dfa = this.pda.termDfa[term];
     const { byte, end } = this;
-    if (x !== 0 && dfa.accept[s] && end[x] > x + 1) {
-      if (filter === null) this.walkBetween(ctx, x, node, o < 0 ? frames : this.pda.pushFrames(o, frames, env), env);
-      else if ((filter[s] & ALLOWED) !== 0) {
-        // a name ends inside the token: the walk below goes on with the scope state after it
-        const r = ctx.res!;
-        const set = this.a.scopes.roleSet[node];
-        ctx.res = this.pda.scopes!.afterLexeme(r, node, this.pda.scopes!.member(set, s));
-        this.walkBetween(ctx, x, node, o < 0 ? frames : this.pda.pushFrames(o, frames, env), env);
-        ctx.res = r;
-      }
-    }
+    if (x !== 0 && dfa.accept[s] && end[x] > x + 1) this.lexEndsInside(ctx, x, node, o, frames, env, s, filter);
     const base = s * 256;
     if (this.rtn.terminals[term].kind !== 'class' && this.vt.wide[x] >= 0) {
       // literals and names continue with few bytes: look them up
@@ -380,6 +448,75 @@ export class TrieWalker implements LevelVisitor<WalkContext> {
       ctx.markNode(c, (far === null ? dfa.minAccept[s2] : far[s2]) + rest);
       if (end[c] > c + 1) this.walkLex(ctx, c, term, node, o, frames, env, s2, rest, filter, far);
     }
+  }
+
+  /** The lexeme of a lit/names terminal ends inside the token at trie node x (state s): the walk goes on below x. */
+  private lexEndsInside(ctx: WalkContext, x: number, node: number, o: number, frames: Frame | null, env: Env | null, s: number, filter: Uint8Array | null): void {
+    if (filter === null) this.walkBetween(ctx, x, node, o < 0 ? frames : this.pda.pushFrames(o, frames, env), env);
+    else if ((filter[s] & ALLOWED) !== 0) {
+      // a name ends inside the token: the walk below goes on with the scope state after it
+      const r = ctx.res!;
+      const set = this.a.scopes.roleSet[node];
+      ctx.res = this.pda.scopes!.afterLexeme(r, node, this.pda.scopes!.member(set, s));
+      this.walkBetween(ctx, x, node, o < 0 ? frames : this.pda.pushFrames(o, frames, env), env);
+      ctx.res = r;
+    }
+  }
+
+  /**
+   * `walkLex` for a name-set terminal: the pairs (trie node, names-automaton state) below (x, s)
+   * are the same for every mask of this binding, so they are listed once (NameWalk) and each walk
+   * is one pass over the list, skipping the subtrees whose state the filter rules out.
+   */
+  private walkNames(ctx: WalkContext, x: number, term: number, node: number, o: number, frames: Frame | null, env: Env | null, s: number, rest: number, filter: Uint8Array | null, far: Int32Array | null): void {
+    const dfa = this.pda.termDfa[term];
+    const end = this.end;
+    if (x !== 0 && dfa.accept[s] && end[x] > x + 1) this.lexEndsInside(ctx, x, node, o, frames, env, s, filter);
+    const w = this.nameWalk(term, x, s);
+    const { nodes, states, skip } = w;
+    const accept = dfa.accept;
+    const minAccept = dfa.minAccept;
+    for (let i = 0; i < nodes.length; ) {
+      const s2 = states[i];
+      if (filter !== null && (filter[s2] & LIVE) === 0) {
+        i = skip[i];
+        continue;
+      }
+      const c = nodes[i];
+      ctx.markNode(c, (far === null ? minAccept[s2] : far[s2]) + rest);
+      if (accept[s2] && end[c] > c + 1) this.lexEndsInside(ctx, c, node, o, frames, env, s2, filter);
+      i++;
+    }
+  }
+
+  /** The NameWalk of (terminal, trie node x, state s), built on first use and kept (per binding: the walker's). */
+  private nameWalk(term: number, x: number, s: number): NameWalk {
+    const dfa = this.pda.termDfa[term];
+    const key = (term * this.vt.trie.nodeCount + x) * dfa.stateCount + s;
+    const hit = this.nameWalks.get(key);
+    if (hit !== undefined) return hit;
+    const { byte, end } = this;
+    const trans = dfa.trans;
+    const nodes: number[] = [];
+    const states: number[] = [];
+    const skip: number[] = [];
+    const visit = (x: number, s: number): void => {
+      const base = s * 256;
+      for (let c = x + 1, stop = end[x]; c < stop; c = end[c]) {
+        const s2 = trans[base + byte[c]];
+        if (s2 === 0) continue;
+        const i = nodes.length;
+        nodes.push(c);
+        states.push(s2);
+        skip.push(0);
+        if (end[c] > c + 1) visit(c, s2);
+        skip[i] = nodes.length;
+      }
+    };
+    visit(x, s);
+    const w: NameWalk = { nodes: Int32Array.from(nodes), states: Int32Array.from(states), skip: Int32Array.from(skip) };
+    this.nameWalks.set(key, w);
+    return w;
   }
 
   /** Walks below x with any thread, stepping it byte by byte (names, variables). */
