@@ -77,7 +77,7 @@ describe.skipIf(!BROWSER_TESTS)('playground page', () => {
   });
 
   it('decodes a question both ways, one step at a time, and shows the constrained tree, code and answer', async () => {
-    const decoded: Record<string, { constrained: boolean; steps: { allowed_count: number | null; byte: number | null }[]; model_ms: number; mask_ms: number; left_grammar_at: number | null }> = {};
+    const decoded: Record<string, { constrained: boolean; steps: { allowed_count: number | null; byte: number | null; text: string; id: number }[]; model_ms: number; mask_ms: number; left_grammar_at: number | null }> = {};
     const onResponse = async (r: import('playwright-core').Response) => {
       if (!r.url().endsWith('/api/decode')) return;
       const body = await r.json();
@@ -159,7 +159,20 @@ describe.skipIf(!BROWSER_TESTS)('playground page', () => {
           expect(label).toBe(`step ${k}: ${run.steps[k - 1].allowed_count!.toLocaleString('en')} allowed`);
         }
         if (k > run.steps.length) expect(line).toContain(`this run ended after step ${run.steps.length}`);
+        // the text so far is the text after the selected step (after the last one past the end)
+        expect(await page.textContent(`#${key}-sofar`)).toBe(run.steps[Math.min(k, run.steps.length) - 1]!.text);
       }
+    }
+
+    // every token chip on both sides: a byte-fallback step shows its byte as <0xNN> and is marked
+    // as a byte; an ordinary token never is (the server's steps say which is which)
+    for (const [key, run] of [['u', u], ['c', c]] as const) {
+      const chips = await page.$$eval(`#${key}-tokens .chip`, (els) => els.map((e) => ({ byte: e.classList.contains('byte'), text: e.textContent })));
+      expect(chips.length).toBe(run.steps.length);
+      run.steps.forEach((s, i) => {
+        expect(chips[i]!.byte, `${key} step ${i + 1}`).toBe(s.byte !== null);
+        if (s.byte !== null) expect(chips[i]!.text).toBe(`<0x${s.byte.toString(16).toUpperCase().padStart(2, '0')}>`);
+      });
     }
 
     // a real log axis: ticks at 1, 10, 100, 1k up to the vocabulary, and each bar's top where its
@@ -300,6 +313,35 @@ describe.skipIf(!BROWSER_TESTS)('playground page', () => {
     });
     expect(view.rowTop).toBeGreaterThanOrEqual(view.top);
     expect(view.rowBottom).toBeLessThanOrEqual(view.bottom);
+    // lines never wrap in the editor, and the error's mark stands exactly under its line and column
+    // of the visible text (monospace: column × the width of one character, line × the line height)
+    const placed = await page.$eval('#editor', (t, at) => {
+      const ta = t as HTMLTextAreaElement;
+      const style = getComputedStyle(ta);
+      const probe = document.createElement('span');
+      probe.textContent = 'x'.repeat(100);
+      probe.style.font = style.font;
+      probe.style.whiteSpace = 'pre';
+      probe.style.position = 'absolute';
+      document.body.append(probe);
+      const ch = probe.getBoundingClientRect().width / 100;
+      probe.remove();
+      const box = ta.getBoundingClientRect();
+      const mark = document.querySelector('#marks mark')!.getBoundingClientRect();
+      return {
+        wrap: ta.getAttribute('wrap'),
+        whiteSpace: style.whiteSpace,
+        left: mark.left,
+        wantLeft: box.left + parseFloat(style.paddingLeft) + (at.column - 1) * ch - ta.scrollLeft,
+        top: mark.top,
+        wantTop: box.top + parseFloat(style.paddingTop) + (at.line - 1) * parseFloat(style.lineHeight) - ta.scrollTop,
+        lineHeight: parseFloat(style.lineHeight),
+      };
+    }, { line, column: layoutColumn });
+    expect(placed.wrap).toBe('off');
+    expect(placed.whiteSpace).toBe('pre');
+    expect(Math.abs(placed.left - placed.wantLeft)).toBeLessThan(1);
+    expect(Math.abs(placed.top - placed.wantTop)).toBeLessThan(placed.lineHeight / 2);
     expect(view.caret).toBe(lines.slice(0, line - 1).reduce((a, l) => a + l.length + 1, 0) + layoutColumn - 1);
     expect(await page.$$eval('#gutter div.err', (els) => els.map((e) => e.getAttribute('data-line')))).toEqual([String(line)]);
     const marks = await page.$$eval('#marks mark', (els) => els.map((e) => ({ line: e.getAttribute('data-line'), column: e.getAttribute('data-column'), text: e.textContent })));
