@@ -6,8 +6,8 @@
  *   const engine = compileMasks(grammar, loadVocabulary('my-model/tokenizer.json'));
  *   const constraint = engine.bind({ Table: ['orchards'], Column: ['name', 'hectares'] });
  *
- * Importing this entry loads none of the heavy packages: onnxruntime-node and
- * @huggingface/transformers are loaded by `loadModel`, better-sqlite3 by the functions that read or
+ * Importing this entry loads none of the heavy packages: onnxruntime-node is loaded by `loadModel`
+ * (with @huggingface/tokenizers, light, for the question's tokens), better-sqlite3 by the functions that read or
  * build SQLite files, each at its first call (src/util/optional.ts). Two more entries:
  * `treewright/transformers` (the logits processor for transformers.js' generate(); loads
  * @huggingface/transformers) and `treewright/server` (the HTTP server; loads fastify).

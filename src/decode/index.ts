@@ -49,6 +49,13 @@ export interface GenerateOptions extends DecodeOptions {
   names?: NameBindings;
   /** decode without masks even though a grammar is given (the output is still parsed) */
   unconstrained?: boolean;
+  /**
+   * Warm the grammar's constraint up before its first question (see boundConstraint; default
+   * true): worth it when the constraint serves many questions (a server, an evaluation); a process
+   * answering one question (`treewright generate`) passes false and computes only the masks its
+   * own steps need. The output is the same either way.
+   */
+  warm?: boolean;
 }
 
 export interface GenerateResult extends DecodeResult {
@@ -84,32 +91,37 @@ export function maskEngine(model: Seq2SeqModel, grammar: Grammar): MaskEngine {
 
 const NO_NAMES: NameBindings = Object.freeze({});
 const bindings = new WeakMap<MaskEngine, WeakMap<NameBindings, ReturnType<MaskEngine['bind']>>>();
+const warmed = new WeakSet<ReturnType<MaskEngine['bind']>>();
 
 /**
  * The engine bound to `names`, kept per bindings object: a constraint keeps the masks it has
  * computed, so reusing it across questions avoids recomputing them (a fresh bind starts cold).
- * Pass the same `names` object from call to call to profit from it.
+ * Pass the same `names` object from call to call to profit from it. With `warm` (the default) a
+ * fresh constraint is warmed up first; without it, masks are computed as the steps need them.
  */
-export function boundConstraint(engine: MaskEngine, names: NameBindings): ReturnType<MaskEngine['bind']> {
+export function boundConstraint(engine: MaskEngine, names: NameBindings, warm = true): ReturnType<MaskEngine['bind']> {
   let byNames = bindings.get(engine);
   if (byNames === undefined) bindings.set(engine, (byNames = new WeakMap()));
   let bound = byNames.get(names);
   if (bound === undefined) {
     bound = engine.bind(names);
+    byNames.set(names, bound);
+  }
+  if (warm && !warmed.has(bound)) {
     // what would otherwise be computed during the first question's steps: every local mask, then
     // the masks along sampled programs (kept masks of lexeme states, compiled walker code)
     bound.prepare();
     warmUp(bound, engine.grammar, names);
-    byNames.set(names, bound);
+    warmed.add(bound);
   }
   return bound;
 }
 
 /** Decodes a question (text, or token ids from `model.input`) and, given a grammar, parses and checks the output (see GenerateOptions). */
 export async function generate(model: Seq2SeqModel, question: string | readonly number[], options: GenerateOptions = {}): Promise<GenerateResult> {
-  const { grammar = null, names = NO_NAMES, unconstrained = false, ...rest } = options;
+  const { grammar = null, names = NO_NAMES, unconstrained = false, warm = true, ...rest } = options;
   let constraint = rest.constraint ?? null;
-  if (grammar !== null && !unconstrained && constraint === null) constraint = boundConstraint(maskEngine(model, grammar), names);
+  if (grammar !== null && !unconstrained && constraint === null) constraint = boundConstraint(maskEngine(model, grammar), names, warm);
   const result = await decode(model, question, { ...rest, constraint: unconstrained ? null : constraint });
   if (grammar === null) return { ...result, tree: null, valid: false, well_typed: false, parse_error: null };
   let tree: Tree;

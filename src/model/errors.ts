@@ -72,7 +72,7 @@ export const errors = {
         `have ${logits} entries; expected equal sizes — the tokenizer does not belong to this model`,
     ),
   tokenizer: (dir: string, detail: string) =>
-    new ModelError(`${dir}/tokenizer.json`, `@huggingface/transformers could not load the tokenizer (${detail}); expected tokenizer.json + tokenizer_config.json with a tokenizer_class`),
+    new ModelError(`${dir}/tokenizer.json`, `@huggingface/tokenizers could not load the tokenizer (${detail}); expected a Hugging Face tokenizer.json and its tokenizer_config.json`),
   constraintSize: (what: string, constraintSize: number, modelSize: number) =>
     new ModelError(what, `the token constraint covers ${constraintSize} token ids but the model has ${modelSize}; expected a constraint built from this model's tokenizer.json`),
 };

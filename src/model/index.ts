@@ -2,7 +2,7 @@
  * model/ — runs a seq2seq model exported in the standard ONNX folder layout (the one
  * @huggingface/transformers loads for encoder–decoder models) on CPU with onnxruntime-node.
  *
- * Produces: a `Seq2SeqModel` (config, transformers.js tokenizer, vocabulary index, sessions) and,
+ * Produces: a `Seq2SeqModel` (config, tokenizer (@huggingface/tokenizers), vocabulary index, sessions) and,
  * per question, a `DecoderRun` whose `step(tokens, parents)` returns next-token logits for a batch
  * of hypotheses, keeping the KV cache (reordered along the batch for beam search).
  *

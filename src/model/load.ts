@@ -5,8 +5,8 @@
 import { existsSync, readFileSync, statSync } from 'node:fs';
 import { join, resolve } from 'node:path';
 import type * as ort from 'onnxruntime-node';
-import type { PreTrainedTokenizer } from '@huggingface/transformers';
-import { MissingPackageError, onnxRuntime } from '../util/optional.ts';
+import type { Tokenizer } from '@huggingface/tokenizers';
+import { onnxRuntime } from '../util/optional.ts';
 import { loadVocabulary, type Vocabulary } from '../vocab/index.ts';
 import { InputTooLong, ModelError, OutputTooLong, errors } from './errors.ts';
 import { DecoderRun } from './run.ts';
@@ -147,8 +147,11 @@ export class Seq2SeqModel {
     /** absolute path of the folder */
     readonly dir: string,
     readonly config: ModelConfig,
-    /** the transformers.js tokenizer (used to encode questions) */
-    readonly tokenizer: PreTrainedTokenizer,
+    /**
+     * the tokenizer (used to encode questions): @huggingface/tokenizers, the library whose Tokenizer
+     * transformers.js itself wraps — its `encode(text).ids` are transformers.js' `tokenizer.encode(text)`
+     */
+    readonly tokenizer: Tokenizer,
     /** the token byte strings (used for output text and by token masks) */
     readonly vocabulary: Vocabulary,
     readonly encoder: ort.InferenceSession,
@@ -174,7 +177,7 @@ export class Seq2SeqModel {
 
   /** Token ids of a question, as the tokenizer encodes it (EOS appended by its template). */
   encodeQuestion(question: string): number[] {
-    return this.tokenizer.encode(question);
+    return this.tokenizer.encode(question, { add_special_tokens: true }).ids;
   }
 
   /**
@@ -273,17 +276,14 @@ export async function loadModel(dir: string, options: LoadModelOptions = {}): Pr
   }
   if (vocabulary.vocabSize !== logitsDim) throw errors.vocabMismatch(tokFile, vocabulary.vocabSize, decFile, logitsDim);
 
-  let AutoTokenizer: typeof import('@huggingface/transformers').AutoTokenizer;
+  // The tokenizer transformers.js' AutoTokenizer builds (its encode() is this Tokenizer's), without
+  // loading transformers.js itself (a few hundred milliseconds of start-up).
+  const tokenizerJson = readJson(tokFile);
+  const tokenizerConfig = readJson(join(dir, 'tokenizer_config.json'));
+  const { Tokenizer } = await import('@huggingface/tokenizers');
+  let tokenizer: Tokenizer;
   try {
-    ({ AutoTokenizer } = await import('@huggingface/transformers'));
-  } catch (e) {
-    if ((e as NodeJS.ErrnoException).code === 'ERR_MODULE_NOT_FOUND') throw new MissingPackageError('@huggingface/transformers', "reading a model's tokenizer");
-    throw e;
-  }
-  let tokenizer: PreTrainedTokenizer;
-  try {
-    // an absolute folder path is read directly (no hub lookup); local_files_only keeps it offline
-    tokenizer = await AutoTokenizer.from_pretrained(abs, { local_files_only: true });
+    tokenizer = new Tokenizer(tokenizerJson, tokenizerConfig);
   } catch (e) {
     throw errors.tokenizer(dir, (e as Error).message);
   }

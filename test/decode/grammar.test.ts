@@ -46,6 +46,19 @@ describe('generate() with a grammar', () => {
     }
   });
 
+  it('without the warm-up (warm: false, as `treewright generate` runs) the outputs are the same', async () => {
+    // a fresh bindings object (read again): its constraint is bound anew, never warmed up, masks computed as the steps need them
+    const fresh = loadNames('grammars/lf/samples/names.json', lf);
+    for (const q of QUESTIONS) {
+      for (const opts of [{}, { strategy: 'beam' as const, beamWidth: 3 }, { strategy: 'sample' as const, seed: 5, temperature: 1.2 }]) {
+        const cold = await generate(model, q, { grammar: lf, names: fresh, maxTokens: 48, warm: false, ...opts });
+        const warm = await generate(model, q, { grammar: lf, names, maxTokens: 48, ...opts });
+        expect(cold.tokens, q).toEqual(warm.tokens);
+        expect(cold.well_typed).toBe(warm.well_typed);
+      }
+    }
+  });
+
   it('unconstrained output of the random model is reported as not parsing, with the parser message', async () => {
     const r = await generate(model, QUESTIONS[0], { grammar: lf, names, unconstrained: true, maxTokens: 12 });
     expect(r.mask_ms).toBe(0);

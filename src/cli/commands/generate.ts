@@ -65,6 +65,8 @@ export const register: RegisterCommand = (program: Command, setExit) => {
             topP: f.topP,
             seed: f.seed,
             maxTokens: f.maxTokens,
+            // one question per process: a warm-up would compute masks this question never needs
+            warm: false,
           };
           const model = await loadModel(f.model);
           try {
