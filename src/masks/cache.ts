@@ -6,11 +6,13 @@
  * `$XDG_CACHE_HOME/treewright/masks`; how files are created, read and sealed: cache-files.ts).
  *
  * Layout (little-endian; every section starts on a 4-byte boundary):
- *   CACHE_FORMAT ("TWMASK02")       magic (8 bytes)
- *   u32 headerLength, header JSON   {format, key, grammarHash, vocabBytes, classes: [null | {states, kmax[], exits[]}]}
+ *   CACHE_FORMAT ("TWMASK03")       magic (8 bytes)
+ *   u32 headerLength, header JSON   {format, key, grammarHash, vocabBytes, bitsets, classes: [null | {states, kmax[], exits[]}], dfas}
  *   vocabulary index                Vocabulary.serialize() (its own checksum)
- *   per class with tables: inside bitsets for states 1..W0, then le bitsets (kmax[d] capped at
- *   MAX_LE per state, in state order), then the exit node lists (u32)
+ *   the class DFAs                  per class: transitions, distances, accept flags (u32)
+ *   the distinct bitsets            `bitsets` of ⌈V/32⌉ words each (equal tables are stored once)
+ *   per class with tables: the bitset number of inside[d] for states 1..W0, then of each le level
+ *   (kmax[d] capped at MAX_LE per state, in state order), then the exit node lists (u32)
  *   sha256 of everything above except the vocabulary section (it has its own)  (32 bytes)
  * The automaton itself is rebuilt from the description (milliseconds); per-binding local masks
  * are not cached (computed on first use, ~0.1 s for the shipped grammars).
@@ -29,7 +31,7 @@ import { MAX_LE, type ClassTables } from './class-tables.ts';
 import { Automaton, type ByteDfa } from '../automaton/internal.ts';
 import { CacheFileError, defaultCacheDir, folderSecret, privateDir, readSealed, writeSealed } from './cache-files.ts';
 
-export const CACHE_FORMAT = 'TWMASK02'; // 02: token DFAs from the regex front-end (case folding per ECMAScript, surrogate pairs)
+export const CACHE_FORMAT = 'TWMASK03'; // 02: token DFAs from the regex front-end (case folding per ECMAScript, surrogate pairs); 03: equal bitsets stored once
 const MAGIC = Buffer.from(CACHE_FORMAT, 'latin1');
 
 export class CacheError extends Error {}
@@ -65,7 +67,21 @@ export function serializeEngine(engine: MaskEngine, key: string): Buffer {
   const dfas = engine.grammar.tokens.map((tc) => engine.automaton.rtn.terminals.find((x) => x.tokenClass === tc.index && x.kind !== 'lit')?.dfa ?? null);
   const dfaInfo = dfas.map((d) => (d === null ? null : { states: d.stateCount, start: d.start, shortest: d.shortest === null ? null : Array.from(d.shortest) }));
   const vocabBlob = Buffer.from(engine.vocab.serialize());
-  const header = Buffer.from(JSON.stringify({ format: CACHE_FORMAT, key, grammarHash: engine.grammar.hash, vocabBytes: vocabBlob.length, classes, dfas: dfaInfo }), 'utf8');
+  // distinct bitsets by identity (the builder interned equal ones; a loaded engine shares views)
+  const pool = new Map<Uint32Array, number>();
+  const number = (b: Uint32Array) => {
+    let i = pool.get(b);
+    if (i === undefined) pool.set(b, (i = pool.size));
+    return i;
+  };
+  const refs = engine.classes.map((t) => {
+    if (t === null) return null;
+    const ids: number[] = [];
+    for (let d = 1; d <= t.w0; d++) ids.push(number(t.inside[d]));
+    for (let d = 1; d <= t.w0; d++) for (const b of t.le[d]) ids.push(number(b));
+    return Uint32Array.from(ids);
+  });
+  const header = Buffer.from(JSON.stringify({ format: CACHE_FORMAT, key, grammarHash: engine.grammar.hash, vocabBytes: vocabBlob.length, bitsets: pool.size, classes, dfas: dfaInfo }), 'utf8');
   const len = Buffer.alloc(4);
   len.writeUInt32LE(header.length);
   parts.push(MAGIC, len, header, Buffer.alloc(pad4(header.length)));
@@ -77,12 +93,12 @@ export function serializeEngine(engine: MaskEngine, key: string): Buffer {
     u32(d.minAccept);
     u32(Uint32Array.from(d.accept));
   }
-  for (const t of engine.classes) {
-    if (t === null) continue;
-    for (let d = 1; d <= t.w0; d++) u32(t.inside[d]);
-    for (let d = 1; d <= t.w0; d++) for (const b of t.le[d]) u32(b);
+  for (const b of pool.keys()) u32(b);
+  engine.classes.forEach((t, i) => {
+    if (t === null) return;
+    u32(refs[i]!);
     for (let d = 1; d <= t.w0; d++) u32(t.exits[d]);
-  }
+  });
   const body = Buffer.concat(parts);
   // the checksum skips the vocabulary section, which carries its own
   const vocabStart = 12 + header.length + pad4(header.length);
@@ -106,6 +122,7 @@ export function deserializeEngine(data: Buffer, grammar: Grammar, key: string, f
     key: string;
     grammarHash: string;
     vocabBytes: number;
+    bitsets: number;
     classes: ({ states: number; kmax: number[]; exits: number[] } | null)[];
     dfas: ({ states: number; start: number; shortest: number[] | null } | null)[];
   };
@@ -160,6 +177,11 @@ export function deserializeEngine(data: Buffer, grammar: Grammar, key: string, f
     if (extra !== 0 && (b[nWords - 1]! >>> extra) !== 0) fail(`${what} allows token ids at or past the vocabulary size ${vocabSize}`);
     return b;
   };
+  if (!isCount(header.bitsets, 0, Math.floor((words.length - w) / Math.max(1, nWords)))) fail('bad bitset count');
+  const pool: Uint32Array[] = [];
+  for (let i = 0; i < header.bitsets; i++) pool.push(bitset(take(nWords), `bitset ${i}`));
+  /** pairs (level, inside) already checked: a level is checked once against each state set it serves */
+  const subsetChecked = new Set<number>();
   const automaton = new Automaton(grammar, dfas);
   const tables: (ClassTables | null)[] = header.classes.map((c, i) => {
     if (c === null) return null;
@@ -174,15 +196,29 @@ export function deserializeEngine(data: Buffer, grammar: Grammar, key: string, f
     const w0Trans = new Int32Array(256);
     const space = grammar.space;
     for (let b = 0; b < 256; b++) w0Trans[b] = b < 128 && space.includes(String.fromCharCode(b)) ? w0 : dfa.trans[dfa.start * 256 + b];
+    const ref = (what: string): number => {
+      const r = take(1)[0]!;
+      if (r >= pool.length) fail(`${what} refers to bitset ${r} of ${pool.length}`);
+      return r;
+    };
+    const insideRef = [0];
     const inside: Uint32Array[] = [new Uint32Array(0)];
-    for (let d = 1; d <= w0; d++) inside.push(bitset(take(nWords), `class ${t.name} state ${d}`));
+    for (let d = 1; d <= w0; d++) {
+      insideRef.push(ref(`class ${t.name} state ${d}`));
+      inside.push(pool[insideRef[d]!]!);
+    }
     const le: Uint32Array[][] = [[]];
     for (let d = 1; d <= w0; d++) {
       const levels: Uint32Array[] = [];
       for (let k = 0; k < Math.min(c.kmax[d], MAX_LE); k++) {
-        const b = take(nWords);
+        const r = ref(`class ${t.name} state ${d} level ${k}`);
+        const b = pool[r]!;
         // a budget level is a subset of the state's inside set
-        for (let x = 0; x < nWords; x++) if ((b[x]! & ~inside[d]![x]!) !== 0) fail(`class ${t.name} state ${d}: a budget level allows tokens its state does not`);
+        const pair = r * pool.length + insideRef[d]!;
+        if (!subsetChecked.has(pair)) {
+          for (let x = 0; x < nWords; x++) if ((b[x]! & ~inside[d]![x]!) !== 0) fail(`class ${t.name} state ${d}: a budget level allows tokens its state does not`);
+          subsetChecked.add(pair);
+        }
         levels.push(b);
       }
       le.push(levels);

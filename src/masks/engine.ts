@@ -10,7 +10,7 @@
 import type { NameBindings, Grammar } from '../description/ir.ts';
 import { Automaton, WORD } from '../automaton/internal.ts';
 import type { TokenTrie, Vocabulary } from '../vocab/index.ts';
-import { buildClassTables, type ClassTables } from './class-tables.ts';
+import { BitsetPool, buildClassTables, type ClassTables } from './class-tables.ts';
 import { MaskConstraint } from './constraint.ts';
 import { VocabTables } from './vocab-tables.ts';
 
@@ -42,9 +42,11 @@ export class MaskEngine {
     for (const t of rtn.terminals) for (let b = 0; b < 256; b++) if (t.dfa.trans[t.dfa.start * 256 + b] !== 0) follow[b] = 1;
     if (tables) this.classes = tables;
     else {
+      // one pool for all classes: equal bitsets (within a class and across classes) are kept once
+      const pool = new BitsetPool();
       this.classes = grammar.tokens.map((tc) => {
         const term = rtn.terminals.find((t) => t.kind === 'class' && t.tokenClass === tc.index);
-        return term ? buildClassTables(term.dfa, this.trie, rtn.space, follow, WORD, this.tables.nWords) : null;
+        return term ? buildClassTables(term.dfa, this.trie, rtn.space, follow, WORD, this.tables.nWords, pool) : null;
       });
     }
     this.preprocessMs = performance.now() - t0;
