@@ -216,7 +216,10 @@ export function deserializeEngine(data: Buffer, grammar: Grammar, key: string, f
         // a budget level is a subset of the state's inside set
         const pair = r * pool.length + insideRef[d]!;
         if (!subsetChecked.has(pair)) {
-          for (let x = 0; x < nWords; x++) if ((b[x]! & ~inside[d]![x]!) !== 0) fail(`class ${t.name} state ${d}: a budget level allows tokens its state does not`);
+          const within = inside[d]!;
+          let stray = 0;
+          for (let x = 0; x < nWords; x++) stray |= b[x]! & ~within[x]!;
+          if (stray !== 0) fail(`class ${t.name} state ${d}: a budget level allows tokens its state does not`);
           subsetChecked.add(pair);
         }
         levels.push(b);
