@@ -8,7 +8,9 @@
  * network has no left recursion (checked when the closures are computed).
  *
  * Terminals (the lexical layer, each a byte automaton):
- * - `lit`: a literal text of a layout (keyword, punctuation, parens);
+ * - `lit`: a literal text of a layout (keyword, punctuation, parens), or a declared blank placed by
+ *   a layout or separator (`blank Ws = " \t"`; named `" Ws"` with a leading space, which no
+ *   literal text has; its DFA is the run `[ \t]+`);
  * - `class`: a token class (regex DFA; `reserved` classes minus every keyword);
  * - `names`: a member of an open name set (a trie built when names are bound);
  * - `newvar`: a token class lexeme that introduces a variable (`name: new Var`);
@@ -25,7 +27,7 @@
  * Invariants: node ids are dense; `nodeNt[n]` is n's nonterminal; each nonterminal has one start
  * and one final node; edges are immutable after `buildRtn` returns.
  */
-import type { Constructor, Field, Grammar, LayoutItem, Sort } from '../description/ir.ts';
+import type { BlankUse, Constructor, Field, Grammar, LayoutItem, Sort } from '../description/ir.ts';
 import { literalDfa, type ByteDfa } from './regex.ts';
 import { lineColumn } from '../util/source.ts';
 import { readFileSync } from 'node:fs';
@@ -151,14 +153,14 @@ class Builder {
     this.edge(f.e, EDGE_EPS, 0, e);
     return { s, e };
   }
-  /** element (sep element)* ; `make` builds a fresh copy of the element */
-  list(make: () => Frag, sep: number | null): Frag {
+  /** element (sep element)* ; `make` builds a fresh copy of the element; `sep` a terminal or a fresh separator fragment */
+  list(make: () => Frag, sep: number | (() => Frag) | null): Frag {
     const first = make();
     const loop = this.node();
     this.edge(first.e, EDGE_EPS, 0, loop);
     const again = make();
     if (sep !== null) {
-      const sp = this.term(sep);
+      const sp = typeof sep === 'number' ? this.term(sep) : sep();
       this.edge(loop, EDGE_EPS, 0, sp.s);
       this.edge(sp.e, EDGE_EPS, 0, again.s);
     } else {
@@ -217,7 +219,8 @@ export function buildRtn(g: Grammar, dfas?: readonly ByteDfa[]): Rtn {
     let dfa: ByteDfa;
     let tokenClass = -1;
     let nameSet = -1;
-    if (kind === 'lit') dfa = literalDfa(utf8.encode(name));
+    if (kind === 'lit' && name.startsWith(' ')) dfa = g.blanks.find((x) => x.name === name.slice(1))!.regex.dfa;
+    else if (kind === 'lit') dfa = literalDfa(utf8.encode(name));
     else if (kind === 'names') {
       nameSet = setIndex.get(name)!;
       tokenClass = tokenIndex.get(g.nameSets[nameSet].token)!;
@@ -264,7 +267,12 @@ export function buildRtn(g: Grammar, dfas?: readonly ByteDfa[]): Rtn {
       if (f.type.kind !== 'sort' && op === undefined) b.nodeField.set(frag.e, c.index * FIELD_STRIDE + f.index);
       return frag;
     };
-    const sep = item.sep !== null ? terminal('lit', item.sep) : null;
+    const blank = (u: BlankUse | null | undefined): Frag[] =>
+      u === null || u === undefined ? [] : [u.optional ? b.opt(b.term(terminal('lit', ' ' + u.blank))) : b.term(terminal('lit', ' ' + u.blank))];
+    const sep =
+      item.sep === null ? null
+      : item.sepBlanks === undefined ? terminal('lit', item.sep)
+      : () => b.seq([...blank(item.sepBlanks!.before), b.term(terminal('lit', item.sep!)), ...blank(item.sepBlanks!.after)]);
     switch (f.card) {
       case 'one':
         return make();
@@ -280,7 +288,10 @@ export function buildRtn(g: Grammar, dfas?: readonly ByteDfa[]): Rtn {
     const parts: Frag[] = [];
     for (const it of list) {
       if (it.kind === 'text') parts.push(b.term(terminal('lit', it.text)));
-      else if (it.kind === 'slot') parts.push(slot(c, it, present, operands));
+      else if (it.kind === 'blank') {
+        const t = b.term(terminal('lit', ' ' + it.blank));
+        parts.push(it.optional ? b.opt(t) : t);
+      } else if (it.kind === 'slot') parts.push(slot(c, it, present, operands));
       else parts.push(b.opt(items(c, it.items, operands, true)));
     }
     return b.seq(parts);

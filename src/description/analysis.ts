@@ -79,6 +79,7 @@ class Facts {
   itemNullable(c: Constructor, item: LayoutItem): boolean {
     if (item.kind === 'text') return false;
     if (item.kind === 'when') return true;
+    if (item.kind === 'blank') return item.optional;
     return this.fieldNullable(this.field(c, item.field));
   }
 
@@ -148,6 +149,11 @@ class Facts {
       }
       if (item.kind === 'when') {
         this.edgeOfItems(c, item.items, which, into, deps);
+        continue;
+      }
+      if (item.kind === 'blank') {
+        // never at a layout's edge (compile.ts): reached only inside, after empty items
+        if (!item.optional) return false;
         continue;
       }
       const f = this.field(c, item.field);
@@ -266,8 +272,10 @@ function shape(c: Constructor, items: readonly LayoutItem[]): string {
     .map((i) => {
       if (i.kind === 'text') return JSON.stringify(i.text);
       if (i.kind === 'when') return `[${shape(c, i.items)}]`;
+      if (i.kind === 'blank') return `_${i.blank}${i.optional ? '?' : ''}`;
       const f = c.fields.find((x) => x.name === i.field)!;
-      return `<${f.type.kind}:${f.type.name}:${f.card}:${i.sep === null ? '' : JSON.stringify(i.sep)}>`;
+      const b = i.sepBlanks === undefined ? '' : JSON.stringify(i.sepBlanks);
+      return `<${f.type.kind}:${f.type.name}:${f.card}:${i.sep === null ? '' : JSON.stringify(i.sep)}${b}>`;
     })
     .join(' ');
 }
@@ -385,6 +393,10 @@ function checkLeftRecursion(g: Grammar, facts: Facts, out: Diagnostic[], at: At)
         if (i.kind === 'text') return false;
         if (i.kind === 'when') {
           walk(i.items, false);
+          continue;
+        }
+        if (i.kind === 'blank') {
+          if (!i.optional) return false;
           continue;
         }
         const f = facts.field(c, i.field);

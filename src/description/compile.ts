@@ -5,6 +5,8 @@
  * the IR only when this pass found no error.
  */
 import type {
+  BlankClass,
+  BlankUse,
   Cardinality,
   Constructor,
   Field,
@@ -24,13 +26,13 @@ import type {
 } from './ir.ts';
 import * as E from './errors.ts';
 import type { Diagnostic } from './errors.ts';
-import type { CtorAst, DeclAst, DescriptionAst, Ident, ItemAst, RegexLit, StrLit } from './syntax.ts';
+import type { CtorAst, DeclAst, DescriptionAst, Ident, ItemAst, RegexLit, SepPartAst, StrLit } from './syntax.ts';
 import { lineColumn } from '../util/source.ts';
 import { compileTokenRegex, nullable, runDfa, withoutWords, type TokenRegex } from './regex/index.ts';
 
 const VALUE_KINDS: readonly ValueKind[] = ['text', 'int', 'number', 'json-string', 'sql-string'];
 
-type TypeKind = 'sort' | 'token class' | 'name set' | 'kind family';
+type TypeKind = 'sort' | 'token class' | 'name set' | 'kind family' | 'blank';
 
 /** Decodes a JSON string literal; on failure the offset (absolute) and a description of the problem. */
 export function decodeString(lit: StrLit): { value: string } | { at: Span; detail: string } {
@@ -164,6 +166,8 @@ export function buildGrammar(ast: DescriptionAst, text: string, file: string, ha
   const sortDecls: Extract<DeclAst, { kind: 'sort' }>[] = [];
   const kindFamilies: KindFamily[] = [];
   const tokenFamilyRefs: { family: Ident; token: string }[] = [];
+  const blankDecls: Extract<DeclAst, { kind: 'blank' }>[] = [];
+  const tokenDecls = new Map<string, Extract<DeclAst, { kind: 'token' }>>();
 
   for (const d of ast.decls) {
     switch (d.kind) {
@@ -185,8 +189,12 @@ export function buildGrammar(ast: DescriptionAst, text: string, file: string, ha
         }
         break;
       }
+      case 'blank':
+        if (declare(d.name.text, 'blank', d.name.span)) blankDecls.push(d);
+        break;
       case 'token': {
         const ok = declare(d.name.text, 'token class', d.name.span);
+        if (ok) tokenDecls.set(d.name.text, d);
         const tok = compileToken(d, tokens.length);
         if (ok && tok) tokens.push(tok);
         break;
@@ -222,6 +230,7 @@ export function buildGrammar(ast: DescriptionAst, text: string, file: string, ha
       value: kind as ValueKind,
       family: d.family?.text ?? null,
       reserved: d.reserved,
+      except: [],
       span: d.span,
     };
   }
@@ -289,6 +298,33 @@ export function buildGrammar(ast: DescriptionAst, text: string, file: string, ha
     else if (k.kind !== 'sort') diags.push(E.startNotSort(at(start.span), start.name, k.kind));
   }
   if (!spaceSpan) diags.push(E.missingSpace(at(head)));
+
+  // blanks: whitespace characters outside `space`, compiled to the run [chars]+ by the regex front-end
+  const blanks: BlankClass[] = [];
+  for (const d of blankDecls) {
+    const chars = literal(d.value, false);
+    if (chars === null) continue;
+    if (chars === '') {
+      diags.push(E.blankEmpty(at(d.value.span), d.name.text));
+      continue;
+    }
+    const odd = [...chars].find((ch) => !/\s/u.test(ch));
+    if (odd !== undefined) {
+      diags.push(E.blankNotWhitespace(at(d.value.span), d.name.text, odd));
+      continue;
+    }
+    const shared = [...chars].find((ch) => (space ?? '').includes(ch));
+    if (shared !== undefined) {
+      diags.push(E.blankInSpace(at(d.value.span), d.name.text, shared));
+      continue;
+    }
+    const unique = [...new Set(chars)];
+    const pattern = `[${unique.map((ch) => `\\u{${ch.codePointAt(0)!.toString(16)}}`).join('')}]+`;
+    const regex = compileTokenRegex(pattern, 'u');
+    if ('code' in regex) throw new Error(`blank ${d.name.text}: ${regex.message}`); // whitespace sets always compile
+    blanks.push({ index: blanks.length, name: d.name.text, chars: unique.join(''), regex, span: d.span });
+  }
+  const blankByName = new Map(blanks.map((b) => [b.name, b]));
 
   const familyNames = kindFamilies.map((f) => f.name);
   /** true when `id` names a kind family; otherwise reports what it is */
@@ -397,6 +433,88 @@ export function buildGrammar(ast: DescriptionAst, text: string, file: string, ha
     sorts.push({ index: sorts.length, name: sortName, constructors: names, parens, family: sortFamily.get(sortName) ?? null, span: sd.span });
   }
 
+  /** A separator's parts: one text, at most one blank before and one after it. */
+  function separator(parts: readonly SepPartAst[], span: Span): { text: string; glue: boolean; before: BlankUse | null; after: BlankUse | null } | null {
+    const texts = parts.filter((p) => p.kind === 'text');
+    if (texts.length !== 1) {
+      diags.push(E.badSeparator(at(span), texts.length === 0 ? 'has no text' : `has ${texts.length} texts`));
+      return null;
+    }
+    const ti = parts.indexOf(texts[0]!);
+    if (ti > 1 || parts.length - ti > 2) {
+      diags.push(E.badSeparator(at(span), 'has more than one blank on one side of its text'));
+      return null;
+    }
+    const use = (p: SepPartAst | undefined): BlankUse | null | false => {
+      if (p === undefined) return null;
+      if (p.kind !== 'blank') return false;
+      if (!blankByName.has(p.name.text)) {
+        const k = typeKinds.get(p.name.text);
+        if (k === undefined) diags.push(E.unknownBlank(at(p.name.span), p.name.text, suggest(p.name.text, blankByName.keys())));
+        else diags.push(E.badSeparator(at(p.name.span), `names the ${k.kind} ${'`' + p.name.text + '`'}, which is not a blank`));
+        return false;
+      }
+      if (p.glue && !p.optional) {
+        diags.push(E.glueOnRequiredBlank(at(p.span), p.name.text));
+        return false;
+      }
+      return { blank: p.name.text, optional: p.optional, glue: p.glue };
+    };
+    const before = use(ti === 1 ? parts[0] : undefined);
+    const after = use(parts[ti + 1]);
+    const lit = literal((texts[0] as Extract<SepPartAst, { kind: 'text' }>).lit, true);
+    if (before === false || after === false || lit === null) return null;
+    // `sep ~","` glues the text to the element before it; with a blank before the text, that blank decides
+    return { text: lit, glue: texts[0]!.glue, before, after };
+  }
+
+  /**
+   * Blanks stand between two items of one layout and never meet another blank where one of them is
+   * required (a run of blanks cannot be split between two places, and the parser reads runs
+   * greedily). Scans the layout keeping the blanks that can stand directly before the current
+   * position (only empty items between); a group is present or absent as a whole.
+   */
+  function checkBlankPlacement(layout: readonly LayoutItem[], fields: Map<string, Field>, ctor: string): void {
+    type Pending = { name: string; optional: boolean } | 'start';
+    const scan = (list: readonly LayoutItem[], pending: Pending[]): Pending[] => {
+      for (const it of list) {
+        if (it.kind === 'blank') {
+          for (const p of pending) {
+            if (p === 'start') diags.push(E.blankAtLayoutEdge(at(it.span), it.blank, ctor, 'start'));
+            else if (!p.optional || !it.optional) diags.push(E.blanksMeet(at(it.span), it.blank, p.name));
+            if (p === 'start' || !p.optional || !it.optional) break;
+          }
+          pending = [{ name: it.blank, optional: it.optional }];
+        } else if (it.kind === 'text') pending = [];
+        else if (it.kind === 'slot') {
+          const f = fields.get(it.field);
+          if (f && (f.card === 'one' || f.card === 'nonempty')) pending = [];
+        } else {
+          const inner = scan(it.items, pending);
+          pending = [...pending, ...inner.filter((p) => !pending.includes(p))];
+        }
+      }
+      return pending;
+    };
+    const end = scan(layout, ['start']);
+    const last = end.find((p): p is { name: string; optional: boolean } => p !== 'start');
+    if (last !== undefined) {
+      const item = findLastBlank(layout, last.name);
+      diags.push(E.blankAtLayoutEdge(at(item ?? layout[layout.length - 1]!.span), last.name, ctor, 'end'));
+    }
+  }
+  function findLastBlank(list: readonly LayoutItem[], name: string): Span | null {
+    for (let i = list.length - 1; i >= 0; i--) {
+      const it = list[i]!;
+      if (it.kind === 'blank' && it.blank === name) return it.span;
+      if (it.kind === 'when') {
+        const s = findLastBlank(it.items, name);
+        if (s !== null) return s;
+      }
+    }
+    return null;
+  }
+
   function compileCtor(cd: CtorAst, sortName: string, index: number): Constructor | null {
     const before = diags.length;
     const fields: Field[] = [];
@@ -419,6 +537,10 @@ export function buildGrammar(ast: DescriptionAst, text: string, file: string, ha
             : { kind: 'names', name: fd.type.text };
       if (k.kind === 'kind family') {
         diags.push(E.familyAsFieldType(at(fd.type.span), fd.type.text, fd.name.text));
+        continue;
+      }
+      if (k.kind === 'blank') {
+        diags.push(E.blankAsFieldType(at(fd.type.span), fd.type.text, fd.name.text));
         continue;
       }
       let scoping: Scoping = 'none';
@@ -547,6 +669,24 @@ export function buildGrammar(ast: DescriptionAst, text: string, file: string, ha
           }
         } else if (it.kind === 'slot') {
           const name = it.field.text;
+          const isBlank = typeKinds.get(name)?.kind === 'blank';
+          if (isBlank && declared.has(name)) {
+            diags.push(E.blankAndField(at(it.field.span), name, cd.name.text));
+            used.add(name);
+            continue;
+          }
+          if (isBlank) {
+            if (!blankByName.has(name)) continue; // its declaration has an error, reported there
+            if (it.sep) diags.push(E.sepOnNonList(at(it.sep.span), name));
+            if (it.glue && it.optional === null) diags.push(E.glueOnRequiredBlank(at(it.span), name));
+            out.push({ kind: 'blank', blank: name, optional: it.optional !== null, glue: it.glue, span: it.span });
+            continue;
+          }
+          if (it.optional !== null && declared.has(name)) {
+            diags.push(E.optionalMarkOnField(at({ start: it.field.span.start, end: it.optional.end }), name));
+            used.add(name);
+            continue;
+          }
           if (!declared.has(name)) {
             diags.push(E.unknownLayoutField(at(it.field.span), name, cd.name.text, fieldNames, suggest(name, fieldNames.filter((n) => !used.has(n)))));
             continue;
@@ -558,18 +698,26 @@ export function buildGrammar(ast: DescriptionAst, text: string, file: string, ha
           used.add(name);
           const f = byName.get(name);
           let sep: string | null = null;
+          let sepGlue = false;
+          let sepBlanks: { before: BlankUse | null; after: BlankUse | null } | null = null;
           if (it.sep) {
             if (f && f.card !== 'list' && f.card !== 'nonempty') diags.push(E.sepOnNonList(at(it.sep.span), name));
-            sep = literal(it.sep.lit, true);
-            if (sep !== null) keywords.add(sep);
+            const r = separator(it.sep.parts, it.sep.span);
+            if (r !== null) {
+              sep = r.text;
+              sepGlue = r.glue;
+              if (r.before !== null || r.after !== null) sepBlanks = { before: r.before, after: r.after };
+              keywords.add(sep);
+            }
           }
-          out.push({ kind: 'slot', field: name, sep, sepGlue: it.sep?.glue ?? false, glue: it.glue, span: it.span });
+          const slot: LayoutItem = { kind: 'slot', field: name, sep, sepGlue, glue: it.glue, span: it.span };
+          out.push(sepBlanks === null ? slot : { ...slot, sepBlanks });
         } else {
           if (inGroup) {
             diags.push(E.nestedGroup(at(it.span)));
             continue;
           }
-          const slots = it.items.filter((x) => x.kind === 'slot');
+          const slots = it.items.filter((x) => x.kind === 'slot' && !(typeKinds.get(x.field.text)?.kind === 'blank' && !declared.has(x.field.text)));
           const inner = items(it.items, true);
           if (slots.length !== 1) {
             diags.push(E.groupSlotCount(at(it.span), slots.length));
@@ -587,6 +735,7 @@ export function buildGrammar(ast: DescriptionAst, text: string, file: string, ha
       return out;
     };
     const layout = items(cd.layout, false);
+    if (diags.length === before) checkBlankPlacement(layout, byName, cd.name.text);
     for (const fd of cd.fields) {
       if (!used.has(fd.name.text) && fieldNames.indexOf(fd.name.text) === cd.fields.indexOf(fd)) {
         diags.push(E.fieldMissingFromLayout(at(cd.layoutSpan), fd.name.text, cd.name.text));
@@ -613,7 +762,9 @@ export function buildGrammar(ast: DescriptionAst, text: string, file: string, ha
   const keywordBytes = keywordList.map((k) => new TextEncoder().encode(k));
   const finalTokens: TokenClass[] = [];
   const accepts = (d: TokenRegex['dfa'], b: Uint8Array) => d.accept[runDfa(d, d.start, b)] === 1;
-  for (const t of tokens) {
+  for (const t0 of tokens) {
+    const t = exceptWords(t0);
+    if (t === null) continue;
     const clash = keywordList.filter((_, i) => accepts(t.regex.dfa, keywordBytes[i]!));
     let tok: TokenClass = { ...t, regex: { ...t.regex, keywords: clash } };
     if (t.reserved && clash.length > 0) {
@@ -638,6 +789,31 @@ export function buildGrammar(ast: DescriptionAst, text: string, file: string, ha
     finalTokens.push(tok);
   }
 
+  /** The class minus its `except` words (each must be a lexeme of it, listed once). */
+  function exceptWords(t: TokenClass): TokenClass | null {
+    const d = tokenDecls.get(t.name);
+    if (!d?.except) return t;
+    const words: string[] = [];
+    for (const w of d.except.words) {
+      const word = literal(w, true);
+      if (word === null) continue;
+      if (words.includes(word)) diags.push(E.exceptWord(at(w.span), t.name, word, 'which is listed twice'));
+      else if (!accepts(t.regex.dfa, new TextEncoder().encode(word))) diags.push(E.exceptWord(at(w.span), t.name, word, `which is not a lexeme of it (/${t.pattern}/${t.flags})`));
+      else words.push(word);
+    }
+    if (words.length !== d.except.words.length) return null;
+    const dfa = withoutWords(t.regex.dfa, words.map((w) => new TextEncoder().encode(w)));
+    if (dfa === null) {
+      diags.push(E.exceptTooLarge(at(d.except.span), t.name));
+      return null;
+    }
+    if (dfa.start === 0) {
+      diags.push(E.exceptEverything(at(d.except.span), t.name));
+      return null;
+    }
+    return { ...t, except: words, regex: { ...t.regex, dfa } };
+  }
+
   if (diags.some((d) => d.severity === 'error')) return { grammar: null, diagnostics: diags };
   const grammar: Grammar = {
     name: ast.grammar.text,
@@ -645,6 +821,7 @@ export function buildGrammar(ast: DescriptionAst, text: string, file: string, ha
     hash,
     start: start!.name,
     space: space!,
+    blanks,
     tokens: finalTokens,
     nameSets,
     kindFamilies,
@@ -669,7 +846,8 @@ function operatorFits(layout: readonly LayoutItem[], fixity: Operator['fixity'],
   const last = layout[layout.length - 1];
   switch (fixity) {
     case 'infix':
-      return layout.length >= 3 && operand(first) && operand(last) && layout.slice(1, -1).some((i) => i.kind === 'text');
+      // the operator is marked by a text or a required blank (`l Ws r`)
+      return layout.length >= 3 && operand(first) && operand(last) && layout.slice(1, -1).some((i) => i.kind === 'text' || (i.kind === 'blank' && !i.optional));
     case 'prefix':
       return layout.length >= 2 && first?.kind === 'text' && operand(last);
     case 'postfix':

@@ -204,7 +204,7 @@ export const duplicateType = (at: At, kind: string, name: string, firstKind: str
         'duplicate-type-name',
         at,
         `${kind} ${q(name)} has the same name as the ${firstKind} declared at ${first}`,
-        'sorts, token classes, name sets and kind families share one namespace; rename one of them',
+        'sorts, token classes, name sets, kind families and blanks share one namespace; rename one of them',
       );
 
 function kindCode(kind: string): string {
@@ -516,3 +516,67 @@ export const leftRecursion = (at: At, ctor: string, field: string, sort: string,
       : `constructor ${q(ctor)} is left-recursive: its layout begins with field ${q(field)} of sort ${q(sort)}, which can begin with a ${q(own)} again`,
     'declare it `@ infix left P` (or `@ postfix P`), or begin its layout with literal text',
   );
+
+// ---- blanks and class exclusions ----------------------------------------------------------------
+
+export const blankEmpty = (at: At, name: string) =>
+  error('blank-empty', at, `blank ${q(name)} lists no character`, 'list the characters a blank is made of, e.g. `blank Ws = " \\t"`');
+
+export const blankNotWhitespace = (at: At, name: string, ch: string) =>
+  error('blank-not-whitespace', at, `blank ${q(name)} lists ${JSON.stringify(ch)}, which is not a whitespace character`, 'list only whitespace characters, e.g. `blank Ws = " \\t"`');
+
+export const blankInSpace = (at: At, name: string, ch: string) =>
+  error(
+    'blank-in-space',
+    at,
+    `blank ${q(name)} lists ${JSON.stringify(ch)}, which ${q('space')} already skips between any two tokens`,
+    'a blank is read only where a layout places it: take its characters out of `space` (e.g. `space ""`), or drop the blank',
+  );
+
+export const blankAsFieldType = (at: At, name: string, field: string) =>
+  error('blank-as-field-type', at, `field ${q(field)} has type ${q(name)}, which is a blank`, 'a blank is not a value: place it in the layout (`l Ws r`) instead of declaring a field');
+
+export const optionalMarkOnField = (at: At, name: string) =>
+  error(
+    'optional-mark-on-field',
+    at,
+    `${q(name + '?')} in a layout: ${q(name)} is a field, and only a blank takes ${q('?')} here`,
+    `make the field optional in its declaration (${q(name + ': T?')})`,
+  );
+
+export const blankAndField = (at: At, name: string, ctor: string) =>
+  error('blank-and-field', at, `layout of ${q(ctor)} names ${q(name)}, which is both one of its fields and a blank`, 'rename the field or the blank');
+
+export const glueOnRequiredBlank = (at: At, name: string) =>
+  error('glue-on-required-blank', at, `${q('~')} before the required blank ${q(name)}`, `a required blank is always printed; write ${q('~' + name + '?')} for an optional blank the printer leaves out`);
+
+export const blankAtLayoutEdge = (at: At, name: string, ctor: string, edge: 'start' | 'end') =>
+  error(
+    'blank-at-layout-edge',
+    at,
+    `blank ${q(name)} can stand at the ${edge} of the layout of ${q(ctor)}`,
+    'place blanks between two items of one layout (the enclosing layout decides what stands around a node)',
+  );
+
+export const blanksMeet = (at: At, name: string, other: string) =>
+  error(
+    'blanks-meet',
+    at,
+    `blank ${q(name)} can directly follow blank ${q(other)} (only empty items between them), and one of them is required`,
+    'two blanks that meet read as one run: write a single blank there',
+  );
+
+export const badSeparator = (at: At, detail: string) =>
+  error('bad-separator', at, `separator ${detail}`, 'write `sep ","`, `sep ~","`, or with blanks `sep (Ws? "," Ws?)`: one text, at most one blank on each side');
+
+export const unknownBlank = (at: At, name: string, suggestion: string | null) =>
+  error('unknown-blank', at, `${q(name)} in a separator is not a blank`, suggestion ? `did you mean ${q(suggestion)}?` : 'declare it: `blank Ws = " "`');
+
+export const exceptWord = (at: At, token: string, word: string, why: string) =>
+  error('except-word', at, `${q('except')} of token class ${q(token)} lists ${JSON.stringify(word)}, ${why}`, 'list words the class would otherwise accept');
+
+export const exceptTooLarge = (at: At, token: string) =>
+  error('regex-too-large', at, `token class ${q(token)} is too large for the automaton: removing its excepted words exceeds the automaton limit`, 'list fewer words');
+
+export const exceptEverything = (at: At, token: string) =>
+  error('except-everything', at, `token class ${q(token)} has no lexeme once its ${q('except')} words are removed`, 'drop some of the words, or widen the pattern');

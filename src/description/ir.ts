@@ -50,6 +50,11 @@ export interface TokenClass {
   readonly family: string | null;
   /** When true, no keyword of the grammar (see Grammar.keywords) is a lexeme of this class. */
   readonly reserved: boolean;
+  /**
+   * `except "on" "off"`: these words are not lexemes of this class (its DFA excludes them, with the
+   * keywords when `reserved` too); empty when the class has no `except` clause.
+   */
+  readonly except: readonly string[];
   readonly span: Span;
 }
 
@@ -89,6 +94,30 @@ export interface KindFamily {
   readonly index: number;
   readonly name: string;
   readonly span: Span;
+}
+
+/**
+ * A named blank, `blank Ws = " \t"`: a run of one or more of its characters that a layout places
+ * where a blank is syntax (`l Ws r`) or may stand (`Ws?`). Its characters are never in `space`,
+ * so a blank is read only where a layout or separator puts one.
+ */
+export interface BlankClass {
+  readonly index: number;
+  readonly name: string;
+  /** the characters (whitespace, at least one; the printer writes the first) */
+  readonly chars: string;
+  /** the run `[chars]+` through the regex front-end (its byte DFA is the terminal the masks walk) */
+  readonly regex: TokenRegex;
+  readonly span: Span;
+}
+
+/** A blank placed by a layout or a separator: `Ws` (required) or `Ws?` (optional). */
+export interface BlankUse {
+  /** BlankClass.name */
+  readonly blank: string;
+  readonly optional: boolean;
+  /** `~Ws?`: the canonical printer writes no blank here (only for optional blanks) */
+  readonly glue: boolean;
 }
 
 export type FieldType =
@@ -154,9 +183,23 @@ export type LayoutItem =
       readonly sep: string | null;
       /** canonical printing glues the separator to the previous element (true for "," ";" etc.) */
       readonly sepGlue: boolean;
+      /**
+       * `sep (Ws? "," Ws?)`: blanks around the separator text; absent when the separator has none.
+       * (Only declared blanks: `space` characters may stand around any separator anyway.)
+       */
+      readonly sepBlanks?: { readonly before: BlankUse | null; readonly after: BlankUse | null };
       readonly glue: boolean;
       readonly span: Span;
     }
+  | ({
+      /**
+       * A declared blank placed in the layout (`Ws` required, `Ws?` optional). The printer writes
+       * the blank's first character (none for a glued optional blank `~Ws?`) and no other blank
+       * next to it.
+       */
+      readonly kind: 'blank';
+      readonly span: Span;
+    } & BlankUse)
   | {
       /** `[ ... ]`: printed (and parsed) only when `field` is present (optional) or non-empty (list). */
       readonly kind: 'when';
@@ -213,6 +256,8 @@ export interface Grammar {
    * begins with a word character [A-Za-z0-9_] (the word-boundary rule).
    */
   readonly space: string;
+  /** `blank` declarations, in source order (their characters are disjoint from `space`) */
+  readonly blanks: readonly BlankClass[];
   readonly tokens: readonly TokenClass[];
   readonly nameSets: readonly NameSet[];
   /** `kinds F` declarations */

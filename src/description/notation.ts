@@ -18,6 +18,7 @@ import type {
   ItemAst,
   OperatorAst,
   RegexLit,
+  SepPartAst,
   StrLit,
 } from './syntax.ts';
 
@@ -25,10 +26,12 @@ export const NOTATION_SOURCE = String.raw`
 Twg {
   Description = GrammarDecl Decl* end
   GrammarDecl = grammarKw name
-  Decl = StartDecl | SpaceDecl | TokenDecl | NamesDecl | KindsDecl | SortDecl
+  Decl = StartDecl | SpaceDecl | BlankDecl | TokenDecl | NamesDecl | KindsDecl | SortDecl
   StartDecl = startKw name
   SpaceDecl = spaceKw string
-  TokenDecl = tokenKw name "=" regex asKw kindWord reservedKw? KindClause?
+  BlankDecl = blankKw name "=" string
+  TokenDecl = tokenKw name "=" regex asKw kindWord reservedKw? ExceptClause? KindClause?
+  ExceptClause = exceptKw string+
   NamesDecl = namesKw name ofKw name InClause? WithClause?
   InClause = inKw name
   WithClause = withKw "(" ListOf<SlotDecl, ","> ")"
@@ -45,8 +48,12 @@ Twg {
   Item = glue? Atom
   Atom = Group | string | Slot
   Group = "[" Item* "]"
-  Slot = name SepClause?
-  SepClause = sepKw glue? string
+  Slot = name optMark? SepClause?
+  SepClause = sepKw "(" SepItem+ ")"  -- framed
+            | sepKw glue? string      -- plain
+  SepItem = glue? SepAtom
+  SepAtom = string | BlankRef
+  BlankRef = name optMark?
   OperatorDecl = "@" OperatorSpec
   OperatorSpec = infixKw assoc number   -- infix
                | prefixKw number        -- prefix
@@ -54,6 +61,7 @@ Twg {
 
   scoping = newKw | boundKw | enterKw | knownKw
   card = "?" | "*" | "+"
+  optMark = "?"
   glue = "~"
   assoc (left, right or none) = (leftKw | rightKw | noneKw)
 
@@ -84,6 +92,8 @@ Twg {
   asKw = "as" ~identPart
   ofKw = "of" ~identPart
   reservedKw = "reserved" ~identPart
+  exceptKw = "except" ~identPart
+  blankKw = "blank" ~identPart
   sepKw = "sep" ~identPart
   newKw = "new" ~identPart
   boundKw = "bound" ~identPart
@@ -172,9 +182,14 @@ const ACTIONS: ohm.ActionDict<unknown> = {
   SpaceDecl(_kw: Node, s: Node): DeclAst {
     return { kind: 'space', value: str(s), span: spanOf(this as unknown as Node) };
   },
-  TokenDecl(_kw: Node, n: Node, _eq: Node, re: Node, _as: Node, kind: Node, reserved: Node, family: Node): DeclAst {
+  BlankDecl(_kw: Node, n: Node, _eq: Node, s: Node): DeclAst {
+    return { kind: 'blank', name: ident(n), value: str(s), span: spanOf(this as unknown as Node) };
+  },
+  TokenDecl(_kw: Node, n: Node, _eq: Node, re: Node, _as: Node, kind: Node, reserved: Node, except: Node, family: Node): DeclAst {
     const f = opt(family);
+    const x = opt(except);
     return {
+      except: x ? { words: x.child(1).children.map(str), span: spanOf(x) } : null,
       kind: 'token',
       name: ident(n),
       regex: re.ast(),
@@ -257,15 +272,29 @@ const ACTIONS: ohm.ActionDict<unknown> = {
   Group(_o: Node, items: Node, _c: Node): ItemAst {
     return { kind: 'group', items: items.children.map((i) => i.ast()), glue: false, span: spanOf(this as unknown as Node) };
   },
-  Slot(n: Node, sep: Node): ItemAst {
+  Slot(n: Node, mark: Node, sep: Node): ItemAst {
     const s = opt(sep);
+    const m = opt(mark);
     return {
       kind: 'slot',
       field: ident(n),
-      sep: s ? { lit: str(s.child(2)), glue: s.child(1).numChildren > 0, span: spanOf(s) } : null,
+      optional: m ? spanOf(m) : null,
+      sep: s ? { parts: s.ast() as SepPartAst[], span: spanOf(s) } : null,
       glue: false,
       span: spanOf(this as unknown as Node),
     };
+  },
+  SepClause_framed(_kw: Node, _o: Node, items: Node, _c: Node): SepPartAst[] {
+    return items.children.map((i) => i.ast() as SepPartAst);
+  },
+  SepClause_plain(_kw: Node, glue: Node, s: Node): SepPartAst[] {
+    return [{ kind: 'text', lit: str(s), glue: glue.numChildren > 0, span: spanOf(s) }];
+  },
+  SepItem(glue: Node, atom: Node): SepPartAst {
+    const g = glue.numChildren > 0;
+    const inner = atom.child(0);
+    if (inner.ctorName === 'string') return { kind: 'text', lit: str(inner), glue: g, span: spanOf(this as unknown as Node) };
+    return { kind: 'blank', name: ident(inner.child(0)), optional: inner.child(1).numChildren > 0, glue: g, span: spanOf(this as unknown as Node) };
   },
   OperatorDecl(_at: Node, spec: Node): OperatorAst {
     return { ...(spec.ast() as OperatorAst), span: spanOf(this as unknown as Node) };

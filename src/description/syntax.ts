@@ -26,12 +26,16 @@ export interface RegexLit {
 export type DeclAst =
   | { readonly kind: 'start'; readonly name: Ident; readonly span: Span }
   | { readonly kind: 'space'; readonly value: StrLit; readonly span: Span }
+  /** `blank Name = " \t"`: a named blank that layouts place (`Name`, `Name?`) */
+  | { readonly kind: 'blank'; readonly name: Ident; readonly value: StrLit; readonly span: Span }
   | {
       readonly kind: 'token';
       readonly name: Ident;
       readonly regex: RegexLit;
       readonly valueKind: Ident;
       readonly reserved: boolean;
+      /** `except "w" ...`: words removed from this class; null when absent */
+      readonly except: { readonly words: readonly StrLit[]; readonly span: Span } | null;
       /** `kind Family` after the value kind */
       readonly family: Ident | null;
       readonly span: Span;
@@ -72,12 +76,19 @@ export interface FieldAst {
   readonly span: Span;
 }
 
+/** One part of a separator: its text, or a blank written before or after it (`sep (Ws? "," Ws?)`). */
+export type SepPartAst =
+  | { readonly kind: 'text'; readonly lit: StrLit; readonly glue: boolean; readonly span: Span }
+  | { readonly kind: 'blank'; readonly name: Ident; readonly optional: boolean; readonly glue: boolean; readonly span: Span };
+
 export type ItemAst =
   | { readonly kind: 'text'; readonly lit: StrLit; readonly glue: boolean; readonly span: Span }
   | {
       readonly kind: 'slot';
       readonly field: Ident;
-      readonly sep: { readonly lit: StrLit; readonly glue: boolean; readonly span: Span } | null;
+      /** a `?` written after the name (meaningful only when the name is a blank: `Ws?`) */
+      readonly optional: Span | null;
+      readonly sep: { readonly parts: readonly SepPartAst[]; readonly span: Span } | null;
       readonly glue: boolean;
       readonly span: Span;
     }

@@ -179,6 +179,8 @@ export function treeView(grammar: Grammar, tree: unknown): TreeViewNode {
       for (const it of list) {
         if (it.kind === 'text') {
           if (!take(it.text)) return false;
+        } else if (it.kind === 'blank') {
+          continue; // a declared blank prints no token
         } else if (it.kind === 'when') {
           const v = value[it.field];
           const present = Array.isArray(v) ? v.length > 0 : v !== null && v !== undefined;

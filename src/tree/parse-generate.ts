@@ -15,11 +15,13 @@
  *   tok<i>       = lex<i>, not followed by a word character when every lexeme ends with one
  *                  (`reserved` classes have no keyword among their lexemes: their DFA excludes them)
  *   nm<i>        = name set i (its token class under the set's name, for messages)
+ *   blk<i>       = blank i (`blank Ws = " \t"`): one or more of its characters; a layout's `Ws?`
+ *                  is `blk<i>?`. Its characters are never in `space`, so no rule skips them.
  *   space        = the `space` characters
  * Example: arith's `add` becomes `S0_L0 = S0_L0 kw3 S0_L1 -- c0 | ...` ("+" is keyword 3).
  * Look-ahead guards (`G<i>`, `H<n>`) come from parse-lookahead.ts.
  */
-import type { Constructor, Field, Grammar, LayoutItem } from '../description/ir.ts';
+import type { BlankUse, Constructor, Field, Grammar, LayoutItem } from '../description/ir.ts';
 import { lastChars, setIntersect, setSize, WORD, isWordCode } from '../description/regex/index.ts';
 import { grammarInfo, type GrammarInfo } from './info.ts';
 import { lexPlaceholder } from './parse-lex.ts';
@@ -105,6 +107,17 @@ function generateOhm(info: GrammarInfo): Generated {
     terms.set(`nm${i}`, n.name);
     termOrder.set(`nm${i}`, 2000 + i);
   });
+  g.blanks.forEach((b, i) => {
+    lexical.push(`blk${i} (blk${i}) = (${[...b.chars].map((c) => charCode(c.codePointAt(0)!)).join(' | ')})+`);
+    terms.set(`blk${i}`, `a blank (${b.name})`);
+    termOrder.set(`blk${i}`, 2500 + i);
+  });
+  const blankIdx = new Map(g.blanks.map((b, i) => [b.name, i]));
+  const blankPE = (u: BlankUse | null | undefined): PE[] => {
+    if (u === null || u === undefined) return [];
+    const a = app(`blk${blankIdx.get(u.blank)!}`);
+    return [u.optional ? { k: 'opt', x: a } : a];
+  };
   terms.set('end of input', 'end of input');
   termOrder.set('end of input', 3000);
   const termRank = (t: string) => (t === '$' ? 3000 : termOrder.get(t) ?? 4000);
@@ -128,16 +141,18 @@ function generateOhm(info: GrammarInfo): Generated {
   const itemPE = (c: Constructor, item: LayoutItem, inGroup: boolean): PE => {
     if (item.kind === 'text') return app(kw(item.text));
     if (item.kind === 'when') return { k: 'opt', x: seq(...item.items.map((x) => itemPE(c, x, true))) };
+    if (item.kind === 'blank') return blankPE(item)[0]!;
     const f = info.field(c.name, item.field)!;
     const el = app(fieldRule(c, f));
+    const sepPE = (text: string): PE => seq(...blankPE(item.sepBlanks?.before), app(kw(text)), ...blankPE(item.sepBlanks?.after));
     const card = inGroup && f.card === 'list' ? 'nonempty' : inGroup && f.card === 'optional' ? 'one' : f.card;
     switch (card) {
       case 'one': return el;
       case 'optional': return { k: 'opt', x: el };
       case 'nonempty':
-        return item.sep === null ? { k: 'plus', x: el } : seq(el, { k: 'star', x: seq(app(kw(item.sep)), el) });
+        return item.sep === null ? { k: 'plus', x: el } : seq(el, { k: 'star', x: seq(sepPE(item.sep), el) });
       case 'list':
-        return item.sep === null ? { k: 'star', x: el } : { k: 'opt', x: seq(el, { k: 'star', x: seq(app(kw(item.sep)), el) }) };
+        return item.sep === null ? { k: 'star', x: el } : { k: 'opt', x: seq(el, { k: 'star', x: seq(sepPE(item.sep), el) }) };
     }
   };
 
@@ -199,6 +214,7 @@ function generateOhm(info: GrammarInfo): Generated {
   const firstBytes = (t: string): ReadonlySet<number> => {
     let m: RegExpExecArray | null;
     if ((m = /^kw(\d+)$/.exec(t)) !== null) return new Set([utf8.encode(g.keywords[Number(m[1])]!)[0]!]);
+    if ((m = /^blk(\d+)$/.exec(t)) !== null) return new Set([...g.blanks[Number(m[1])]!.chars].map((c) => utf8.encode(c)[0]!));
     let tokenIndex = -1;
     if ((m = /^tok(\d+)$/.exec(t)) !== null) tokenIndex = Number(m[1]);
     else if ((m = /^nm(\d+)$/.exec(t)) !== null) tokenIndex = g.tokens.findIndex((x) => x.name === g.nameSets[Number(m![1])]!.token);

@@ -19,10 +19,14 @@
  * grammar's lexemes may merge in other ways: `1` then `2` would read as `12`). Every printed text
  * parses: what cannot be printed throws PrintError.
  *
+ * Declared blanks (`blank Ws = " \t"`): a layout's `Ws` and `Ws?` print the blank's character (a
+ * space when it has one, else its first), a glued `~Ws?` prints nothing; no `space` blank is
+ * printed next to a declared one. Separator blanks (`sep (Ws? "," Ws?)`) likewise.
+ *
  * Parentheses: an operator node is wrapped in its sort's `parens` exactly when the parser's
  * precedence levels could not read it in that position (see needsParens).
  */
-import type { Constructor, Grammar, LayoutItem } from '../description/ir.ts';
+import type { BlankClass, Constructor, Grammar, LayoutItem } from '../description/ir.ts';
 import { grammarInfo, type GrammarInfo } from './info.ts';
 import { valueToLexeme, type TokenValue } from './lexeme.ts';
 import { isWordCode } from './regex.ts';
@@ -73,9 +77,10 @@ function checkGlued(grammar: Grammar, tree: Tree, text: string): void {
 
 /**
  * The canonical tokens of a tree, in order: each lexeme or keyword with whether the canonical text
- * puts a space before it. `printTree` is these joined. (Tests re-space programs with it.)
+ * puts a space before it, or (`blank`) the declared blank it prints before it. `printTree` is
+ * these joined. (Tests re-space programs with it.)
  */
-export function printTokens(grammar: Grammar, tree: unknown, opts: { sort?: string } = {}): { text: string; space: boolean }[] {
+export function printTokens(grammar: Grammar, tree: unknown, opts: { sort?: string } = {}): { text: string; space: boolean; blank?: string }[] {
   assertTree(grammar, tree, { sort: opts.sort });
   const out = new Output(grammarInfo(grammar));
   printNode(out, tree, false, null);
@@ -90,8 +95,10 @@ interface OperandPosition {
 
 class Output {
   private readonly parts: string[] = [];
-  readonly tokens: { text: string; space: boolean }[] = [];
+  readonly tokens: { text: string; space: boolean; blank?: string }[] = [];
   private last = '';
+  /** a declared blank printed since the last token (it separates; no other blank is added) */
+  private pendingBlank = '';
   private lastIsKeyword = false;
   private readonly longer: ReadonlyMap<string, readonly string[]>;
   readonly blank: string;
@@ -104,9 +111,23 @@ class Output {
     }
     this.longer = longer;
   }
+  /** Appends a declared blank (its printed text) before the next token. */
+  emitBlank(blank: BlankClass): void {
+    const t = blank.chars.includes(' ') ? ' ' : String.fromCodePoint(blank.chars.codePointAt(0)!);
+    this.parts.push(t);
+    this.pendingBlank += t;
+  }
   /** Appends one token; `glue` asks for no space before it. */
   emit(text: string, glue: boolean, keyword: boolean): void {
     let space = false;
+    if (this.pendingBlank !== '') {
+      this.parts.push(text);
+      this.tokens.push({ text, space: false, blank: this.pendingBlank });
+      this.pendingBlank = '';
+      this.last = text;
+      this.lastIsKeyword = keyword;
+      return;
+    }
     if (this.parts.length > 0) {
       let needed = isWordCode(this.last.charCodeAt(this.last.length - 1)) && isWordCode(text.charCodeAt(0));
       if (!needed && this.lastIsKeyword) {
@@ -158,6 +179,11 @@ function printTemplate(out: Output, ctor: Constructor, node: Tree, glueIn: boole
       if (item.kind === 'text') {
         out.emit(item.text, glue, true);
         printed = true;
+      } else if (item.kind === 'blank') {
+        // never first or last in a layout (compile.ts); a glued optional blank prints nothing
+        if (!(item.optional && item.glue)) out.emitBlank(blankOf(out, item.blank));
+        else if (state.started) state.carry = glue;
+        continue;
       } else if (item.kind === 'slot') {
         const value = node[item.field];
         const field = out.info.field(ctor.name, item.field)!;
@@ -171,7 +197,12 @@ function printTemplate(out: Output, ctor: Constructor, node: Tree, glueIn: boole
           for (let i = 0; i < list.length; i++) {
             let g = glue;
             if (i > 0) {
-              if (item.sep !== null) out.emit(item.sep, item.sepGlue, true);
+              if (item.sep !== null) {
+                const sb = item.sepBlanks;
+                if (sb?.before && !(sb.before.optional && sb.before.glue)) out.emitBlank(blankOf(out, sb.before.blank));
+                out.emit(item.sep, item.sepGlue, true);
+                if (sb?.after && !(sb.after.optional && sb.after.glue)) out.emitBlank(blankOf(out, sb.after.blank));
+              }
               g = false;
             }
             if (printValue(out, field.type.kind, field.type.name, list[i], printed ? g : glue, pos)) printed = true;
@@ -202,6 +233,10 @@ function printTemplate(out: Output, ctor: Constructor, node: Tree, glueIn: boole
   };
   walk(ctor.layout);
   return state.started;
+}
+
+function blankOf(out: Output, name: string): BlankClass {
+  return out.info.grammar.blanks.find((b) => b.name === name)!;
 }
 
 function printValue(out: Output, kind: 'sort' | 'token' | 'names', typeName: string, value: TreeValue, glue: boolean, pos: OperandPosition | null): boolean {

@@ -156,7 +156,7 @@ describe('diagnostics', () => {
         "g.twg:5:6: error: sort `A` has the same name as the token class declared at 4:7",
         "5 | sort A { a() = \"x\"; }",
         "  |      ^",
-        "hint: sorts, token classes, name sets and kind families share one namespace; rename one of them",
+        "hint: sorts, token classes, name sets, kind families and blanks share one namespace; rename one of them",
       ),
     );
     expect(compileDescription(text, 'g.twg').grammar).toBeNull();

@@ -189,8 +189,21 @@ export class NearleyOracle {
     const classRule = new Map<string, string>();
     for (const t of g.tokens) {
       const rx = toRx(parseRegex(t.pattern, t.flags.includes('u') ? 'u' : '', {}), t.flags);
-      classRule.set(t.name, terminalRule(rx, t.reserved ? (s) => keywords.has(s) : null));
+      const except = new Set(t.except);
+      classRule.set(t.name, terminalRule(rx, t.reserved || except.size > 0 ? (s) => (t.reserved && keywords.has(s)) || except.has(s) : null));
     }
+    // a declared blank: one or more of its characters (never in `space`)
+    const blankRule = new Map<string, string>();
+    for (const b of g.blanks) {
+      blankRule.set(b.name, terminalRule({ k: 'rep', body: { k: 'chr', test: (c) => b.chars.includes(c), label: b.name }, min: 1, max: Infinity }, null));
+    }
+    const blankUse = (u: { blank: string; optional: boolean } | null | undefined): string[] => {
+      if (u === null || u === undefined) return [];
+      if (!u.optional) return [blankRule.get(u.blank)!];
+      const opt = `O${this.n++}`;
+      this.rules.push({ name: opt, symbols: [] }, { name: opt, symbols: [blankRule.get(u.blank)!] });
+      return [opt];
+    };
     const setRule = new Map<string, string>();
     for (const s of g.nameSets) {
       const members = names[s.name] ?? [];
@@ -220,6 +233,7 @@ export class NearleyOracle {
       const out: string[] = [];
       for (const it of items) {
         if (it.kind === 'text') out.push(literal(it.text));
+        else if (it.kind === 'blank') out.push(...blankUse(it));
         else if (it.kind === 'when') {
           const opt = `W${this.n++}`;
           this.rules.push({ name: opt, symbols: [] }, { name: opt, symbols: itemsRule(c, it.items, operands, true) });
@@ -236,7 +250,8 @@ export class NearleyOracle {
           } else {
             const list = `N${this.n++}`;
             this.rules.push({ name: list, symbols: [elem] });
-            this.rules.push({ name: list, symbols: it.sep !== null ? [list, literal(it.sep), elem] : [list, elem] });
+            const sep = it.sep !== null ? [...blankUse(it.sepBlanks?.before), literal(it.sep), ...blankUse(it.sepBlanks?.after)] : [];
+            this.rules.push({ name: list, symbols: [list, ...sep, elem] });
             if (card === 'nonempty') out.push(list);
             else {
               const opt = `O${this.n++}`;
