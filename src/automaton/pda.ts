@@ -24,7 +24,7 @@
  */
 import type { Grammar, NameBindings } from '../description/ir.ts';
 import { AutomatonError, buildRtn, closures, EDGE_EPS, EDGE_TERM, type Option, type Rtn } from './cfg.ts';
-import { runDfa, type ByteDfa } from './regex.ts';
+import { runDfa, type ByteDfa, type NamesDfa } from './regex.ts';
 import { ALLOWED, LIVE, ROLE_NONE, ScopeBinding, ScopePlan, type OptionInfo, type Res } from './scopes.ts';
 
 export const INF = 0x3fffffff;
@@ -219,42 +219,99 @@ export const MAX_NAME_NODES = 65536;
 /**
  * A finite set of byte strings (name-set members) as a byte DFA: the members' trie with state 1 the
  * root and 0 dead (same numbering invariant as regex.ts), so masks treat names like literals.
+ * A child's state is always larger than its parent's. Also kept, for name scopes: per state the
+ * first member that ends there (`memberAt`, -1) and its parent state (`parent`), and the longest
+ * member. Built in one pass over the members' bytes into a dense table grown by doubling.
  */
-export function namesDfa(members: readonly Uint8Array[], setName: string): ByteDfa {
-  const child: Array<Map<number, number>> = [new Map(), new Map()]; // index = state; 0 dead, 1 root
-  const accept: number[] = [0, 0];
-  for (const m of members) {
+export function namesDfa(members: readonly Uint8Array[], setName: string): NamesDfa {
+  // dense table grown by doubling (at most twice the final size is ever copied)
+  let total = 2;
+  for (let i = 0; i < members.length; i++) total += members[i].length;
+  let cap = Math.max(16, Math.min(total, 1024));
+  let trans = new Int32Array(cap * 256);
+  let parent = new Int32Array(cap);
+  let at = new Int32Array(cap).fill(-1);
+  let next = 2;
+  let shortest: Uint8Array | null = null;
+  let longest = 0;
+  let longestWord = false;
+  for (let id = 0; id < members.length; id++) {
+    const m = members[id];
     let n = 1;
-    for (const b of m) {
-      let c = child[n].get(b);
-      if (c === undefined) {
-        c = child.length;
+    for (let i = 0; i < m.length; i++) {
+      const k = n * 256 + m[i];
+      let c = trans[k];
+      if (c === 0) {
+        c = next++;
         if (c > MAX_NAME_NODES) throw new BindError(`names.${setName}: the members need more than ${MAX_NAME_NODES} trie nodes; expected a smaller name set`);
-        child.push(new Map());
-        accept.push(0);
-        child[n].set(b, c);
+        if (c >= cap) {
+          cap *= 2;
+          const t2 = new Int32Array(cap * 256);
+          t2.set(trans);
+          trans = t2;
+          const p2 = new Int32Array(cap);
+          p2.set(parent);
+          parent = p2;
+          const a2 = new Int32Array(cap).fill(-1);
+          a2.set(at);
+          at = a2;
+        }
+        trans[k] = c;
+        parent[c] = n;
       }
       n = c;
     }
-    accept[n] = 1;
+    if (at[n] < 0) at[n] = id;
+    if (shortest === null || m.length < shortest.length) shortest = m;
+    if (m.length > longest) {
+      longest = m.length;
+      longestWord = WORD[m[0]] === 1;
+    }
   }
-  const count = child.length;
-  const trans = new Int32Array(count * 256);
-  for (let n = 1; n < count; n++) for (const [b, c] of child[n]) trans[n * 256 + b] = c;
+  const count = next;
+  const accept = new Uint8Array(count);
   const minAccept = new Int32Array(count).fill(INF);
-  for (let n = count - 1; n >= 1; n--) {
-    let best = accept[n] ? 0 : INF;
-    for (const c of child[n].values()) best = Math.min(best, minAccept[c] + 1);
-    minAccept[n] = best;
+  for (let n = 1; n < count; n++) {
+    if (at[n] >= 0) {
+      accept[n] = 1;
+      minAccept[n] = 0;
+    }
   }
-  let shortest: Uint8Array | null = null;
-  for (const m of members) if (shortest === null || m.length < shortest.length) shortest = m;
-  return { stateCount: count, start: members.length > 0 ? 1 : 0, trans, accept: Uint8Array.from(accept), minAccept, shortest };
+  // children come after their parent: one backward pass settles every shortest completion
+  for (let n = count - 1; n >= 2; n--) if (minAccept[n] < INF && minAccept[n] + 1 < minAccept[parent[n]]) minAccept[parent[n]] = minAccept[n] + 1;
+  return {
+    stateCount: count,
+    start: members.length > 0 ? 1 : 0,
+    // a view when little is wasted, else a copy (the table is 1 KiB per state)
+    trans: cap * 4 <= count * 5 ? trans.subarray(0, count * 256) : trans.slice(0, count * 256),
+    accept,
+    minAccept,
+    shortest,
+    memberAt: at.slice(0, count),
+    parent: parent.slice(0, count),
+    longest,
+    longestWord,
+  };
 }
 
 export class BindError extends Error {}
 
 const utf8 = new TextEncoder();
+
+/**
+ * UTF-8 bytes of a name: ASCII by a plain loop (names are mostly ASCII, and binding a schema
+ * encodes thousands of them; TextEncoder's per-call cost dominated), anything else by TextEncoder.
+ */
+function nameBytes(m: string): Uint8Array {
+  const n = m.length;
+  const out = new Uint8Array(n);
+  for (let i = 0; i < n; i++) {
+    const c = m.charCodeAt(i);
+    if (c >= 0x80) return utf8.encode(m);
+    out[i] = c;
+  }
+  return out;
+}
 
 /**
  * The automaton under one binding of the open name sets. Holds the liveness and distance tables;
@@ -298,7 +355,7 @@ export class AutomatonInstance {
       const dfa = rtn.terminals.find((t) => t.tokenClass === cls.index && t.kind !== 'lit')?.dfa;
       const bytes = members.map((m, i) => {
         if (typeof m !== 'string') throw new BindError(`names.${s.name}[${i}]: expected a string`);
-        const b = utf8.encode(m);
+        const b = nameBytes(m);
         if (dfa && !dfa.accept[runDfa(dfa, dfa.start, b)]) {
           throw new BindError(`names.${s.name}[${i}]: ${JSON.stringify(m)} is not a lexeme of token class ${cls.name} (/${cls.pattern}/${cls.reserved ? ', reserved: keywords excluded' : ''})`);
         }
@@ -335,15 +392,9 @@ export class AutomatonInstance {
         const term = rtn.terminals.find((t) => t.kind === 'names' && t.nameSet === set);
         const members = names[g.nameSets[set].name];
         if (term === undefined || members === undefined || members.length === 0) continue;
-        let longest = 0;
-        let word = false;
-        for (const m of members) {
-          const b = utf8.encode(m);
-          if (b.length > longest) {
-            longest = b.length;
-            word = WORD[b[0]] === 1;
-          }
-        }
+        const d = sets[set]!;
+        const longest = d.longest;
+        const word = d.longestWord;
         termCost[term.index] = longest + (word ? 1 : 0);
       }
     }

@@ -12,6 +12,18 @@ import { compileTokenRegex, type ByteDfa } from '../description/regex/index.ts';
 export type { ByteDfa } from '../description/regex/index.ts';
 export { literalDfa, runDfa, withDistances, MAX_STATES as MAX_DFA_STATES } from '../description/regex/index.ts';
 
+/**
+ * A name set's members as a byte DFA (pda.ts `namesDfa`): a trie, so also per state the first
+ * member ending there (`memberAt`, -1 none) and the parent state; and the longest member.
+ */
+export interface NamesDfa extends ByteDfa {
+  readonly memberAt: Int32Array;
+  readonly parent: Int32Array;
+  /** the longest member's length in bytes, and whether it starts with a word byte */
+  readonly longest: number;
+  readonly longestWord: boolean;
+}
+
 export class RegexError extends Error {}
 
 /**

@@ -42,28 +42,32 @@ export class Relation {
   readonly members: Int32Array;
 
   constructor(readonly refCount: number, readonly introCount: number, pairs: readonly (readonly [ref: number, intro: number])[]) {
-    const byRef: number[][] = Array.from({ length: refCount }, () => []);
-    const byIntro: number[][] = Array.from({ length: introCount }, () => []);
-    for (const [r, t] of pairs) {
-      if (!byRef[r].includes(t)) {
-        byRef[r].push(t);
-        byIntro[t].push(r);
-      }
+    // counting sort by referred member, each list sorted and without repeats, then transposed
+    const cnt = new Int32Array(refCount + 1);
+    for (let i = 0; i < pairs.length; i++) cnt[pairs[i][0] + 1]++;
+    for (let r = 0; r < refCount; r++) cnt[r + 1] += cnt[r];
+    const raw = new Int32Array(pairs.length);
+    const fill = cnt.slice(0, refCount);
+    for (let i = 0; i < pairs.length; i++) raw[fill[pairs[i][0]]++] = pairs[i][1];
+    const ownStart = new Int32Array(refCount + 1);
+    let n = 0;
+    for (let r = 0; r < refCount; r++) {
+      ownStart[r] = n;
+      const seg = raw.subarray(cnt[r], cnt[r + 1]).sort();
+      for (let i = 0; i < seg.length; i++) if (i === 0 || seg[i] !== seg[i - 1]) raw[n++] = seg[i];
     }
-    const flat = (lists: number[][]): [Int32Array, Int32Array] => {
-      const start = new Int32Array(lists.length + 1);
-      let n = 0;
-      lists.forEach((l, i) => {
-        start[i] = n;
-        n += l.length;
-      });
-      start[lists.length] = n;
-      const out = new Int32Array(n);
-      lists.forEach((l, i) => out.set(l.sort((a, b) => a - b), start[i]));
-      return [start, out];
-    };
-    [this.ownStart, this.owners] = flat(byRef);
-    [this.memStart, this.members] = flat(byIntro);
+    ownStart[refCount] = n;
+    this.ownStart = ownStart;
+    this.owners = raw.slice(0, n);
+    const memStart = new Int32Array(introCount + 1);
+    for (let i = 0; i < n; i++) memStart[this.owners[i] + 1]++;
+    for (let t = 0; t < introCount; t++) memStart[t + 1] += memStart[t];
+    const members = new Int32Array(n);
+    const at = memStart.slice(0, introCount);
+    // referred members ascending, so each introduced member's list comes out ascending
+    for (let r = 0; r < refCount; r++) for (let i = ownStart[r]; i < ownStart[r + 1]; i++) members[at[this.owners[i]]++] = r;
+    this.memStart = memStart;
+    this.members = members;
   }
 
   /** True when introduced member t owns referred member r. */

@@ -20,7 +20,7 @@
  */
 import { NAME_FACTS, type Grammar, type NameBindings } from '../description/ir.ts';
 import { EDGE_CALL, EDGE_EPS, EDGE_TERM, FIELD_STRIDE, type Rtn } from './cfg.ts';
-import type { ByteDfa } from './regex.ts';
+import type { ByteDfa, NamesDfa } from './regex.ts';
 import { MANY, Relation, ScopeSolver } from './scope-solver.ts';
 
 const INF = 0x3fffffff; // keep in sync with pda.ts
@@ -242,7 +242,7 @@ export class ScopeBinding {
     readonly plan: ScopePlan,
     names: NameBindings,
     /** per name set: its names automaton under this binding (null when unbound) */
-    dfas: readonly (ByteDfa | null)[],
+    dfas: readonly (NamesDfa | null)[],
     /** the instance's shortest completions (bytes) with no introduction counted, and terminal costs */
     dist0: Int32Array,
     termCost: Int32Array,
@@ -252,30 +252,8 @@ export class ScopeBinding {
     const members = g.nameSets.map((s) => (names[s.name] ?? []) as readonly string[]);
     this.count = Int32Array.from(members.map((m) => m.length));
     this.dfaOf = dfas.slice();
-    const utf8 = new TextEncoder();
-    this.memberAt = [];
-    this.parentOf = [];
-    g.nameSets.forEach((s, i) => {
-      const dfa = dfas[i];
-      if (dfa === null) {
-        this.memberAt.push(null);
-        this.parentOf.push(null);
-        return;
-      }
-      const at = new Int32Array(dfa.stateCount).fill(-1);
-      const parent = new Int32Array(dfa.stateCount);
-      members[i].forEach((m, id) => {
-        let st = dfa.start;
-        for (const b of utf8.encode(m)) {
-          const nx = dfa.trans[st * 256 + b];
-          parent[nx] = st;
-          st = nx;
-        }
-        if (at[st] < 0) at[st] = id;
-      });
-      this.memberAt.push(at);
-      this.parentOf.push(parent);
-    });
+    this.memberAt = dfas.map((d) => (d === null ? null : d.memberAt));
+    this.parentOf = dfas.map((d) => (d === null ? null : d.parent));
     const facts = names[NAME_FACTS];
     this.rel = [];
     this.ownedSet = new Int32Array(plan.introSets.length).fill(-1);
