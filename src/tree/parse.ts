@@ -76,6 +76,23 @@ export function parserGrammar(grammar: Grammar): ohm.Grammar {
   return built(grammar).ohmGrammar;
 }
 
+/** The offset of the first UTF-16 surrogate not part of a pair, or -1 (well-formed text). */
+export function loneSurrogate(text: string): number {
+  for (let i = 0; i < text.length; i++) {
+    const c = text.charCodeAt(i);
+    if (c >= 0xd800 && c <= 0xdbff) {
+      const d = text.charCodeAt(i + 1);
+      if (d >= 0xdc00 && d <= 0xdfff) {
+        i++;
+        continue;
+      }
+      return i;
+    }
+    if (c >= 0xdc00 && c <= 0xdfff) return i;
+  }
+  return -1;
+}
+
 export function createParser(grammar: Grammar): Parser {
   const info = grammarInfo(grammar);
   const b = built(grammar);
@@ -84,6 +101,11 @@ export function createParser(grammar: Grammar): Parser {
     parse(text: string, opts?: string | ParseOptions): Tree {
       const o: ParseOptions = typeof opts === 'string' ? { file: opts } : (opts ?? {});
       const file = o.file ?? '<input>';
+      const lone = loneSurrogate(text);
+      if (lone >= 0) {
+        const hex = text.charCodeAt(lone).toString(16).toUpperCase();
+        throw new ParseError(file, text, { start: lone, end: lone + 1 }, `an unpaired surrogate U+${hex}: program text must be valid Unicode (no UTF-8 encoder, and so no tokenizer, can produce it)`);
+      }
       try {
         const m = guardedMatch(b.ohmGrammar, text, 'Start');
         if (m.failed()) throw syntaxError(b.generated, file, text, m);
