@@ -15,8 +15,8 @@
  *   word bytes when x ends with a word byte). The rest of those tokens is resolved at run time by
  *   walking x's subtree with the thread's continuation; nothing else can leave the lexeme.
  *
- * Cost: one pre-order scan of the trie per DFA state, skipping dead subtrees: O(live nodes) per
- * state. Memory: (1 + kmax) bitsets of ⌈V/32⌉ words per state, each stored once per engine when
+ * Cost: O(live (node, state) pairs): the states are scanned 32 at a time in one pre-order pass over
+ * the trie, skipping subtrees where none is alive. Memory: (1 + kmax) bitsets of ⌈V/32⌉ words per state, each stored once per engine when
  * equal bitsets recur (`BitsetPool`): states of one class often share them (a bounded string's
  * positions far from both bounds, the levels above a state's longest need), and so do classes.
  * Measured on the generated shed_commands description × llama3: 2,787 bitsets, 680 distinct.
@@ -97,62 +97,123 @@ export function buildClassTables(dfa: ByteDfa, trie: TokenTrie, space: Uint8Arra
   const exits: Uint32Array[] = [new Uint32Array(0)];
   const nodeCount = trie.nodeCount;
   const { byte, depth, end, tokStart, tokens } = trie;
-  const stateAt = new Int32Array(1024);
-  const tokK = new Int32Array(tokens.length); // scratch: k per token position in `tokens`, -1 = not inside
-  for (let d = 1; d <= w0; d++) {
-    const bits = new Uint32Array(nWords);
-    const ex: number[] = [];
-    let maxK = 0;
-    tokK.fill(-1);
-    stateAt[0] = d;
+  const T = tokens.length;
+  const { trans, minAccept, accept } = dfa;
+  const startNeed = minAccept[dfa.start];
+  // States are scanned CHUNK at a time in one pass over the trie: at each node, the threads still
+  // alive (start state slot j, current state) of its parent are stepped; a subtree is skipped when
+  // none is left. Same tables as one scan per state, with the trie walked w0/CHUNK times.
+  const liveJ = new Int32Array(MAX_DEPTH * CHUNK);
+  const liveS = new Int32Array(MAX_DEPTH * CHUNK);
+  const liveN = new Int32Array(MAX_DEPTH);
+  const tokK = new Uint8Array(CHUNK * T); // per slot and token position: bytes still needed (capped), 255 = not inside
+  for (let first = 1; first <= w0; first += CHUNK) {
+    const n = Math.min(CHUNK, w0 - first + 1);
+    const bits: Uint32Array[] = [];
+    const ex: number[][] = [];
+    for (let j = 0; j < n; j++) {
+      bits.push(new Uint32Array(nWords));
+      ex.push([]);
+      liveJ[j] = j;
+      liveS[j] = first + j;
+    }
+    const maxK = new Int32Array(n);
+    tokK.fill(255, 0, n * T);
+    liveN[0] = n;
     let c = 1;
     while (c < nodeCount) {
       const dep = depth[c];
-      if (dep >= stateAt.length) {
+      if (dep >= MAX_DEPTH) {
         c = end[c];
         continue;
       }
-      const p = stateAt[dep - 1];
-      const s = p === w0 ? w0Trans[byte[c]] : dfa.trans[p * 256 + byte[c]];
-      if (s === 0) {
+      const b = byte[c];
+      const from = (dep - 1) * CHUNK;
+      const count = liveN[dep - 1];
+      const base = dep * CHUNK;
+      let m = 0;
+      for (let q = 0; q < count; q++) {
+        const p = liveS[from + q];
+        const s = p === w0 ? w0Trans[b] : trans[p * 256 + b];
+        if (s !== 0) {
+          liveJ[base + m] = liveJ[from + q];
+          liveS[base + m] = s;
+          m++;
+        }
+      }
+      if (m === 0) {
         c = end[c];
         continue;
       }
-      stateAt[dep] = s;
-      const k = s === w0 ? dfa.minAccept[dfa.start] : dfa.minAccept[s];
-      if (k > maxK) maxK = k;
-      for (let i = tokStart[c]; i < tokStart[c + 1]; i++) {
-        const id = tokens[i];
-        bits[id >>> 5] |= 1 << (id & 31);
-        tokK[i] = k;
-      }
-      if (s !== w0 && dfa.accept[s] === 1 && end[c] > c + 1) {
-        const wordEnd = word[byte[c]] === 1;
-        for (let ch = c + 1; ch < end[c]; ch = end[ch]) {
-          const b = byte[ch];
-          if (follow[b] && !(wordEnd && word[b] && !space[b])) {
-            ex.push(c);
-            break;
+      liveN[dep] = m;
+      const t0 = tokStart[c];
+      const t1 = tokStart[c + 1];
+      // can a lexeme that ends after this node's string be followed by one of its children's bytes?
+      let exitable = -1;
+      for (let q = 0; q < m; q++) {
+        const j = liveJ[base + q];
+        const s = liveS[base + q];
+        const k = s === w0 ? startNeed : minAccept[s];
+        if (k > maxK[j]) maxK[j] = k;
+        if (t0 < t1) {
+          const bj = bits[j];
+          const kk = k < 254 ? k : 254;
+          const row = j * T;
+          for (let i = t0; i < t1; i++) {
+            const id = tokens[i];
+            bj[id >>> 5] |= 1 << (id & 31);
+            tokK[row + i] = kk;
           }
+        }
+        if (s !== w0 && accept[s] === 1) {
+          if (exitable < 0) exitable = canExit(trie, c, space, follow, word) ? 1 : 0;
+          if (exitable === 1) ex[j].push(c);
         }
       }
       c++;
     }
-    inside.push(pool.intern(bits));
-    exits.push(Uint32Array.from(ex));
-    const levels: Uint32Array[] = [];
-    const km = Math.min(maxK, MAX_LE);
-    for (let k = 0; k < km; k++) levels.push(new Uint32Array(nWords));
-    if (km > 0) {
-      for (let i = 0; i < tokens.length; i++) {
-        const k = tokK[i];
-        if (k < 0 || k >= km) continue;
-        const id = tokens[i];
-        for (let j = k; j < km; j++) levels[j][id >>> 5] |= 1 << (id & 31);
+    for (let j = 0; j < n; j++) {
+      const d = first + j;
+      inside.push(pool.intern(bits[j]));
+      exits.push(Uint32Array.from(ex[j]));
+      const km = Math.min(maxK[j], MAX_LE);
+      const levels: Uint32Array[] = [];
+      for (let k = 0; k < km; k++) levels.push(new Uint32Array(nWords));
+      if (km > 0) {
+        const row = j * T;
+        for (let i = 0; i < T; i++) {
+          const k = tokK[row + i];
+          if (k >= km) continue;
+          const id = tokens[i];
+          levels[k][id >>> 5] |= 1 << (id & 31);
+        }
+        // level x holds the tokens needing ≤ x more bytes: each level takes in the one below it
+        for (let x = 1; x < km; x++) {
+          const lo = levels[x - 1];
+          const hi = levels[x];
+          for (let w = 0; w < nWords; w++) hi[w] |= lo[w];
+        }
       }
+      le.push(levels.map((l) => pool.intern(l)));
+      kmax[d] = maxK[j];
     }
-    le.push(levels.map((b) => pool.intern(b)));
-    kmax[d] = maxK;
   }
   return { dfa, w0, w0Trans, inside, le, kmax, exits };
+}
+
+/** Start states scanned together in one pass over the trie. */
+const CHUNK = 32;
+/** Tokens longer than this many bytes are left out of the tables (none of the shipped tokenizers has one). */
+const MAX_DEPTH = 1024;
+
+/** Has node c a child whose byte may follow a lexeme ending at c (a space, or a terminal's first byte; not a word byte after a word byte)? */
+function canExit(trie: TokenTrie, c: number, space: Uint8Array, follow: Uint8Array, word: Uint8Array): boolean {
+  const { byte, end } = trie;
+  if (end[c] <= c + 1) return false;
+  const wordEnd = word[byte[c]] === 1;
+  for (let ch = c + 1; ch < end[c]; ch = end[ch]) {
+    const b = byte[ch];
+    if (follow[b] && !(wordEnd && word[b] && !space[b])) return true;
+  }
+  return false;
 }

@@ -48,6 +48,79 @@ function expectSameTables(engine: MaskEngine, reference: ReturnType<typeof unsha
   });
 }
 
+/**
+ * The tables by their definition (class-tables.ts), one state and one token at a time: inside[d]
+ * = tokens whose bytes keep the class's DFA alive from d; le[d][k] = those that then need ≤ k more
+ * bytes (k below min(kmax[d], MAX_LE)); kmax[d] = the most bytes any live prefix still needs;
+ * exits[d] = accepting nodes with a child byte that may follow a lexeme, in pre-order.
+ */
+function byDefinition(engine: MaskEngine, i: number) {
+  const rtn = engine.automaton.rtn;
+  const term = rtn.terminals.find((t) => t.kind === 'class' && t.tokenClass === i)!;
+  const dfa = term.dfa;
+  const trie = engine.trie;
+  const w0 = dfa.stateCount;
+  const follow = new Uint8Array(256);
+  for (let b = 0; b < 256; b++) if (rtn.space[b]) follow[b] = 1;
+  for (const t of rtn.terminals) for (let b = 0; b < 256; b++) if (t.dfa.trans[t.dfa.start * 256 + b] !== 0) follow[b] = 1;
+  const step = (s: number, b: number) => (s === w0 ? (rtn.space[b] ? w0 : dfa.trans[dfa.start * 256 + b]!) : dfa.trans[s * 256 + b]!);
+  const need = (s: number) => (s === w0 ? dfa.minAccept[dfa.start]! : dfa.minAccept[s]!);
+  const out: { inside: Set<number>; le: Set<number>[]; kmax: number; exits: number[] }[] = [];
+  for (let d = 1; d <= w0; d++) {
+    const inside = new Set<number>();
+    const needOf = new Map<number, number>();
+    const exits: number[] = [];
+    let kmax = 0;
+    const visit = (c: number, s: number) => {
+      kmax = Math.max(kmax, need(s));
+      for (let x = trie.tokStart[c]!; x < trie.tokStart[c + 1]!; x++) {
+        inside.add(trie.tokens[x]!);
+        needOf.set(trie.tokens[x]!, need(s));
+      }
+      const children: number[] = [];
+      for (let ch = c + 1; ch < trie.end[c]!; ch = trie.end[ch]!) children.push(ch);
+      const wordEnd = WORD[trie.byte[c]!] === 1;
+      if (s !== w0 && dfa.accept[s] === 1 && children.some((ch) => follow[trie.byte[ch]!] && !(wordEnd && WORD[trie.byte[ch]!] && !rtn.space[trie.byte[ch]!]))) exits.push(c);
+      for (const ch of children) {
+        const t = step(s, trie.byte[ch]!);
+        if (t !== 0) visit(ch, t);
+      }
+    };
+    for (let ch = 1; ch < trie.nodeCount; ch = trie.end[ch]!) {
+      const t = step(d, trie.byte[ch]!);
+      if (t !== 0) visit(ch, t);
+    }
+    const le: Set<number>[] = [];
+    for (let k = 0; k < Math.min(kmax, 24); k++) le.push(new Set([...inside].filter((id) => needOf.get(id)! <= k)));
+    out.push({ inside, le, kmax, exits });
+  }
+  return out;
+}
+
+const members = (b: Uint32Array) => {
+  const out: number[] = [];
+  for (let w = 0; w < b.length; w++) for (let bit = 0; bit < 32; bit++) if ((b[w]! >>> bit) & 1) out.push(w * 32 + bit);
+  return out;
+};
+
+describe('class tables: built as defined (state by state, token by token)', () => {
+  it('every class of the shed_commands description × the demo tokenizer', () => {
+    const { engine } = loadOrCompile(GRAMMAR, TEXT, TOKENIZER, false);
+    engine.classes.forEach((c, i) => {
+      if (c === null) return;
+      const ref = byDefinition(engine, i);
+      for (let d = 1; d <= c.w0; d++) {
+        const r = ref[d - 1]!;
+        const at = `${GRAMMAR.tokens[i]!.name} state ${d}`;
+        expect(members(c.inside[d]!), at).toEqual([...r.inside].sort((a, b) => a - b));
+        expect(c.kmax[d], at).toBe(r.kmax);
+        expect(c.le[d]!.map(members), at).toEqual(r.le.map((x) => [...x].sort((a, b) => a - b)));
+        expect(Array.from(c.exits[d]!), at).toEqual(r.exits);
+      }
+    });
+  }, 300_000);
+});
+
 describe('class tables: equal bitsets stored once', () => {
   const dir = mkdtempSync(join(tmpdir(), 'tw-cache-pool-'));
 
