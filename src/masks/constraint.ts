@@ -55,6 +55,8 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
     classes: readonly (ClassTables | null)[],
     /** the automaton under this binding of the open name sets */
     readonly pda: AutomatonInstance,
+    /** keep the mask of popping each frame with the frame (engine.ts BindOptions) */
+    frameMasks = true,
   ) {
     this.vocabSize = vocab.vocabSize;
     this.eosIds = vocab.eosIds;
@@ -62,7 +64,7 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
     const variables = pda.automaton.rtn.terminals.some((t) => t.kind === 'newvar' || t.kind === 'boundvar');
     // name scopes: kept masks leave out the options whose effect depends on the scope state and
     // the walk takes them live (kept.ts, docs/design/scope-masks.md)
-    this.kept = variables ? null : new KeptMasks(this.walker);
+    this.kept = variables ? null : new KeptMasks(this.walker, frameMasks);
     this.walker.kept = this.kept;
     this.live = new WalkContext(tables, true);
   }

@@ -14,6 +14,16 @@ import { BitsetPool, buildClassTables, type ClassTables } from './class-tables.t
 import { MaskConstraint } from './constraint.ts';
 import { VocabTables } from './vocab-tables.ts';
 
+/** Options of `MaskEngine.bind`. */
+export interface BindOptions {
+  /**
+   * keep the mask of popping each stack frame with the frame (default true), so the cost of a
+   * mask does not grow with the stack's depth (kept.ts); false computes pops by walking every
+   * frame — the uncached computation, for differential tests and the bench's comparison
+   */
+  readonly frameMasks?: boolean;
+}
+
 export interface CompileOptions {
   /** skip the check that every needed byte has a single-byte token (tests with tiny vocabularies) */
   readonly allowMissingBytes?: boolean;
@@ -53,7 +63,7 @@ export class MaskEngine {
   }
 
   /** A constraint for one binding of the open name sets. Cheap: no vocabulary work. */
-  bind(names: NameBindings = {}): MaskConstraint {
-    return new MaskConstraint(this.vocab, this.tables, this.classes, this.automaton.bind(names));
+  bind(names: NameBindings = {}, opts: BindOptions = {}): MaskConstraint {
+    return new MaskConstraint(this.vocab, this.tables, this.classes, this.automaton.bind(names), opts.frameMasks ?? true);
   }
 }

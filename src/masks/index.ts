@@ -33,7 +33,7 @@
  * Limits: see automaton/index.ts (regex subset, ambiguity cap); grammars with `new`/`bound` fields
  * walk instead of using local masks; masks follow token-class regexes, not value ranges.
  */
-export { MaskEngine, type CompileOptions } from './engine.ts';
+export { MaskEngine, type BindOptions, type CompileOptions } from './engine.ts';
 export { MaskConstraint, type MaskState } from './constraint.ts';
 export { MaskError } from './errors.ts';
 import type { Grammar } from '../description/ir.ts';

@@ -21,6 +21,19 @@
  *   lexemes and pop points land here): the token ids it marks.
  * Memory: one bitset (⌈V/32⌉ words) per local mask and per lexeme state reached, id lists for the
  * rest; computed on first use (`prepare` computes every local mask up front).
+ *
+ * Frame masks (grammars without name scopes): resolving a pop point walks the frame below, whose
+ * kept mask may pop again, and so on — one kept mask OR-ed per frame, so a right-recursive list
+ * of n elements cost O(n) per step. So the whole mask of "pop frame f at trie node x" (the stack
+ * under f included) is kept per frame object (`frameRoot`, `frameBelow`, a WeakMap: frames are
+ * immutable and shared by every later state, and die with them). It is the union of the kept mask
+ * of the position f returns to and the frame masks of f.next at that kept mask's pop points, with
+ * its largest absolute distance; computed once per frame (a new frame costs one union), and used
+ * only when that distance fits the limit — then the walk it replaces would have taken every kept
+ * mask of the chain as is, so the result is the same bits (tested against the uncached walk in
+ * test/masks/depth.test.ts). A frame whose mask equals the one below it shares its arrays, so a
+ * cons list keeps one bitset, not one per element. The root frame mask is computed without the word
+ * rule; with it, word-start tokens are removed when OR-ed, as for local masks.
  */
 import { INF, WORD, type AutomatonInstance, type Frame } from '../automaton/internal.ts';
 import { popcount32 } from '../util/bitset.ts';
@@ -31,6 +44,8 @@ import { SENTINEL, type KeptMaskSource, type TrieWalker } from './walk.ts';
 interface LocalMask {
   readonly bits: Uint32Array;
   readonly ids: Uint32Array | null;
+  /** the same tokens as a frame-mask content */
+  readonly content: Content;
   readonly maxDist: number;
   readonly pops: Uint32Array;
   /** a scope-sensitive option starts where no option of the position's own level can carry it: walk the position live */
@@ -53,10 +68,31 @@ interface LexLocal {
 
 interface SubLocal {
   readonly ids: Uint32Array;
+  readonly content: Content;
   readonly maxDist: number;
   readonly pops: Uint32Array;
   readonly unkeepable: boolean;
   readonly deep: readonly DeepStart[] | null;
+}
+
+/** A set of tokens, immutable and shared: a bitset, or (`bits` null) an id list. `id` names it. */
+interface Content {
+  readonly id: number;
+  readonly bits: Uint32Array | null;
+  readonly ids: Uint32Array | null;
+}
+
+/** The mask of popping one frame at a trie node, the whole stack under it included (see above). */
+interface FrameMask {
+  readonly content: Content;
+  /** largest completion distance (bytes, absolute) of its tokens */
+  readonly maxDist: number;
+}
+
+/** Per frame: its root mask and its masks below trie nodes (null: not keepable, walk it). */
+interface FrameMemo {
+  root: FrameMask | null | undefined;
+  below: Map<number, FrameMask | null> | null;
 }
 
 const NO_POPS = new Uint32Array(0);
@@ -80,6 +116,32 @@ function sparseIds(bits: Uint32Array): Uint32Array | null {
   return out;
 }
 
+/** `acc |= m` (bitset or id list). */
+function orContent(acc: Uint32Array, m: Content): void {
+  if (m.ids !== null) {
+    const ids = m.ids;
+    for (let i = 0; i < ids.length; i++) acc[ids[i] >>> 5] |= 1 << (ids[i] & 31);
+  } else {
+    const b = m.bits!;
+    for (let w = 0; w < acc.length; w++) acc[w] |= b[w];
+  }
+}
+
+/** `acc` has exactly the tokens of m. */
+function sameAs(acc: Uint32Array, m: Content): boolean {
+  if (m.bits !== null) {
+    const b = m.bits;
+    for (let w = 0; w < acc.length; w++) if (acc[w] !== b[w]) return false;
+    return true;
+  }
+  const ids = m.ids!;
+  let n = 0;
+  for (let w = 0; w < acc.length; w++) if (acc[w] !== 0) n += popcount32(acc[w]);
+  if (n !== ids.length) return false;
+  for (let i = 0; i < ids.length; i++) if ((acc[ids[i] >>> 5] & (1 << (ids[i] & 31))) === 0) return false;
+  return true;
+}
+
 export class KeptMasks implements KeptMaskSource {
   /** per RTN node: the local mask of a BETWEEN position */
   private readonly locals: (LocalMask | undefined)[] = [];
@@ -90,10 +152,25 @@ export class KeptMasks implements KeptMaskSource {
   /** the keep context: every computation here runs on it (never nested, see context.ts) */
   private readonly keep: WalkContext;
   private readonly pda: AutomatonInstance;
+  /** per frame: the masks of popping it (grammars without name scopes; null: not used) */
+  private readonly frameMemo: WeakMap<Frame, FrameMemo> | null;
+  /** a space byte is a word byte: the root frame mask cannot be filtered by the word rule afterwards */
+  private readonly wordSpace: boolean;
+  /** scratch bitset of frame-mask unions */
+  private readonly scratch: Uint32Array;
+  /** hash-consed unions: (position, parts' content ids) → content */
+  private readonly unions = new Map<string, Content>();
+  private nextContent = 0;
 
-  constructor(private readonly walker: TrieWalker) {
+  constructor(private readonly walker: TrieWalker, frameMasks = true) {
     this.keep = new WalkContext(walker.vt, false);
     this.pda = walker.pda;
+    this.frameMemo = frameMasks && this.pda.scopes === null ? new WeakMap() : null;
+    const space = this.pda.automaton.rtn.space;
+    let ws = false;
+    for (let b = 0; b < 256; b++) if (space[b] && WORD[b]) ws = true;
+    this.wordSpace = ws;
+    this.scratch = new Uint32Array(walker.vt.nWords);
   }
 
   // ---- use (live context) ----
@@ -148,7 +225,16 @@ export class KeptMasks implements KeptMaskSource {
 
   /** Continues below each pop point x ≠ root with the position `frames` returns to. */
   private resumeBelow(ctx: WalkContext, pops: Uint32Array, frames: Frame): void {
-    for (let i = 0; i < pops.length; i++) this.walker.walkBetween(ctx, pops[i], frames.ret, frames.next, frames.env);
+    for (let i = 0; i < pops.length; i++) {
+      if (this.frameMemo !== null) {
+        const m = this.frameBelow(frames, pops[i]);
+        if (m !== null && m.maxDist <= ctx.lim) {
+          ctx.markIds(m.content.ids!);
+          continue;
+        }
+      }
+      this.walker.walkBetween(ctx, pops[i], frames.ret, frames.next, frames.env);
+    }
   }
 
   /**
@@ -161,13 +247,145 @@ export class KeptMasks implements KeptMaskSource {
     const space = this.pda.automaton.rtn.space;
     for (let i = 0; i < pops.length; i++) {
       const x = pops[i];
-      if (x === 0) this.walker.maskBetween(ctx, frames.ret, frames.next, frames.env);
-      else {
+      if (x === 0) {
+        if (this.frameMemo !== null && !(ctx.rootPrevWord && this.wordSpace)) {
+          const m = this.frameRoot(frames);
+          if (m !== null && m.maxDist <= ctx.lim) {
+            ctx.orPacked(m.content.bits ?? NO_MASK, m.content.ids, ctx.rootPrevWord);
+            continue;
+          }
+        }
+        this.walker.maskBetween(ctx, frames.ret, frames.next, frames.env);
+      } else {
         const fb = fbs[x];
         if (ctx.rootPrevWord && WORD[fb] && !space[fb]) continue;
+        if (this.frameMemo !== null) {
+          const m = this.frameBelow(frames, x);
+          if (m !== null && m.maxDist <= ctx.lim) {
+            ctx.markIds(m.content.ids!);
+            continue;
+          }
+        }
         this.walker.walkBetween(ctx, x, frames.ret, frames.next, frames.env);
       }
     }
+  }
+
+  // ---- frame masks (no name scopes) ----
+
+  private memoOf(f: Frame): FrameMemo {
+    let m = this.frameMemo!.get(f);
+    if (m === undefined) {
+      m = { root: undefined, below: null };
+      this.frameMemo!.set(f, m);
+    }
+    return m;
+  }
+
+  /**
+   * The mask of popping frame f at the trie root — what `maskBetween(f.ret, f.next)` marks with
+   * no limit and no word rule — or null when a kept mask on the way is not keepable.
+   */
+  private frameRoot(f: Frame): FrameMask | null {
+    const memo = this.memoOf(f);
+    if (memo.root !== undefined) return memo.root;
+    // the frames below first, deepest first: the recursion then never follows the whole stack
+    const chain: Frame[] = [];
+    for (let g = f.next; g !== null && this.frameMemo!.get(g)?.root === undefined; g = g.next) chain.push(g);
+    for (let i = chain.length - 1; i >= 0; i--) this.rootOf(chain[i], this.memoOf(chain[i]));
+    return this.rootOf(f, memo);
+  }
+
+  private rootOf(f: Frame, memo: FrameMemo): FrameMask | null {
+    const local = this.localMask(f.ret);
+    memo.root = null;
+    if (local.unkeepable) return null;
+    const next = f.next;
+    let maxDist = local.maxDist + (next === null ? 0 : next.rest);
+    const parts: Content[] = [];
+    if (next !== null) {
+      for (let i = 0; i < local.pops.length; i++) {
+        const y = local.pops[i];
+        const m = y === 0 ? this.frameRoot(next) : this.frameBelow(next, y);
+        if (m === null) return null;
+        parts.push(m.content);
+        if (m.maxDist > maxDist) maxDist = m.maxDist;
+      }
+    }
+    const content = this.union(`r${f.ret}`, local.content, parts, true);
+    memo.root = { content, maxDist };
+    return memo.root;
+  }
+
+  /**
+   * The mask of popping frame f below trie node x ≠ root — what `walkBetween(x, f.ret, f.next)`
+   * marks with no limit — or null when a kept mask on the way is not keepable.
+   */
+  private frameBelow(f: Frame, x: number): FrameMask | null {
+    const memo = this.memoOf(f);
+    const hit = memo.below?.get(x);
+    if (hit !== undefined) return hit;
+    // as frameRoot: deepest first for the same trie node (pops below x are x or deeper trie
+    // nodes, so what recursion is left is bounded by the length of a token)
+    const chain: Frame[] = [];
+    for (let g = f.next; g !== null && this.frameMemo!.get(g)?.below?.get(x) === undefined; g = g.next) chain.push(g);
+    for (let i = chain.length - 1; i >= 0; i--) this.belowOf(chain[i], this.memoOf(chain[i]), x);
+    return this.belowOf(f, memo, x);
+  }
+
+  private belowOf(f: Frame, memo: FrameMemo, x: number): FrameMask | null {
+    const below = (memo.below ??= new Map());
+    below.set(x, null);
+    const sub = this.subLocal(f.ret, x);
+    if (sub.unkeepable) return null;
+    const next = f.next;
+    let maxDist = sub.maxDist + (next === null ? 0 : next.rest);
+    const parts: Content[] = [];
+    if (next !== null) {
+      for (let i = 0; i < sub.pops.length; i++) {
+        const m = this.frameBelow(next, sub.pops[i]);
+        if (m === null) return null;
+        parts.push(m.content);
+        if (m.maxDist > maxDist) maxDist = m.maxDist;
+      }
+    }
+    const out = { content: this.union(`b${f.ret}:${x}`, sub.content, parts, false), maxDist };
+    below.set(x, out);
+    return out;
+  }
+
+  /**
+   * The content `own ∪ parts`, hash-consed: one object per distinct (position, parts) — contents are
+   * immutable and shared, so the key names the union — and a union equal to one of its inputs is
+   * that input. `bitsets`: root masks (a bitset unless sparse); else id lists.
+   */
+  private union(position: string, own: Content, parts: readonly Content[], bitsets: boolean): Content {
+    if (parts.length === 0) return own;
+    let key = position;
+    for (const p of parts) key += `,${p.id}`;
+    const hit = this.unions.get(key);
+    if (hit !== undefined) return hit;
+    let out: Content;
+    if (bitsets) {
+      const acc = this.scratch;
+      if (own.bits !== null) acc.set(own.bits);
+      else {
+        acc.fill(0);
+        orContent(acc, own);
+      }
+      for (const p of parts) orContent(acc, p);
+      out = sameAs(acc, own) ? own : parts.find((p) => sameAs(acc, p)) ?? this.content(acc.slice(), sparseIds(acc));
+    } else {
+      const all = new Set<number>(own.ids!);
+      for (const p of parts) for (const id of p.ids!) all.add(id);
+      out = all.size === own.ids!.length ? own : this.content(null, Uint32Array.from(all));
+    }
+    this.unions.set(key, out);
+    return out;
+  }
+
+  private content(bits: Uint32Array | null, ids: Uint32Array | null): Content {
+    return { id: this.nextContent++, bits: ids === null ? bits : null, ids };
   }
 
   // ---- computation (keep context) ----
@@ -180,7 +398,8 @@ export class KeptMasks implements KeptMaskSource {
     const bits = new Uint32Array(this.walker.vt.nWords);
     k.beginKept(bits, null, SENTINEL, this.pda.scopes !== null);
     this.walker.maskBetween(k, n, SENTINEL, null);
-    const entry: LocalMask = { bits, ids: sparseIds(bits), maxDist: k.maxSeen, pops: k.takePops(), unkeepable: k.unkeepable, deep: k.takeDeepStarts() };
+    const ids = sparseIds(bits);
+    const entry: LocalMask = { bits, ids, content: this.content(bits, ids), maxDist: k.maxSeen, pops: k.takePops(), unkeepable: k.unkeepable, deep: k.takeDeepStarts() };
     k.end();
     this.locals[n] = entry;
     return entry;
@@ -195,7 +414,8 @@ export class KeptMasks implements KeptMaskSource {
     const ids: number[] = [];
     k.beginKept(NO_MASK, ids, SENTINEL, this.pda.scopes !== null);
     this.walker.walkBetween(k, x, n, SENTINEL, null);
-    const entry: SubLocal = { ids: Uint32Array.from(new Set(ids)), maxDist: k.maxSeen, pops: k.takePops(), unkeepable: k.unkeepable, deep: k.takeDeepStarts() };
+    const list = Uint32Array.from(new Set(ids));
+    const entry: SubLocal = { ids: list, content: this.content(null, list), maxDist: k.maxSeen, pops: k.takePops(), unkeepable: k.unkeepable, deep: k.takeDeepStarts() };
     k.end();
     this.subLocals.set(key, entry);
     return entry;

@@ -30,6 +30,7 @@ import { runCommand, UsageError, type RegisterCommand } from '../command.ts';
 import { FIGURES_FILE, machine, writeFiguresSection } from '../figures.ts';
 import { decodeBenchTable, runDecodeBench } from './bench-decode.ts';
 import { benchStartup, startupTable, writeStartupFigures } from './bench-startup.ts';
+import { depthTable, runDepthBench } from './bench-depth.ts';
 import { integer, loadGrammarFile, maskCacheDir, opt, withInputs } from '../options.ts';
 
 const ROOT = fileURLToPath(new URL('../../../', import.meta.url));
@@ -298,6 +299,7 @@ interface Flags {
   spinning?: boolean;
   oneCallPerToken?: boolean;
   startup?: boolean;
+  depth?: boolean;
   runs: number;
 }
 
@@ -349,6 +351,7 @@ export const register: RegisterCommand = (program: Command, setExit) => {
     .addOption(opt.tokenizer('optional'))
     .option('--all', 'SQL and JSON × llama3 (and × models/coop/tokenizer.json when present); prints a table')
     .option('--startup', 'instead: the npm tarball size and the start-up time of `--help` and a cold `generate`, against `node -e 0`')
+    .option('--depth', 'instead: mask time per step of a cons list (a stack frame per element) after 1 and 1,000 elements, against a list field (--tokenizer: default gemma3)')
     .addOption(new Option('--runs <n>', 'with --startup: runs per command (median reported)').argParser(integer(1)).default(5))
     .addOption(opt.names())
     .addOption(opt.db())
@@ -383,6 +386,14 @@ export const register: RegisterCommand = (program: Command, setExit) => {
           const file = figuresFile(opts.writeFigures);
           if (file !== null) writeStartupFigures(r, commandLine(), file);
           process.stdout.write((opts.json ? JSON.stringify(r) : startupTable(r)) + '\n');
+          return;
+        }
+        if (opts.depth) {
+          const r = runDepthBench(ROOT, opts.tokenizer);
+          const label = tokenizerLabel(r.tokenizer);
+          const file = figuresFile(opts.writeFigures);
+          if (file !== null) writeFiguresSection({ id: 'masks-depth', title: 'Masks: time per step against stack depth', command: commandLine(), body: depthTable(r, label), data: r, machine: machine() }, file);
+          process.stdout.write((opts.json ? JSON.stringify(r) : depthTable(r, label)) + '\n');
           return;
         }
         if (opts.all) return benchAll(opts, cache);
