@@ -202,7 +202,18 @@ describe('the level loop (Automaton.forEachLevel, shared by the byte step and th
 
   it('canFinish (completeness of a BETWEEN position) is the loop reaching the end of the stack', () => {
     const b = new Automaton(grammar('arith')).bind({ Func: ['max'] });
-    expect(b.canFinish(popping[0], new Frame(popping[1], null, null, 0))).toBe(true);
-    expect(b.canFinish(popping[0], new Frame(blocking[0], null, null, 0))).toBe(false);
+    const a = b.automaton;
+    // frames as pushFrames builds them: `finishes` says the frame and all below can return
+    const frame = (ret: number, next: Frame | null) => new Frame(ret, null, next, 0, false, a.canPop[ret] !== 0 && (next === null || next.finishes));
+    expect(b.canFinish(popping[0], frame(popping[1], null))).toBe(true);
+    expect(b.canFinish(popping[0], frame(blocking[0], null))).toBe(false);
+    // O(1) at any depth, and the same answer as the loop over every frame
+    const ends = (node: number, f: Frame | null) => a.forEachLevel({ visitLevel() {} }, null, 0, node, f, null, null) === LEVELS_END;
+    for (const top of [...popping, blocking[0]]) {
+      for (const under of [null, frame(popping[1], null), frame(blocking[0], frame(popping[2], null)), frame(popping[2], frame(blocking[0], null))]) {
+        const f = frame(top, under);
+        for (const node of [popping[0], blocking[0]]) expect(b.canFinish(node, f)).toBe(ends(node, f));
+      }
+    }
   });
 });
