@@ -86,8 +86,8 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
     return state.threads.length !== 0;
   }
 
-  /** Rollback: the state before the last advance (the start state stays itself). */
-  rollback(state: MaskState): MaskState {
+  /** The state before the last advance (the start state is its own previous state): one step undone. */
+  previous(state: MaskState): MaskState {
     return state.prev ?? state;
   }
 

@@ -8,7 +8,7 @@
  *   const c = engine.bind({ Table: ['orchard'], Column: ['variety', 'yield_kg'] });
  *   let s = c.start(); const mask = new Uint32Array(Math.ceil(c.vocabSize / 32));
  *   c.writeAllowed(s, 64, mask);              // bit id set ⇔ token id keeps the output a program prefix
- *   s = c.advance(s, id);                 // persistent: the old s is still valid (beams, rollback)
+ *   s = c.advance(s, id);                 // persistent: the old s is still valid (beams, undo: c.previous(s))
  *
  * Design (docs/design/masks.md): per token-class DFA state, precomputed bitsets of the
  * tokens that stay inside the lexeme and the trie nodes where a lexeme can end inside a token; per
