@@ -19,7 +19,7 @@
  * the trie, skipping subtrees where none is alive. Memory: (1 + kmax) bitsets of ⌈V/32⌉ words per state, each stored once per engine when
  * equal bitsets recur (`BitsetPool`): states of one class often share them (a bounded string's
  * positions far from both bounds, the levels above a state's longest need), and so do classes.
- * Measured on the generated shed_commands description × llama3: 2,787 bitsets, 680 distinct.
+ * (`test/masks/cache-pool.test.ts` checks that sharing happens on the shed_commands description.)
  */
 import type { TokenTrie } from '../vocab/index.ts';
 import type { ByteDfa } from '../automaton/internal.ts';
