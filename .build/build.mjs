@@ -1,12 +1,12 @@
 // Builds the package: TypeScript sources (src/) → ES modules with .d.ts types (dist/), by
 // TypeScript's own emit (.build/tsconfig.json; relative `.ts` imports rewritten to `.js`), plus the
 // files tsc does not copy: plain JavaScript modules started as child processes and the server's
-// page. Run by `npm install` in the repository (prepare) and before `npm pack`.
+// page; and the shipped grammars' parsers compiled ahead (dist/tree/parsers.json). Run by `npm install` in the repository (prepare) and before `npm pack`.
 import { spawnSync } from 'node:child_process';
-import { chmodSync, cpSync, readdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { chmodSync, cpSync, existsSync, readdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { createRequire } from 'node:module';
 import { dirname, join } from 'node:path';
-import { fileURLToPath } from 'node:url';
+import { fileURLToPath, pathToFileURL } from 'node:url';
 
 const root = join(dirname(fileURLToPath(import.meta.url)), '..');
 const dist = join(root, 'dist');
@@ -39,4 +39,13 @@ rewriteDeclarations(dist);
 cpSync(join(root, 'src', 'exec', 'sql-child.mjs'), join(dist, 'exec', 'sql-child.mjs'));
 cpSync(join(root, 'src', 'server', 'page'), join(dist, 'server', 'page'), { recursive: true });
 chmodSync(join(dist, 'cli', 'bin.js'), 0o755);
+
+// The shipped grammars' parsers, compiled now instead of at each start (see src/tree/parse.ts):
+// ohm's recipes keyed by the SHA-256 of each generated parser text, read by the compiled parse.js.
+const { loadGrammar } = await import(pathToFileURL(join(dist, 'description', 'index.js')).href);
+const { parserRecipes } = await import(pathToFileURL(join(dist, 'tree', 'parse.js')).href);
+const shipped = readdirSync(join(root, 'grammars'), { withFileTypes: true })
+  .filter((e) => e.isDirectory() && existsSync(join(root, 'grammars', e.name, `${e.name}.twg`)))
+  .map((e) => loadGrammar(join(root, 'grammars', e.name, `${e.name}.twg`)));
+writeFileSync(join(dist, 'tree', 'parsers.json'), JSON.stringify(parserRecipes(shipped)));
 console.error('build: dist/ written');

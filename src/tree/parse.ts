@@ -17,9 +17,15 @@
  *
  * Cost: ohm memoises every rule at every position: O(n · R) time and memory for n characters and
  * R generated rules (left recursion grows seeds, linear per level); a lexer runs in time linear in
- * the characters it reads. Building the parser is O(size of the grammar) plus ohm's grammar
- * compilation (a few ms for the shipped grammars).
+ * the characters it reads. Building the parser is O(size of the grammar) plus ohm's compilation of
+ * the generated grammar text — a few hundred milliseconds for the shipped grammars in a cold
+ * process, so the compiled package carries them compiled already: `.build/build.mjs` writes
+ * `parsers.json` beside this module in dist/ (`parserRecipes`: ohm's recipe of each shipped
+ * grammar's parser, keyed by the SHA-256 of the generated text), and a parser whose text is there
+ * is rebuilt from it in milliseconds. Any other grammar (and the sources run through tsx) compiles.
  */
+import { createHash } from 'node:crypto';
+import { readFileSync } from 'node:fs';
 import * as ohm from 'ohm-js';
 import type { Grammar, NameBindings } from '../description/ir.ts';
 import { grammarInfo } from './info.ts';
@@ -58,11 +64,63 @@ interface Built {
 
 const builtCache = new WeakMap<Grammar, Built>();
 
+// ohm exports makeRecipe and Grammar#toRecipe (its CLI's generated modules use them); its typings omit them
+const { makeRecipe } = ohm as unknown as { makeRecipe(recipe: unknown): ohm.Grammar };
+const toRecipe = (g: ohm.Grammar): string => (g as unknown as { toRecipe(): string }).toRecipe();
+const sha256 = (text: string): string => createHash('sha256').update(text).digest('hex');
+
+/** parsers.json beside this module (see the header), read on first use; null when absent or unreadable. */
+let prebuilt: Record<string, unknown> | null | undefined;
+
+/** The parser grammar rebuilt from parsers.json when it holds `source`'s recipe (and the recipe is of that very text); else null. */
+function fromPrebuilt(source: string): ohm.Grammar | null {
+  if (prebuilt === undefined) {
+    try {
+      const value: unknown = JSON.parse(readFileSync(new URL('./parsers.json', import.meta.url), 'utf8'));
+      prebuilt = value !== null && typeof value === 'object' && !Array.isArray(value) ? (value as Record<string, unknown>) : null;
+    } catch {
+      prebuilt = null; // running from the sources, or a package without it: compile
+    }
+  }
+  return prebuilt === null ? null : grammarFromRecipes(prebuilt, source);
+}
+
+/** The ohm grammar of `source` rebuilt from a table of parserRecipes, or null when the table has no recipe of exactly that text. */
+export function grammarFromRecipes(table: Readonly<Record<string, unknown>>, source: string): ohm.Grammar | null {
+  const recipe = table[sha256(source)];
+  if (typeof recipe !== 'string') return null;
+  try {
+    const r = JSON.parse(recipe) as unknown[];
+    if ((r[1] as { source?: unknown } | undefined)?.source !== source.trim()) return null;
+    return makeRecipe(r);
+  } catch {
+    return null;
+  }
+}
+
+/**
+ * ohm's recipes of the parsers of `grammars`, keyed by the SHA-256 of their generated text: the
+ * content of parsers.json, written by the package build for the shipped grammars.
+ */
+export function parserRecipes(grammars: readonly Grammar[]): Record<string, string> {
+  const out: Record<string, string> = {};
+  for (const g of grammars) {
+    const { source } = ohmSource(g);
+    out[sha256(source)] = toRecipe(ohm.grammar(source));
+  }
+  return out;
+}
+
+/** Whether `grammar`'s parser is rebuilt from parsers.json rather than compiled (for tests and the bench). */
+export function parserPrebuilt(grammar: Grammar): boolean {
+  return fromPrebuilt(ohmSource(grammar).source) !== null;
+}
+
 function built(grammar: Grammar): Built {
   let built = builtCache.get(grammar);
   if (built === undefined) {
     const generated = ohmSource(grammar);
-    const ohmGrammar = ohm.grammar(generated.source);
+    const ohmGrammar = fromPrebuilt(generated.source) ?? ohm.grammar(generated.source);
     installLexers(ohmGrammar, grammar);
     const semantics = buildSemantics(grammarInfo(grammar), ohmGrammar, generated.mixedEnds);
     built = { ohmGrammar, semantics, generated };
