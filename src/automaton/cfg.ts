@@ -125,9 +125,12 @@ class Builder {
   edge(from: number, kind: number, arg: number, to: number): void {
     this.edges[from].push([kind, arg, to]);
   }
+  /** filler terminals: each may be read any number of times before every terminal */
+  fillers: number[] = [];
   term(t: number): Frag {
     const s = this.node();
     const e = this.node();
+    for (const f of this.fillers) this.edge(s, EDGE_TERM, f, s);
     this.edge(s, EDGE_TERM, t, e);
     return { s, e };
   }
@@ -219,7 +222,8 @@ export function buildRtn(g: Grammar, dfas?: readonly ByteDfa[]): Rtn {
     let dfa: ByteDfa;
     let tokenClass = -1;
     let nameSet = -1;
-    if (kind === 'lit' && name.startsWith(' ')) dfa = g.blanks.find((x) => x.name === name.slice(1))!.regex.dfa;
+    if (kind === 'lit' && name.startsWith('\n')) dfa = g.fillers[Number(name.slice(7))]!.regex.dfa;
+    else if (kind === 'lit' && name.startsWith(' ')) dfa = g.blanks.find((x) => x.name === name.slice(1))!.regex.dfa;
     else if (kind === 'lit') dfa = literalDfa(utf8.encode(name));
     else if (kind === 'names') {
       nameSet = setIndex.get(name)!;
@@ -234,6 +238,8 @@ export function buildRtn(g: Grammar, dfas?: readonly ByteDfa[]): Rtn {
     return index;
   };
 
+  // filler i is the `lit` terminal named "\nfiller<i>" (no literal text has a line break)
+  b.fillers = g.fillers.map((f) => terminal('lit', `\nfiller${f.index}`));
   const ctorByName = new Map(g.constructors.map((c) => [c.name, c]));
   const sortByName = new Map(g.sorts.map((s) => [s.name, s]));
   // nonterminal ids: sort entry, levels, constructors
@@ -327,6 +333,9 @@ export function buildRtn(g: Grammar, dfas?: readonly ByteDfa[]): Rtn {
     });
   }
 
+  // filler after the last token: a loop on the start sort's final node
+  const startFinal = b.nts[sortEntry.get(g.start)!]?.final;
+  if (startFinal !== undefined) for (const f of b.fillers) b.edges[startFinal].push([EDGE_TERM, f, startFinal]);
   const nodeCount = b.nodeNt.length;
   const edgeStart = new Int32Array(nodeCount + 1);
   let ne = 0;

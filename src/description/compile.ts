@@ -7,6 +7,7 @@
 import type {
   BlankClass,
   BlankUse,
+  Filler,
   Cardinality,
   Constructor,
   Field,
@@ -167,6 +168,7 @@ export function buildGrammar(ast: DescriptionAst, text: string, file: string, ha
   const kindFamilies: KindFamily[] = [];
   const tokenFamilyRefs: { family: Ident; token: string }[] = [];
   const blankDecls: Extract<DeclAst, { kind: 'blank' }>[] = [];
+  const fillers: Filler[] = [];
   const tokenDecls = new Map<string, Extract<DeclAst, { kind: 'token' }>>();
 
   for (const d of ast.decls) {
@@ -192,6 +194,11 @@ export function buildGrammar(ast: DescriptionAst, text: string, file: string, ha
       case 'blank':
         if (declare(d.name.text, 'blank', d.name.span)) blankDecls.push(d);
         break;
+      case 'filler': {
+        const regex = compileRegex(d.regex, 'filler');
+        if (regex !== null) fillers.push({ index: fillers.length, pattern: d.regex.body, flags: d.regex.flags, regex, span: d.span });
+        break;
+      }
       case 'token': {
         const ok = declare(d.name.text, 'token class', d.name.span);
         if (ok) tokenDecls.set(d.name.text, d);
@@ -814,6 +821,39 @@ export function buildGrammar(ast: DescriptionAst, text: string, file: string, ha
     return { ...t, except: words, regex: { ...t.regex, dfa } };
   }
 
+  checkFillers(fillers, finalTokens, keywordList, blanks);
+
+  /** Fillers end by their own text, and begin with a character nothing else begins with. */
+  function checkFillers(fs: readonly Filler[], toks: readonly TokenClass[], kws: readonly string[], bls: readonly BlankClass[]): void {
+    for (const f of fs) {
+      const d = f.regex.dfa;
+      const closed = closedExample(d);
+      if (closed !== null) {
+        diags.push(E.fillerNotClosed(at(f.span), closed[0], closed[1]));
+        continue;
+      }
+      const starts = new Set<number>();
+      for (let b = 0; b < 256; b++) if (d.trans[d.start * 256 + b] !== 0) starts.add(b);
+      const enc = new TextEncoder();
+      const show = (b: number) => (b < 0x80 ? String.fromCharCode(b) : `\\x${b.toString(16)}`);
+      const kw = kws.find((k) => starts.has(enc.encode(k)[0]!));
+      if (kw !== undefined) {
+        diags.push(E.fillerClash(at(f.span), show(enc.encode(kw)[0]!), `the literal ${JSON.stringify(kw)}`));
+        continue;
+      }
+      const t = toks.find((x) => [...starts].some((b) => x.regex.dfa.trans[x.regex.dfa.start * 256 + b] !== 0));
+      if (t !== undefined) {
+        const b = [...starts].find((c) => t.regex.dfa.trans[t.regex.dfa.start * 256 + c] !== 0)!;
+        diags.push(E.fillerClash(at(f.span), show(b), `token class ${'`'}${t.name}${'`'}`));
+        continue;
+      }
+      const bl = bls.find((x) => [...x.chars].some((c) => starts.has(enc.encode(c)[0]!)));
+      if (bl !== undefined) diags.push(E.fillerClash(at(f.span), [...bl.chars].find((c) => starts.has(enc.encode(c)[0]!))!, `blank ${'`'}${bl.name}${'`'}`));
+      const sp = [...(space ?? '')].find((c) => starts.has(enc.encode(c)[0]!));
+      if (sp !== undefined) diags.push(E.fillerClash(at(f.span), sp, 'the `space` characters'));
+    }
+  }
+
   if (diags.some((d) => d.severity === 'error')) return { grammar: null, diagnostics: diags };
   const grammar: Grammar = {
     name: ast.grammar.text,
@@ -822,6 +862,7 @@ export function buildGrammar(ast: DescriptionAst, text: string, file: string, ha
     start: start!.name,
     space: space!,
     blanks,
+    fillers,
     tokens: finalTokens,
     nameSets,
     kindFamilies,
@@ -853,4 +894,59 @@ function operatorFits(layout: readonly LayoutItem[], fixity: Operator['fixity'],
     case 'postfix':
       return layout.length >= 2 && operand(first) && last?.kind === 'text';
   }
+}
+
+/**
+ * A match of `d` that is the start of a longer match (as two latin1 strings), or null when the
+ * matches are prefix-free: no accepting state has a transition to a live state. Breadth-first, so
+ * the example is a shortest one.
+ */
+/** Bytes in the order examples prefer them: printable ASCII first. */
+const EXAMPLE_BYTES = [...Array(256).keys()].sort((a, b) => Number(a < 0x20 || a > 0x7e) - Number(b < 0x20 || b > 0x7e) || a - b);
+
+function closedExample(d: { start: number; trans: Int32Array | Uint32Array | Uint16Array | number[]; accept: Uint8Array | number[]; stateCount: number }): [string, string] | null {
+  const prev = new Map<number, [number, number]>();
+  const queue = [d.start];
+  prev.set(d.start, [-1, -1]);
+  const path = (s: number): string => {
+    const out: number[] = [];
+    for (let x = s; prev.get(x)![0] >= 0; x = prev.get(x)![0]) out.unshift(prev.get(x)![1]);
+    return new TextDecoder().decode(Uint8Array.from(out));
+  };
+  for (let i = 0; i < queue.length; i++) {
+    const s = queue[i]!;
+    if (d.accept[s] === 1) {
+      for (const b of EXAMPLE_BYTES) {
+        const t = d.trans[s * 256 + b]!;
+        if (t === 0) continue;
+        // the shortest completion from t
+        const seen = new Map<number, [number, number]>([[t, [-1, -1]]]);
+        const q = [t];
+        for (let j = 0; j < q.length; j++) {
+          const u = q[j]!;
+          if (d.accept[u] === 1) {
+            const tail: number[] = [];
+            for (let x = u; seen.get(x)![0] >= 0; x = seen.get(x)![0]) tail.unshift(seen.get(x)![1]);
+            const head = path(s);
+            return [head, head + new TextDecoder().decode(Uint8Array.from([b, ...tail]))];
+          }
+          for (const c of EXAMPLE_BYTES) {
+            const v = d.trans[u * 256 + c]!;
+            if (v !== 0 && !seen.has(v)) {
+              seen.set(v, [u, c]);
+              q.push(v);
+            }
+          }
+        }
+      }
+    }
+    for (const b of EXAMPLE_BYTES) {
+      const t = d.trans[s * 256 + b]!;
+      if (t !== 0 && !prev.has(t)) {
+        prev.set(t, [s, b]);
+        queue.push(t);
+      }
+    }
+  }
+  return null;
 }

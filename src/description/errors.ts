@@ -578,5 +578,21 @@ export const exceptWord = (at: At, token: string, word: string, why: string) =>
 export const exceptTooLarge = (at: At, token: string) =>
   error('regex-too-large', at, `token class ${q(token)} is too large for the automaton: removing its excepted words exceeds the automaton limit`, 'list fewer words');
 
+export const fillerNotClosed = (at: At, example: string, longer: string) =>
+  error(
+    'filler-not-closed',
+    at,
+    `filler matches ${JSON.stringify(example)} and also the longer ${JSON.stringify(longer)}: where it ends is not decided by its own text`,
+    'end every match with a delimiter, e.g. `filler /#[^\\n]*\\n/` (a comment up to and including the line break)',
+  );
+
+export const fillerClash = (at: At, ch: string, what: string) =>
+  error(
+    'filler-clash',
+    at,
+    `filler can begin with ${JSON.stringify(ch)}, and so can ${what}`,
+    'a filler must begin with a character nothing else of the grammar begins with (the parser skips filler before every token)',
+  );
+
 export const exceptEverything = (at: At, token: string) =>
   error('except-everything', at, `token class ${q(token)} has no lexeme once its ${q('except')} words are removed`, 'drop some of the words, or widen the pattern');

@@ -111,6 +111,21 @@ export interface BlankClass {
   readonly span: Span;
 }
 
+/**
+ * Filler, `filler /#[^\n]*\n/`: material that may stand wherever `space` may (between any two
+ * tokens, at the start and the end) and means nothing — comments, an insignificant comma. The
+ * parser skips it with the spaces, the masks allow it before every token, the printer and the
+ * sampler never write it. Its matches are prefix-free (no match is the start of a longer one), and
+ * no token, keyword or blank begins with a character a filler can begin with (compile.ts).
+ */
+export interface Filler {
+  readonly index: number;
+  readonly pattern: string;
+  readonly flags: string;
+  readonly regex: TokenRegex;
+  readonly span: Span;
+}
+
 /** A blank placed by a layout or a separator: `Ws` (required) or `Ws?` (optional). */
 export interface BlankUse {
   /** BlankClass.name */
@@ -258,6 +273,8 @@ export interface Grammar {
   readonly space: string;
   /** `blank` declarations, in source order (their characters are disjoint from `space`) */
   readonly blanks: readonly BlankClass[];
+  /** `filler` declarations, in source order */
+  readonly fillers: readonly Filler[];
   readonly tokens: readonly TokenClass[];
   readonly nameSets: readonly NameSet[];
   /** `kinds F` declarations */

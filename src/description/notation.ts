@@ -26,10 +26,11 @@ export const NOTATION_SOURCE = String.raw`
 Twg {
   Description = GrammarDecl Decl* end
   GrammarDecl = grammarKw name
-  Decl = StartDecl | SpaceDecl | BlankDecl | TokenDecl | NamesDecl | KindsDecl | SortDecl
+  Decl = StartDecl | SpaceDecl | BlankDecl | FillerDecl | TokenDecl | NamesDecl | KindsDecl | SortDecl
   StartDecl = startKw name
   SpaceDecl = spaceKw string
   BlankDecl = blankKw name "=" string
+  FillerDecl = fillerKw regex
   TokenDecl = tokenKw name "=" regex asKw kindWord reservedKw? ExceptClause? KindClause?
   ExceptClause = exceptKw string+
   NamesDecl = namesKw name ofKw name InClause? WithClause?
@@ -94,6 +95,7 @@ Twg {
   reservedKw = "reserved" ~identPart
   exceptKw = "except" ~identPart
   blankKw = "blank" ~identPart
+  fillerKw = "filler" ~identPart
   sepKw = "sep" ~identPart
   newKw = "new" ~identPart
   boundKw = "bound" ~identPart
@@ -184,6 +186,9 @@ const ACTIONS: ohm.ActionDict<unknown> = {
   },
   BlankDecl(_kw: Node, n: Node, _eq: Node, s: Node): DeclAst {
     return { kind: 'blank', name: ident(n), value: str(s), span: spanOf(this as unknown as Node) };
+  },
+  FillerDecl(_kw: Node, re: Node): DeclAst {
+    return { kind: 'filler', regex: re.ast(), span: spanOf(this as unknown as Node) };
   },
   TokenDecl(_kw: Node, n: Node, _eq: Node, re: Node, _as: Node, kind: Node, reserved: Node, except: Node, family: Node): DeclAst {
     const f = opt(family);

@@ -28,6 +28,8 @@ export type DeclAst =
   | { readonly kind: 'space'; readonly value: StrLit; readonly span: Span }
   /** `blank Name = " \t"`: a named blank that layouts place (`Name`, `Name?`) */
   | { readonly kind: 'blank'; readonly name: Ident; readonly value: StrLit; readonly span: Span }
+  /** `filler /#[^\n]*\n/`: material that may stand between any two tokens and means nothing */
+  | { readonly kind: 'filler'; readonly regex: RegexLit; readonly span: Span }
   | {
       readonly kind: 'token';
       readonly name: Ident;

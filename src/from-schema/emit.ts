@@ -69,7 +69,7 @@ interface TokenOut {
   readonly comment: string;
 }
 
-const NOTATION_WORDS = new Set(['grammar', 'start', 'space', 'token', 'names', 'sort', 'parens', 'as', 'of', 'reserved', 'except', 'blank', 'sep', 'new', 'bound', 'infix', 'prefix', 'postfix', 'left', 'right', 'none', 'kind']);
+const NOTATION_WORDS = new Set(['grammar', 'start', 'space', 'token', 'names', 'sort', 'parens', 'as', 'of', 'reserved', 'except', 'blank', 'filler', 'sep', 'new', 'bound', 'infix', 'prefix', 'postfix', 'left', 'right', 'none', 'kind']);
 const JSON_NUMBER = '-?(?:0|[1-9][0-9]*)(?:\\.[0-9]+)?(?:[eE][+-]?[0-9]+)?';
 
 export interface EmitResult {

@@ -73,7 +73,7 @@ export function buildSemantics(info: GrammarInfo, og: ohm.Grammar, mixedEnds: Re
     else if ((m = /^F(\d+)_(\d+)$/.exec(name)) !== null) {
       const c = g.constructors[Number(m[1])]!;
       kinds.set(name, { k: 'field', c, f: c.fields[Number(m[2])]! });
-    } else if (/^(kw|tok|lex|nm|blk|G)\d+$/.test(name)) kinds.set(name, { k: 'leaf' });
+    } else if (/^(kw|tok|lex|nm|blk|fill|G)\d+$/.test(name)) kinds.set(name, { k: 'leaf' });
     else kinds.set(name, { k: 'pass' });
   }
   const build = (c: Constructor, operands: { left?: Wrapper; right?: Wrapper }, rest: Wrapper[], ctx: Ctx): Tree => {

@@ -24,7 +24,7 @@
 import type { BlankUse, Constructor, Field, Grammar, LayoutItem } from '../description/ir.ts';
 import { lastChars, setIntersect, setSize, WORD, isWordCode } from '../description/regex/index.ts';
 import { grammarInfo, type GrammarInfo } from './info.ts';
-import { lexPlaceholder } from './parse-lex.ts';
+import { fillPlaceholder, lexPlaceholder } from './parse-lex.ts';
 import { addLookaheads, app, emit, seq, type PE } from './parse-lookahead.ts';
 
 export interface Generated {
@@ -75,8 +75,10 @@ function generateOhm(info: GrammarInfo): Generated {
   const mixedEnds = new Set<string>();
 
   lexical.push(`wordc = "0".."9" | "A".."Z" | "_" | "a".."z"`);
-  const spaceChars = [...g.space].map((c) => charCode(c.codePointAt(0)!));
+  // filler (comments …) is skipped with the spaces; `fill<i>` is read by its DFA (parse-lex.ts)
+  const spaceChars = [...[...g.space].map((c) => charCode(c.codePointAt(0)!)), ...g.fillers.map((_, i) => `fill${i}`)];
   lexical.push(`space := ${spaceChars.length === 0 ? '~any any' : spaceChars.join(' | ')}`);
+  g.fillers.forEach((_, i) => lexical.push(`fill${i} = ${fillPlaceholder(i)}`));
 
   const isWord = isWordCode;
   g.keywords.forEach((k, i) => {

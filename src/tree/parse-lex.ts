@@ -74,7 +74,12 @@ class DfaTerminal extends Terminal {
   }
 }
 
-/** Replaces the body of every `lex<i>` rule of `og` with the DFA of token class i. */
+/** Placeholder body of rule `fill<i>` (filler i), replaced like `lex<i>`. */
+export function fillPlaceholder(i: number): string {
+  return `"\\u{E000}fill${i}"`;
+}
+
+/** Replaces the body of every `lex<i>` rule of `og` with the DFA of token class i, and of `fill<i>` with filler i's. */
 export function installLexers(og: ohm.Grammar, grammar: Grammar): void {
   const node = terminalNodeClass();
   const rules = og.rules as unknown as Record<string, { body: unknown }>;
@@ -82,5 +87,10 @@ export function installLexers(og: ohm.Grammar, grammar: Grammar): void {
     const rule = rules[`lex${i}`];
     if (rule === undefined) throw new Error(`generated grammar lacks lex${i}`);
     rule.body = new DfaTerminal(t.regex.dfa, node, t.name);
+  });
+  grammar.fillers.forEach((f, i) => {
+    const rule = rules[`fill${i}`];
+    if (rule === undefined) throw new Error(`generated grammar lacks fill${i}`);
+    rule.body = new DfaTerminal(f.regex.dfa, node, 'filler');
   });
 }

@@ -1,4 +1,5 @@
-// Blanks (`blank Ws = " \t"`, `Ws`, `Ws?`, separator blanks) and per-class exclusions (`except`):
+// Blanks (`blank Ws = " \t"`, `Ws`, `Ws?`, separator blanks), filler (`filler /#[^\n]*\n/`) and
+// per-class exclusions (`except`):
 // whole formatted diagnostics word for word, and what a valid description compiles to. The texts
 // were reviewed against the notation reference in README.md; `file:line:col` and the caret
 // excerpt are common practice for compilers (no source).
@@ -116,6 +117,40 @@ describe('blank and except diagnostics', () => {
   it("dup blank", () => {
     const text = "grammar g\nstart A\nspace \"\"\nblank N = \" \"\ntoken N = /[a-z]+/ as text\nsort A { a(x: N) = x; }\n";
     expect(report(text)).toBe("g.twg:5:7: error: token class `N` has the same name as the blank declared at 4:7\n5 | token N = /[a-z]+/ as text\n  |       ^\nhint: sorts, token classes, name sets, kind families and blanks share one namespace; rename one of them\n\ng.twg:6:15: error: field `x` has type `N`, which is a blank\n6 | sort A { a(x: N) = x; }\n  |               ^\nhint: a blank is not a value: place it in the layout (`l Ws r`) instead of declaring a field");
+    expect(compileDescription(text, 'g.twg').grammar).toBeNull();
+  });
+
+
+});
+
+describe('filler diagnostics', () => {
+  it("filler-not-closed", () => {
+    const text = "grammar g\nstart A\nspace \" \"\nfiller /#[^\\n]*/\ntoken N = /[a-z]+/ as text\nsort A { a(x: N) = x; }\n";
+    expect(report(text)).toBe("g.twg:4:1: error: filler matches \"#\" and also the longer \"# \": where it ends is not decided by its own text\n4 | filler /#[^\\n]*/\n  | ^~~~~~~~~~~~~~~~\nhint: end every match with a delimiter, e.g. `filler /#[^\\n]*\\n/` (a comment up to and including the line break)");
+    expect(compileDescription(text, 'g.twg').grammar).toBeNull();
+  });
+
+  it("filler-clash literal", () => {
+    const text = "grammar g\nstart A\nspace \" \"\nfiller /;/\ntoken N = /[a-z]+/ as text\nsort A { a(x: N+) = x sep \";\"; }\n";
+    expect(report(text)).toBe("g.twg:4:1: error: filler can begin with \";\", and so can the literal \";\"\n4 | filler /;/\n  | ^~~~~~~~~~\nhint: a filler must begin with a character nothing else of the grammar begins with (the parser skips filler before every token)");
+    expect(compileDescription(text, 'g.twg').grammar).toBeNull();
+  });
+
+  it("filler-clash token", () => {
+    const text = "grammar g\nstart A\nspace \" \"\nfiller /-[^\\n]*\\n/\ntoken N = /-?[0-9]+/ as int\nsort A { a(x: N) = x; }\n";
+    expect(report(text)).toBe("g.twg:4:1: error: filler can begin with \"-\", and so can token class `N`\n4 | filler /-[^\\n]*\\n/\n  | ^~~~~~~~~~~~~~~~~~\nhint: a filler must begin with a character nothing else of the grammar begins with (the parser skips filler before every token)");
+    expect(compileDescription(text, 'g.twg').grammar).toBeNull();
+  });
+
+  it("filler-clash space", () => {
+    const text = "grammar g\nstart A\nspace \" \"\nfiller / +x/\ntoken N = /[a-z]+/ as text\nsort A { a(x: N) = x; }\n";
+    expect(report(text)).toBe("g.twg:4:1: error: filler can begin with \" \", and so can the `space` characters\n4 | filler / +x/\n  | ^~~~~~~~~~~~\nhint: a filler must begin with a character nothing else of the grammar begins with (the parser skips filler before every token)");
+    expect(compileDescription(text, 'g.twg').grammar).toBeNull();
+  });
+
+  it("filler matches empty", () => {
+    const text = "grammar g\nstart A\nspace \" \"\nfiller /#*/\ntoken N = /[a-z]+/ as text\nsort A { a(x: N) = x; }\n";
+    expect(report(text)).toBe("g.twg:4:8: error: token class `filler` matches the empty string\n4 | filler /#*/\n  |        ^~~~\nhint: every lexeme must have at least one character: use `+` instead of `*`, or drop the `?`");
     expect(compileDescription(text, 'g.twg').grammar).toBeNull();
   });
 

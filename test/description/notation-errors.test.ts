@@ -19,14 +19,14 @@ const lines = (...ls: string[]) => ls.join('\n');
 
 describe('notation syntax errors', () => {
   it('the declaration keywords are read from the notation grammar', () => {
-    expect(declarationKeywords()).toEqual(['start', 'space', 'blank', 'token', 'names', 'kinds', 'sort']);
+    expect(declarationKeywords()).toEqual(['start', 'space', 'blank', 'filler', 'token', 'names', 'kinds', 'sort']);
   });
 
   it('not-a-declaration: a keyword with extra letters is reported as one word, with the closest keyword', () => {
     expect(report(HEAD + 'sortt A { a() = "x"; }\n')).toEqual({
       code: 'not-a-declaration',
       text: lines(
-        'g.twg:4:1: error: `sortt` is not a declaration; expected start, space, blank, token, names, kinds or sort',
+        'g.twg:4:1: error: `sortt` is not a declaration; expected start, space, blank, filler, token, names, kinds or sort',
         '4 | sortt A { a() = "x"; }',
         '  | ^~~~~',
         'hint: did you mean `sort`?',
@@ -37,7 +37,7 @@ describe('notation syntax errors', () => {
   it('not-a-declaration: a misspelt keyword', () => {
     expect(report(HEAD + 'srot A { a() = "x"; }\n').text).toBe(
       lines(
-        'g.twg:4:1: error: `srot` is not a declaration; expected start, space, blank, token, names, kinds or sort',
+        'g.twg:4:1: error: `srot` is not a declaration; expected start, space, blank, filler, token, names, kinds or sort',
         '4 | srot A { a() = "x"; }',
         '  | ^~~~',
         'hint: did you mean `sort`?',
@@ -49,7 +49,7 @@ describe('notation syntax errors', () => {
     expect(report(HEAD + 'sort A { a() = "x"; }\n}\n')).toEqual({
       code: 'not-a-declaration',
       text: lines(
-        'g.twg:5:1: error: `}` is not a declaration; expected start, space, blank, token, names, kinds or sort',
+        'g.twg:5:1: error: `}` is not a declaration; expected start, space, blank, filler, token, names, kinds or sort',
         '5 | }',
         '  | ^',
         'hint: every declaration after the `grammar` line begins with one of these words; see the reference section of README.md',

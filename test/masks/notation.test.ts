@@ -1,7 +1,7 @@
 /**
  * Masks on descriptions the notation was not built around: declared blanks (`blank Ws = " \t"`,
- * `Ws`, `Ws?`, separator blanks), per-class exclusions (`except`), a glued grammar (`space ""`)
- * and a tab-only one.
+ * `Ws`, `Ws?`, separator blanks), per-class exclusions (`except`), filler (`filler /#[^\n]*\n/`),
+ * a glued grammar (`space ""`) and a tab-only one.
  * - Exactness against the nearley oracle (test/masks/oracle.ts, a general Earley parser from npm,
  *   written separately from src/automaton): masks equal brute force on prefixes of sampled
  *   programs and of constrained walks (differential.ts).
@@ -52,6 +52,7 @@ sort Expr parens "(" ")" {
 const CASES: [string, () => Grammar][] = [
   ['picker (blanks as syntax, space "")', () => fromFile('picker')],
   ['rows (a line-break blank beside space " \\t")', () => fromFile('rows')],
+  ['notes (a comment to the end of a line and an insignificant comma, declared as filler)', () => fromFile('notes')],
   ['assign with space ""', () => compile(ASSIGN.replace('SPACE', '""'), 'assign-glued.twg')],
   ['assign with a tab-only space', () => compile(ASSIGN.replace('SPACE', '"\\t"'), 'assign-tab.twg')],
 ];

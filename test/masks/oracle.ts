@@ -124,6 +124,7 @@ export class NearleyOracle {
     const space = g.space;
     const keywords = new Set(g.keywords);
     this.rules.push({ name: '_', symbols: [] }, { name: '_', symbols: ['_', { test: (c) => space.includes(c), label: 'space' }] });
+    // filler (comments …) may stand wherever spaces may: `_` also takes whole filler matches
     const flatten = (d: any): string => (Array.isArray(d) ? d.map(flatten).join('') : d == null ? '' : String(d));
 
     // a rule for a regex (no first-char split), returns its name
@@ -186,6 +187,10 @@ export class NearleyOracle {
       }
       return r;
     };
+    for (const f of g.fillers) {
+      const rx = toRx(parseRegex(f.pattern, f.flags.includes('u') ? 'u' : '', {}), f.flags);
+      this.rules.push({ name: '_', symbols: ['_', rxRule(rx)] });
+    }
     const classRule = new Map<string, string>();
     for (const t of g.tokens) {
       const rx = toRx(parseRegex(t.pattern, t.flags.includes('u') ? 'u' : '', {}), t.flags);

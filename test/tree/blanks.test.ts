@@ -20,6 +20,7 @@ function load(name: string): Grammar {
 }
 
 const picker = load('picker');
+const notes = load('notes');
 const rows = load('rows');
 const unit = (tag: string, ...classes: string[]) => ({ kind: 'unit', tag, classes: classes.map((name) => ({ kind: 'cls', name })) });
 
@@ -72,8 +73,25 @@ describe('rows: a line break is syntax beside space " \\t"', () => {
   });
 });
 
+describe('notes: filler (comments to the end of a line, an insignificant comma)', () => {
+  const p = createParser(notes);
+  it('filler stands anywhere a space may and means nothing; the printer writes none', () => {
+    const plain = p.parse('picked 3 pears; moved pears to shed');
+    for (const t of ['# start\npicked 3 pears;# one\n moved pears to shed # end\n', 'picked, 3 ,pears;,moved pears,to shed,', ',,#a,b\n,picked 3 pears ; moved pears to shed']) {
+      expect(p.parse(t), t).toEqual(plain);
+    }
+    expect(printTree(notes, plain)).toBe('picked 3 pears ; moved pears to shed');
+  });
+  it('a filler ends by its own text: a comment without its line break is not a comment', () => {
+    expect(() => p.parse('picked 3 pears # no line break')).toThrow('<input>:1:16: expected ";" or end of input');
+  });
+  it('filler does not split a token', () => {
+    expect(() => p.parse('pick,ed 3 pears')).toThrow('<input>:1:1:');
+  });
+});
+
 describe('every sampled program prints to text that parses back', () => {
-  for (const [name, g] of [['picker', picker], ['rows', rows]] as const) {
+  for (const [name, g] of [['picker', picker], ['rows', rows], ['notes', notes]] as const) {
     it(name, () => {
       const parser = createParser(g);
       const sampler = createSampler(g, { seed: 41, maxDepth: 5 });
