@@ -53,12 +53,15 @@ export interface SampleOptions {
    * Programs a person would write (default false: uniform, for property tests that want odd
    * values): leaf constructors are rare at the root and grow likelier with depth, optional parts
    * and extra list elements are rarer, numbers are small or round, text values are plain words,
-   * new variables are named x, y, z … (in the spelling the token class allows). Same contract:
+   * new variables are named x, y, z … (in the spelling the token class allows) and, once in scope,
+   * used more often than names (constructors with a `bound` field weigh 4×). Same contract:
    * well-typed, within maxDepth, weights respected, reproducible from the seed.
    */
   readonly plausible?: boolean;
 }
 
+/** Plausible draws: how much likelier a constructor that uses a variable in scope is. */
+const VARIABLE_USE = 4;
 /** Variable letters in the order people use them. */
 const VARIABLE_LETTERS = ['x', 'y', 'z', 'w', 'v', 'u', 't', 's'];
 /** Prefixes a variable class may require (`$x`, `?x`, …), tried in this order. */
@@ -139,11 +142,14 @@ export function createSampler(grammar: Grammar, opts: SampleOptions): Sampler {
     // field of a sort (leaves) weigh 1/100 at the root, 1/2 one level down; the others halve per
     // level below the second
     const level = maxDepth - budget + 1;
+    // plausible, too: once a variable is in scope, the constructors that use one (a `bound` field)
+    // weigh VARIABLE_USE times more, so a binder's body mostly speaks about its variable
     const shaped = (c: Constructor): number => {
       if (!plausible) return weight(c);
       const leaf = !c.fields.some((f) => f.type.kind === 'sort');
       const factor = leaf ? (level === 1 ? 0.01 : level === 2 ? 0.5 : 1) : level <= 2 ? 1 : 0.5 ** (level - 2);
-      return weight(c) * factor;
+      const uses = h && c.fields.some((f) => f.scoping === 'bound') ? VARIABLE_USE : 1;
+      return weight(c) * factor * uses;
     };
     let chosen: Constructor;
     if (eligible.length === 0) {

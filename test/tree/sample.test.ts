@@ -141,6 +141,31 @@ describe('plausible sampling (treewright sample\'s default)', () => {
     expect(count(true)).toBeLessThan(45);
     expect(count(false)).toBeGreaterThan(150);
   });
+  it('lf: inside a binder, terms are mostly its variables (uniform: half of them at most)', () => {
+    // count Term nodes (var or const) below a binder: plausible draws use the variable in scope
+    const share = (plausible: boolean) => {
+      const s = createSampler(grammar('lf'), { seed: 5, maxDepth: 5, plausible });
+      let vars = 0;
+      let terms = 0;
+      const walk = (v: TreeValue, inside: boolean) => {
+        if (Array.isArray(v)) v.forEach((x) => walk(x, inside));
+        else if (v !== null && typeof v === 'object') {
+          const t = v as Tree;
+          if (inside && (t.kind === 'var' || t.kind === 'const')) {
+            terms++;
+            if (t.kind === 'var') vars++;
+          }
+          const binds = typeof t.var === 'string';
+          for (const [k, x] of Object.entries(t)) if (k !== 'kind') walk(x as TreeValue, inside || binds);
+        }
+      };
+      for (let i = 0; i < 300; i++) walk(s.next(), false);
+      expect(terms).toBeGreaterThan(50);
+      return vars / terms;
+    };
+    expect(share(true)).toBeGreaterThan(0.7);
+    expect(share(false)).toBeLessThan(0.6);
+  });
   it('lf: variables are $x, $y, $z … in binding order; numbers are small or round', () => {
     const s = createSampler(grammar('lf'), { seed: 2, maxDepth: 5, plausible: true });
     const vars = new Set<string>();
