@@ -80,6 +80,12 @@ export interface Rtn {
   readonly nodeField: Int32Array;
   /** per nonterminal: the constructor whose layout it is, or -1 (sorts, precedence levels) */
   readonly ntCtor: Int32Array;
+  /**
+   * per node: the sort-typed field whose value the call edge into this node reads (the node is
+   * the call's return node, created for that edge alone), encoded as in `nodeField`, or -1
+   * (operator operands, nodes no such call edge enters)
+   */
+  readonly callField: Int32Array;
 }
 
 /** Fields per constructor in `Rtn.nodeField`'s encoding. */
@@ -115,6 +121,7 @@ class Builder {
   termKey = new Map<string, number>();
   curNt = -1;
   nodeField = new Map<number, number>();
+  callField = new Map<number, number>();
   ntCtor = new Map<number, number>();
 
   node(): number {
@@ -270,7 +277,7 @@ export function buildRtn(g: Grammar, dfas?: readonly ByteDfa[]): Rtn {
     const op = operands.get(f.name);
     const make = () => {
       const frag = symbol(f, op);
-      if (f.type.kind !== 'sort' && op === undefined) b.nodeField.set(frag.e, c.index * FIELD_STRIDE + f.index);
+      if (op === undefined) (f.type.kind === 'sort' ? b.callField : b.nodeField).set(frag.e, c.index * FIELD_STRIDE + f.index);
       return frag;
     };
     const blank = (u: BlankUse | null | undefined): Frag[] =>
@@ -360,6 +367,8 @@ export function buildRtn(g: Grammar, dfas?: readonly ByteDfa[]): Rtn {
   }
   const nodeField = new Int32Array(nodeCount).fill(-1);
   for (const [n, f] of b.nodeField) nodeField[n] = f;
+  const callField = new Int32Array(nodeCount).fill(-1);
+  for (const [n, f] of b.callField) callField[n] = f;
   const ntCtor = new Int32Array(b.nts.length).fill(-1);
   for (const [nt, c] of b.ntCtor) ntCtor[nt] = c;
   if (!sortByName.has(g.start)) throw new AutomatonError(`${g.file}: error: start sort ${g.start} is not a sort`);
@@ -375,6 +384,7 @@ export function buildRtn(g: Grammar, dfas?: readonly ByteDfa[]): Rtn {
     space,
     nodeField,
     ntCtor,
+    callField,
   };
 }
 

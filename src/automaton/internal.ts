@@ -16,4 +16,5 @@ export {
 } from './pda.ts';
 export type { Rtn, Terminal, TerminalKind } from './cfg.ts';
 export { ALLOWED, LIVE, type Res } from './scopes.ts';
+export type { Kin } from './kinds.ts';
 export type { ByteDfa } from './regex.ts';

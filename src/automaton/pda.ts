@@ -26,6 +26,7 @@ import type { Grammar, NameBindings } from '../description/ir.ts';
 import { AutomatonError, buildRtn, closures, EDGE_EPS, EDGE_TERM, type Option, type Rtn } from './cfg.ts';
 import { runDfa, type ByteDfa, type NamesDfa } from './regex.ts';
 import { ALLOWED, LIVE, ROLE_NONE, ScopeBinding, ScopePlan, type OptionInfo, type Res } from './scopes.ts';
+import { KindBinding, KindPlan, type Kin, type KindOption } from './kinds.ts';
 
 export const INF = 0x3fffffff;
 
@@ -40,9 +41,11 @@ export class Env {
     readonly name: string, // lexeme bytes as a latin1 string
     readonly next: Env | null,
     readonly minLen: number,
+    /** the variable's kind class in the thread's Kin (kinds.ts), -1 without kinds */
+    readonly kv = -1,
   ) {}
-  static add(env: Env | null, name: string): Env {
-    return new Env(name, env, env === null ? name.length : Math.min(env.minLen, name.length));
+  static add(env: Env | null, name: string, kv = -1): Env {
+    return new Env(name, env, env === null ? name.length : Math.min(env.minLen, name.length), kv);
   }
 }
 
@@ -77,6 +80,8 @@ export class Thread {
     readonly env: Env | null,
     /** the name scopes (scopes.ts); null when the grammar has none */
     readonly res: Res | null = null,
+    /** the kinds (kinds.ts); null when the grammar has none enforced */
+    readonly kin: Kin | null = null,
   ) {}
 }
 
@@ -137,6 +142,8 @@ export class Automaton {
    * query's FROM/JOIN list) — so kept masks leave it to the live walk (masks/kept.ts)
    */
   readonly optSensitive: Uint8Array;
+  /** kinds: record layouts and clause pairs per constructor (`kinds.active` false: none enforced) */
+  readonly kinds: KindPlan;
 
   /** `dfas`: precompiled class DFAs (by class index), e.g. from the mask cache. */
   constructor(readonly grammar: Grammar, dfas?: readonly ByteDfa[]) {
@@ -156,6 +163,7 @@ export class Automaton {
     this.optPush = all.map((o) => o.push);
     this.startNode = this.rtn.nts[this.rtn.startNt].start;
     this.scopes = new ScopePlan(grammar, this.rtn);
+    this.kinds = new KindPlan(grammar, this.rtn, this.scopes.role);
     const nodeNt = this.rtn.nodeNt;
     this.optOpens = this.optPush.map((push, o) => {
       if (!this.scopes.active) return null;
@@ -341,6 +349,8 @@ export class AutomatonInstance {
   readonly start: PdaState;
   /** name scopes under this binding; null when the grammar has none */
   readonly scopes: ScopeBinding | null;
+  /** kinds under this binding; null when the grammar has none enforced */
+  readonly kinds: KindBinding | null;
   /** scratch for window computations (two numbers) */
   private readonly win = new Int32Array(2);
 
@@ -401,6 +411,25 @@ export class AutomatonInstance {
         const longest = d.longest;
         const word = d.longestWord;
         termCost[term.index] = longest + (word ? 1 : 0);
+      }
+    }
+    // names whose members carry kinds count their longest member too: which member agrees with
+    // the kinds read so far is known only at run time (docs/design/scopes-and-kinds.md)
+    if (automaton.kinds.active) {
+      for (const t of rtn.terminals) {
+        if (t.kind !== 'names' || g.nameSets[t.nameSet].slots.length === 0) continue;
+        const members = names[g.nameSets[t.nameSet].name];
+        if (members === undefined || members.length === 0) continue;
+        let longest = 0;
+        let word = false;
+        for (const m of members) {
+          const b = utf8.encode(m);
+          if (b.length > longest) {
+            longest = b.length;
+            word = WORD[b[0]] === 1;
+          }
+        }
+        termCost[t.index] = Math.max(termCost[t.index], longest + (word ? 1 : 0));
       }
     }
     this.termCost = termCost;
@@ -512,7 +541,12 @@ export class AutomatonInstance {
       throw new BindError(`names: no program of grammar ${g.name} can be written with the bound names (${g.nameSets.map((s) => `${s.name}: ${names[s.name]?.length ?? 0}`).join(', ')}); expected non-empty name sets where the start sort needs them`);
     }
     this.scopes = automaton.scopes.active ? new ScopeBinding(automaton.scopes, names, sets, dist0, termCost) : null;
-    this.start = { threads: [new Thread(automaton.startNode, -1, 0, '', null, null, this.scopes === null ? null : this.scopes.root)], prevWord: false, prev: null };
+    this.kinds = automaton.kinds.active ? new KindBinding(automaton.kinds, rtn.nodeNt, names, sets) : null;
+    this.start = {
+      threads: [new Thread(automaton.startNode, -1, 0, '', null, null, this.scopes === null ? null : this.scopes.root, this.kinds === null ? null : this.kinds.root)],
+      prevWord: false,
+      prev: null,
+    };
   }
 
   /** The scope state for a return level on `frames` of a thread whose state is `res` (null: a scope cannot close). */
@@ -562,6 +596,43 @@ export class AutomatonInstance {
     const info: OptionInfo = { frames, res: r, filter, far, pen };
     lr.options.set(o, info);
     return info;
+  }
+
+  /**
+   * What starting option `o` from a level on `frames` in kind state `k` means for kinds: the Kin
+   * after its calls and entries (null: a clause could no longer hold) and, when its terminal is a
+   * constrained names field, the member filter and nearest allowed completions. Memoised on `k`.
+   */
+  kinOption(o: number, k: Kin, frames: Frame | null, env: Env | null): KindOption {
+    const base = frames === null ? 0 : frames.depth;
+    const key = o * 4096 + base;
+    if (base < 4096) {
+      if (k.opts === null) k.opts = new Map();
+      const hit = k.opts.get(key);
+      if (hit !== undefined && hit.env === env) return hit;
+    }
+    const a = this.automaton;
+    const push = a.optPush[o];
+    const target = a.optTarget[o];
+    const kin = this.kinds!.afterOption(k, push, target, base);
+    let filter: Uint8Array | null = null;
+    let far: Int32Array | null = null;
+    if (kin !== null && a.rtn.terminals[a.optTerm[o]].kind === 'names') {
+      const f = this.kinds!.filter(kin, target, base + push.length, env);
+      if (f !== null) {
+        filter = f.bits;
+        far = f.far;
+      }
+    }
+    const info: KindOption = { kin, filter, far, env };
+    if (base < 4096) k.opts!.set(key, info);
+    return info;
+  }
+
+  /** The kind filter of the names terminal into `node` for a thread (null: none). */
+  kinFilter(node: number, k: Kin | null, frames: Frame | null, env: Env | null): { readonly bits: Uint8Array; readonly far: Int32Array } | null {
+    if (k === null) return null;
+    return this.kinds!.filter(k, node, frames === null ? 0 : frames.depth, env);
   }
 
   /** `roleFar` for the position option `o` reaches from a level on `frames` (builds no frames). */
@@ -625,16 +696,25 @@ export class AutomatonInstance {
           r = this.optionRes(o, r, frames);
           if (r === null) continue;
         }
+        let kin = this.stepKin;
+        if (kin !== null) {
+          const ki = this.kinOption(o, kin, frames, env);
+          if (ki.kin === null || (ki.filter !== null && (ki.filter[s] & LIVE) === 0)) continue;
+          kin = ki.kin;
+        }
         const pushed = this.pushFrames(o, frames, env);
         const target = a.optTarget[o];
         const filter = this.roleFilter(target, r, pushed);
         if (filter !== null && (filter[s] & LIVE) === 0) continue;
-        out.push(new Thread(target, term, s, text, pushed, env, r));
+        if (kin !== null && t.kind === 'boundvar' && !this.boundFits(env, text, kin, target, pushed, false)) continue;
+        out.push(new Thread(target, term, s, text, pushed, env, r, kin));
       }
     },
   };
   /** the scope state of the thread `optionStarter` is stepping */
   private stepRes: Res | null = null;
+  /** the kind state of that thread */
+  private stepKin: Kin | null = null;
 
   private readonly dispatchCache: (Dispatch | undefined)[] = [];
   private readonly classCache: (Int32Array | undefined)[] = [];
@@ -727,8 +807,11 @@ export class AutomatonInstance {
     const t = this.automaton.rtn.terminals[th.term];
     let lexRest: number;
     const env = th.env;
-    if (t.kind === 'boundvar') lexRest = boundRest(th.env, th.text);
-    else {
+    if (t.kind === 'boundvar') lexRest = th.kin !== null ? this.boundRestKinds(th) : boundRest(th.env, th.text);
+    else if (t.kind === 'names' && th.kin !== null) {
+      const kf = this.kinFilter(th.node, th.kin, th.frames, th.env);
+      lexRest = kf !== null ? kf.far[th.lex] : this.termDfa[th.term].minAccept[th.lex];
+    } else {
       lexRest = this.termDfa[th.term].minAccept[th.lex];
       if (t.kind === 'newvar') {
         // the lexeme ends after lexRest more bytes and brings a variable of that length into
@@ -738,7 +821,18 @@ export class AutomatonInstance {
         return lexRest + this.scopedDist(th.node, env === null ? len : Math.min(env.minLen, len)) + rest;
       }
     }
-    return lexRest + this.betweenDist(th.node, env, th.frames);
+    return lexRest >= INF ? INF : lexRest + this.betweenDist(th.node, env, th.frames);
+  }
+
+  /** `boundRest` counting only the variables whose kind agrees with the field (no allocation). */
+  private boundRestKinds(th: Thread): number {
+    let best = INF;
+    const depth = th.frames === null ? 0 : th.frames.depth;
+    for (let e = th.env; e !== null; e = e.next) {
+      if (!e.name.startsWith(th.text) || shadowed(th.env, e)) continue;
+      if (e.name.length - th.text.length < best && this.kinds!.varFits(th.kin!, th.node, depth, e.kv)) best = e.name.length - th.text.length;
+    }
+    return best;
   }
 
   /**
@@ -833,6 +927,7 @@ export class AutomatonInstance {
       }
       if (prevWord && WORD[b]) return;
       this.stepRes = th.res;
+      this.stepKin = th.kin;
       a.forEachLevel(this.optionStarter, out, b, th.node, th.frames, th.env, null);
       return;
     }
@@ -847,7 +942,8 @@ export class AutomatonInstance {
     let next = 0;
     switch (t.kind) {
       case 'boundvar':
-        next = boundHasPrefix(th.env, th.text + String.fromCharCode(b)) ? 1 : 0;
+        if (th.kin !== null) next = this.boundFits(th.env, th.text + String.fromCharCode(b), th.kin, th.node, th.frames, false) ? 1 : 0;
+        else next = boundHasPrefix(th.env, th.text + String.fromCharCode(b)) ? 1 : 0;
         break;
       default:
         next = this.termDfa[th.term].trans[th.lex * 256 + b];
@@ -857,13 +953,53 @@ export class AutomatonInstance {
       const filter = this.roleFilter(th.node, th.res, th.frames);
       if (filter !== null && (filter[next] & LIVE) === 0) return null;
     }
+    if (th.kin !== null && t.kind === 'names') {
+      const kf = this.kinFilter(th.node, th.kin, th.frames, th.env);
+      if (kf !== null && (kf.bits[next] & LIVE) === 0) return null;
+    }
     const text = t.kind === 'newvar' || t.kind === 'boundvar' ? th.text + String.fromCharCode(b) : '';
-    return new Thread(th.node, th.term, next, text, th.frames, th.env, th.res);
+    return new Thread(th.node, th.term, next, text, th.frames, th.env, th.res, th.kin);
   }
 
   /** The BETWEEN thread after the lexeme of LEX thread `th` ends here. */
   endLexeme(th: Thread): Thread {
-    return new Thread(th.node, -1, 0, '', th.frames, this.envAfterLexeme(th), this.resAfterLexeme(th));
+    return new Thread(th.node, -1, 0, '', th.frames, this.envAfterLexeme(th), this.resAfterLexeme(th), this.kinAfterLexeme(th));
+  }
+
+  /**
+   * The kind state once the lexeme of LEX thread `th` ends here: a names member or a variable is
+   * united with its clause partners (call only when lexAccepting(th): then it is never null).
+   */
+  kinAfterLexeme(th: Thread): Kin | null {
+    const k = th.kin;
+    if (k === null) return null;
+    const t = this.automaton.rtn.terminals[th.term];
+    const depth = th.frames === null ? 0 : th.frames.depth;
+    switch (t.kind) {
+      case 'names':
+        return this.kinds!.afterName(k, th.node, depth, this.kinds!.memberAt(th.node, th.lex));
+      case 'newvar':
+        return this.kinds!.afterNewVar(k, th.node, depth, t.tokenClass);
+      case 'boundvar':
+        return this.kinds!.afterBoundVar(k, th.node, depth, boundClass(th.env, th.text));
+      default:
+        return k;
+    }
+  }
+
+  /**
+   * Is there a variable in scope, spelled `text` (`whole`) or starting with it, that is not shadowed
+   * and whose kind agrees with the `bound` field into `node`? No allocation.
+   */
+  boundFits(env: Env | null, text: string, k: Kin, node: number, frames: Frame | null, whole: boolean): boolean {
+    const depth = frames === null ? 0 : frames.depth;
+    const kinds = this.kinds!;
+    for (let e = env; e !== null; e = e.next) {
+      if (whole ? e.name !== text : !e.name.startsWith(text)) continue;
+      if (shadowed(env, e)) continue;
+      if (kinds.varFits(k, node, depth, e.kv)) return true;
+    }
+    return false;
   }
 
   /** The scope state once the lexeme of LEX thread `th` ends here (a role name updates it). */
@@ -876,14 +1012,21 @@ export class AutomatonInstance {
 
   /** The variables in scope once the lexeme of LEX thread `th` ends here (a `new` field adds one). */
   envAfterLexeme(th: Thread): Env | null {
-    return this.automaton.rtn.terminals[th.term].kind === 'newvar' ? Env.add(th.env, th.text) : th.env;
+    if (this.automaton.rtn.terminals[th.term].kind !== 'newvar') return th.env;
+    // with kinds the variable's class is the next one the Kin creates (KindBinding.afterNewVar)
+    const kv = th.kin !== null && this.automaton.kinds.tokenFam[this.automaton.rtn.terminals[th.term].tokenClass] >= 0 ? th.kin.size : -1;
+    return Env.add(th.env, th.text, kv);
   }
 
   /** True when the lexeme of LEX thread `th` may end here. */
   lexAccepting(th: Thread): boolean {
     const t = this.automaton.rtn.terminals[th.term];
-    if (t.kind === 'boundvar') return boundHas(th.env, th.text);
+    if (t.kind === 'boundvar') return th.kin !== null ? this.boundFits(th.env, th.text, th.kin, th.node, th.frames, true) : boundHas(th.env, th.text);
     if (this.termDfa[th.term].accept[th.lex] !== 1) return false;
+    if (th.kin !== null && t.kind === 'names') {
+      const kf = this.kinFilter(th.node, th.kin, th.frames, th.env);
+      if (kf !== null && (kf.bits[th.lex] & ALLOWED) === 0) return false;
+    }
     if (th.res === null) return true;
     const filter = this.roleFilter(th.node, th.res, th.frames);
     return filter === null || (filter[th.lex] & ALLOWED) !== 0;
@@ -943,7 +1086,7 @@ function dedupe(threads: Thread[]): Thread[] {
   const out: Thread[] = [];
   outer: for (const t of threads) {
     for (const u of out) {
-      if (u === t || (u.node === t.node && u.term === t.term && u.lex === t.lex && u.text === t.text && u.frames === t.frames && u.env === t.env && u.res === t.res)) continue outer;
+      if (u === t || (u.node === t.node && u.term === t.term && u.lex === t.lex && u.text === t.text && u.frames === t.frames && u.env === t.env && u.res === t.res && u.kin === t.kin)) continue outer;
     }
     out.push(t);
   }
@@ -959,6 +1102,18 @@ export function boundHasPrefix(env: Env | null, prefix: string): boolean {
 export function boundHas(env: Env | null, name: string): boolean {
   for (let e = env; e !== null; e = e.next) if (e.name === name) return true;
   return false;
+}
+
+/** Is variable entry `e` hidden by an inner entry of the same name? */
+function shadowed(env: Env | null, e: Env): boolean {
+  for (let x = env; x !== null && x !== e; x = x.next) if (x.name === e.name) return true;
+  return false;
+}
+
+/** The kind class of the innermost variable spelled `name` (-1 none). */
+function boundClass(env: Env | null, name: string): number {
+  for (let e = env; e !== null; e = e.next) if (e.name === name) return e.kv;
+  return -1;
 }
 
 function boundRest(env: Env | null, prefix: string): number {

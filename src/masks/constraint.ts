@@ -64,7 +64,8 @@ export class MaskConstraint implements TokenConstraint<MaskState> {
     const variables = pda.automaton.rtn.terminals.some((t) => t.kind === 'newvar' || t.kind === 'boundvar');
     // name scopes: kept masks leave out the options whose effect depends on the scope state and
     // the walk takes them live (kept.ts, docs/design/scope-masks.md)
-    this.kept = variables ? null : new KeptMasks(this.walker, frameMasks);
+    // kinds: kept masks know no kind state, so a grammar whose kinds are enforced walks live
+    this.kept = variables || pda.kinds !== null ? null : new KeptMasks(this.walker, frameMasks);
     this.walker.kept = this.kept;
     this.live = new WalkContext(tables, true);
   }

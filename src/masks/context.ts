@@ -10,7 +10,7 @@
  *   nodes where SENTINEL was popped, and never uses kept masks itself — so kept-mask computations
  *   never nest, and starting one in the middle of a live walk leaves the live context untouched.
  */
-import { INF, type Res, type Thread } from '../automaton/internal.ts';
+import { INF, type Kin, type Res, type Thread } from '../automaton/internal.ts';
 import type { VocabTables } from './vocab-tables.ts';
 
 const NO_MASK: Uint32Array<ArrayBufferLike> = new Uint32Array(0);
@@ -47,6 +47,8 @@ export class WalkContext {
    * set per thread, replaced while a walk continues inside an option that changes it, restored after
    */
   res: Res | null = null;
+  /** the kind state of the position being walked (automaton/kinds.ts; null without kinds), like `res` */
+  kin: Kin | null = null;
   /**
    * Scope-sensitive options (Automaton.optSensitive) in kept masks: 0 no deferral; 1 (keep
    * context) skip them — at the kept position's own level the live walk takes them, at a level
@@ -122,6 +124,7 @@ export class WalkContext {
     this.mask = NO_MASK;
     this.collect = null;
     this.res = null;
+    this.kin = null;
   }
 
   /** Records that the walk popped the stand-in frame at trie node x (kept-mask computations only). */

@@ -85,6 +85,7 @@ export class TrieWalker implements LevelVisitor<WalkContext> {
   maskThread(ctx: WalkContext, th: Thread): void {
     const pda = this.pda;
     ctx.res = th.res;
+    ctx.kin = th.kin;
     if (th.term < 0) {
       this.maskBetween(ctx, th.node, th.frames, th.env);
       return;
@@ -106,12 +107,22 @@ export class TrieWalker implements LevelVisitor<WalkContext> {
     // continuing the lexeme is a (short) walk.
     if (pda.lexAccepting(th)) {
       ctx.res = pda.resAfterLexeme(th);
+      ctx.kin = pda.kinAfterLexeme(th);
       this.maskBetween(ctx, th.node, th.frames, pda.envAfterLexeme(th));
       ctx.res = th.res;
+      ctx.kin = th.kin;
     }
     if (t.kind === 'lit' || t.kind === 'names') {
-      const filter = t.kind === 'names' ? pda.roleFilter(th.node, th.res, th.frames) : null;
-      const far = filter === null ? null : pda.roleFar(th.node, th.res, th.frames);
+      let filter = t.kind === 'names' ? pda.roleFilter(th.node, th.res, th.frames) : null;
+      let far = filter === null ? null : pda.roleFar(th.node, th.res, th.frames);
+      if (filter === null && t.kind === 'names' && th.kin !== null) {
+        // kinds: a role filter and a kind filter never meet on one field (KindPlan refuses it)
+        const kf = pda.kinFilter(th.node, th.kin, th.frames, th.env);
+        if (kf !== null) {
+          filter = kf.bits;
+          far = kf.far;
+        }
+      }
       const rest = pda.betweenDist(th.node, th.env, th.frames) + (far === null ? pda.penaltyAt(th.res, th.node, th.frames) : 0);
       this.walkLex(ctx, 0, th.term, th.node, -1, th.frames, th.env, th.lex, rest, filter, far);
       return;
@@ -301,6 +312,7 @@ export class TrieWalker implements LevelVisitor<WalkContext> {
       const pw = ctx.rootPrevWord;
       const cls = pda.classOptions(node, mode);
       const lr = ctx.res;
+      const lk = ctx.kin;
       const origin = ctx.origin;
       for (let i = 0; i < cls.length; i++) {
         const o = cls[i];
@@ -311,6 +323,14 @@ export class TrieWalker implements LevelVisitor<WalkContext> {
           if (info.res === null) continue;
           ctx.res = info.res;
           pen = info.pen;
+        }
+        if (lk !== null) {
+          const ki = pda.kinOption(o, lk, frames, env);
+          if (ki.kin === null) {
+            ctx.res = lr;
+            continue;
+          }
+          ctx.kin = ki.kin;
         }
         const cur = ctx.curOrigin;
         if (origin) ctx.curOrigin = o;
@@ -330,6 +350,7 @@ export class TrieWalker implements LevelVisitor<WalkContext> {
           this.walkBetween(ctx, ex[j], target, pushed, env);
         }
         ctx.res = lr;
+        ctx.kin = lk;
         ctx.origin = origin;
         ctx.curOrigin = cur;
       }
@@ -376,6 +397,7 @@ export class TrieWalker implements LevelVisitor<WalkContext> {
     const a = this.a;
     const end = this.end;
     const lr = ctx.res;
+    const lk = ctx.kin;
     const origin = ctx.origin;
     for (let k = d.off[i]; k < d.off[i + 1]; k++) {
       const o = d.opts[k];
@@ -397,6 +419,19 @@ export class TrieWalker implements LevelVisitor<WalkContext> {
         pen = info.pen;
         ctx.res = info.res;
       }
+      if (lk !== null) {
+        const ki = pda.kinOption(o, lk, frames, env);
+        if (ki.kin === null || (ki.filter !== null && (ki.filter[s] & LIVE) === 0)) {
+          ctx.res = lr;
+          continue;
+        }
+        // a role filter and a kind filter never meet on one field (KindPlan refuses it)
+        if (ki.filter !== null) {
+          filter = ki.filter;
+          far = ki.far;
+        }
+        ctx.kin = ki.kin;
+      }
       const cur = ctx.curOrigin;
       if (origin) ctx.curOrigin = o;
       ctx.origin = false;
@@ -405,11 +440,12 @@ export class TrieWalker implements LevelVisitor<WalkContext> {
         ctx.markNode(c, (far === null ? pda.termDfa[term].minAccept[s] : far[s]) + rest);
         if (end[c] > c + 1) this.walkLex(ctx, c, term, target, o, frames, env, s, rest, filter, far);
       } else {
-        const nt = new Thread(target, term, s, String.fromCharCode(b), pda.pushFrames(o, frames, env), env, ctx.res);
+        const nt = new Thread(target, term, s, String.fromCharCode(b), pda.pushFrames(o, frames, env), env, ctx.res, ctx.kin);
         ctx.markNode(c, pda.threadDist(nt, WORD[b] === 1));
         if (end[c] > c + 1) this.walkGeneric(ctx, c, nt);
       }
       ctx.res = lr;
+      ctx.kin = lk;
       ctx.origin = origin;
       ctx.curOrigin = cur;
     }
@@ -452,15 +488,19 @@ export class TrieWalker implements LevelVisitor<WalkContext> {
 
   /** The lexeme of a lit/names terminal ends inside the token at trie node x (state s): the walk goes on below x. */
   private lexEndsInside(ctx: WalkContext, x: number, node: number, o: number, frames: Frame | null, env: Env | null, s: number, filter: Uint8Array | null): void {
-    if (filter === null) this.walkBetween(ctx, x, node, o < 0 ? frames : this.pda.pushFrames(o, frames, env), env);
-    else if ((filter[s] & ALLOWED) !== 0) {
-      // a name ends inside the token: the walk below goes on with the scope state after it
-      const r = ctx.res!;
+    if (filter !== null && (filter[s] & ALLOWED) === 0) return;
+    // a name ends inside the token: the walk below goes on with the scope and kind states after it
+    const r = ctx.res;
+    const k = ctx.kin;
+    if (r !== null && filter !== null && this.a.scopes.role[node] !== 0) {
       const set = this.a.scopes.roleSet[node];
       ctx.res = this.pda.scopes!.afterLexeme(r, node, this.pda.scopes!.member(set, s));
-      this.walkBetween(ctx, x, node, o < 0 ? frames : this.pda.pushFrames(o, frames, env), env);
-      ctx.res = r;
     }
+    const pushed = o < 0 ? frames : this.pda.pushFrames(o, frames, env);
+    if (k !== null && this.a.kinds.nodeSet[node] >= 0) ctx.kin = this.pda.kinds!.afterName(k, node, pushed === null ? 0 : pushed.depth, this.pda.kinds!.memberAt(node, s));
+    if (ctx.kin !== null || k === null) this.walkBetween(ctx, x, node, pushed, env);
+    ctx.res = r;
+    ctx.kin = k;
   }
 
   /**

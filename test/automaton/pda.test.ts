@@ -129,7 +129,9 @@ describe('variable scoping (lf `new` / `bound`)', () => {
     expect(b.viable(run(b, 'lambda $x. orchard($y'))).toBe(false);
     expect(b.viable(run(b, 'lambda $x. orchard($x1'))).toBe(false);
     expect(b.viable(run(b, 'lambda $x1. orchard($x'))).toBe(true); // prefix of $x1
-    expect(b.isComplete(run(b, 'lambda $x. exists $y. (owns($x, $y)) & orchard($x)'))).toBe(true);
+    // (owns relates a grower to an orchard in the fact base: $x is a grower, so `orchard($x)` would be a kind clash)
+    expect(b.isComplete(run(b, 'lambda $x. exists $y. (owns($x, $y)) & grower($x)'))).toBe(true);
+    expect(b.viable(run(b, 'lambda $x. exists $y. (owns($x, $y)) & orchard($x'))).toBe(false);
     // $y is out of scope after the exists body closes
     expect(b.viable(run(b, 'lambda $x. exists $y. (owns($x, $y)) & orchard($y'))).toBe(false);
     expect(b.viable(run(b, 'value: hectares($'))).toBe(false);

@@ -47,10 +47,8 @@ describe('treewright generate', () => {
     const b = JSON.parse((await run([...BASE, '--beam', '3', '--max-tokens', '40', '--json', 'lf: which growers grow elstar?'])).out);
     expect(b).toMatchObject({ strategy: 'beam', well_typed: true });
     const s = JSON.parse((await run([...BASE, '--sample', '--temperature', '0.8', '--seed', '7', '--max-tokens', '40', '--json', 'lf: which growers grow elstar?'])).out);
-    // the masks do not enforce LF kinds yet (README, "What the guarantee covers"): a sampled output
-    // is a program, and a kind clash is the one well-typedness failure it may have
-    expect(s).toMatchObject({ strategy: 'sample', valid: true });
-    if (!s.well_typed) expect(s.parse_error).toMatch(/kinds disagree/);
+    // the masks enforce LF kinds: a sampled output is a well-kinded program
+    expect(s).toMatchObject({ strategy: 'sample', valid: true, well_typed: true });
     const u = await run([...BASE, '--unconstrained', '--max-tokens', '10', 'lf: which growers grow elstar?']);
     expect(u.code).toBe(2);
     expect(u.err).toMatch(/^valid: no · well_typed: no · \d+ tokens \((eos|length)\) · model [\d.]+ ms · mask 0\.0 ms · total [\d.]+ ms\n<output>:1:\d+: /);

@@ -33,11 +33,10 @@ describe('generate() with a grammar', () => {
       for (const opts of [{}, { strategy: 'beam' as const, beamWidth: 3 }, { strategy: 'sample' as const, seed: 5, temperature: 1.2 }]) {
         const r = await generate(model, q, { grammar: lf, names, maxTokens: 48, ...opts });
         expect(r).toMatchObject({ valid: true, finished: 'eos' });
-        // The masks keep constrained LF outputs well-formed with bound names and bound variables;
-        // they do not enforce kinds yet (README, "What the guarantee covers"), so a kind clash is
-        // the only well-typedness failure allowed here.
-        expect(validateTree(lf, r.tree!, { names, resolve: false })).toBeNull();
-        if (!r.well_typed) expect(r.parse_error).toMatch(/kinds disagree/);
+        // The masks keep constrained LF outputs well-formed with bound names and bound variables
+        // and well-kinded (every kind clause holds, tree/resolve.ts): no failure is allowed.
+        expect(validateTree(lf, r.tree!, { names, resolve: true })).toBeNull();
+        expect(r).toMatchObject({ well_typed: true, parse_error: null });
         // the canonical print of the tree re-parses to the same tree (the printer is src/tree's)
         expect(r.tree).not.toBeNull();
         expect(printTree(lf, r.tree!).length).toBeGreaterThan(0);

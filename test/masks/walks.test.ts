@@ -13,7 +13,7 @@ import { GRAMMARS, grammar, namesFor, rng, smallVocabulary, TOKENIZERS, vocabula
  * Scopes and kinds (tree/resolve.ts) are checked on walk outputs once the masks enforce them
  * (worktree scope-masks turns this on when it lands); until then walks check syntax and names only.
  */
-const MASKS_RESOLVE = false;
+const MASKS_RESOLVE = true;
 
 const WALKS: Record<string, number> = { llama3: 40, qwen3: 20, gemma3: 20, coop: 40 };
 
