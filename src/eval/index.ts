@@ -24,7 +24,7 @@
  */
 export { runEvaluation, RowMaker, jobsOf, type Job, sameTree, runtimeCategory, checkRow, MEASURES, MODES, type DecodeFn, type DecodeOutput, type EvalItem, type EvalRow, type Failure, type Mode, type Scorer, type Analysis } from './run.ts';
 export { ResultsLog, rowKey } from './log.ts';
-export { computeMetrics, computeTaxonomy, RATE_METRICS, type Metrics, type ModeMetrics, type SplitMetrics, type TaxonomyEntry } from './metrics.ts';
+export { computeMetrics, computeTaxonomy, RATE_METRICS, type Metrics, type ModeMetrics, type FailureCounts, type SplitMetrics, type TaxonomyEntry } from './metrics.ts';
 export { wilsonInterval, wilsonRate, pairedBootstrapDifferences, mcnemarExact, mcnemarPaired, quantile, BOOTSTRAP_RESAMPLES, BOOTSTRAP_SEED, Z_95, type RateCI, type DifferenceCI } from './stats.ts';
 export { renderReport, writeReport, type ReportInput } from './report.ts';
 export { resultsTable, type TableInput } from './table.ts';

@@ -5,7 +5,8 @@
  * ```
  * { "<split>": {
  *     "unconstrained": { "valid": R, "well_typed": R, "executable": R, "exact_match": R,
- *                        "execution_accuracy": R, "latency_ms_p50": ms, "latency_ms_p95": ms },
+ *                        "execution_accuracy": R, "latency_ms_p50": ms, "latency_ms_p95": ms,
+ *                        "failures": F },
  *     "constrained":   { …the same… },
  *     "difference": { "valid": D, "well_typed": D, …the five measures },
  *     "mcnemar_p":  { "valid": p, "well_typed": p, …the five measures } } }
@@ -17,6 +18,11 @@
  * the n items decoded in both modes, with a 95% paired percentile-bootstrap interval; the bounds
  * are null when no item differs between the modes (`discordant` = 0; the bootstrap then has no
  * spread to measure).
+ * F = `{ "total", "by_stage": { "not_valid", "not_well_typed", "not_executable" }, "by_cause":
+ * { "<category>": count, … } }`: the rows that did not execute, by the first stage that failed (not
+ * a program; a program whose names, scopes or kinds do not resolve; a program that ran into an
+ * error — time limit, row cap, division by zero, …) and by cause (the taxonomy category of the
+ * row's failure, most frequent first). Added after the other fields: they keep their names.
  * Every interval names its method in `ci_method`.
  * valid = the output is a program of the grammar; well_typed = it also passes the tree check with
  * the bound names; executable = it ran without error; exact_match = tree equal to gold;
@@ -34,6 +40,33 @@ export interface ModeMetrics {
   readonly execution_accuracy: RateCI;
   readonly latency_ms_p50: number | null;
   readonly latency_ms_p95: number | null;
+  /** the rows that did not execute, counted by stage and by cause */
+  readonly failures: FailureCounts;
+}
+
+/** Failure counts of one mode (see the file comment, F). */
+export interface FailureCounts {
+  readonly total: number;
+  readonly by_stage: { readonly not_valid: number; readonly not_well_typed: number; readonly not_executable: number };
+  /** taxonomy category → rows, most frequent first (ties by category) */
+  readonly by_cause: Readonly<Record<string, number>>;
+}
+
+function failureCounts(rows: readonly EvalRow[]): FailureCounts {
+  let notValid = 0;
+  let notTyped = 0;
+  let notRun = 0;
+  const causes = new Map<string, number>();
+  for (const r of rows) {
+    if (r.executable) continue;
+    if (!r.valid) notValid++;
+    else if (!r.well_typed) notTyped++;
+    else notRun++;
+    const c = r.failure?.category ?? 'unknown';
+    causes.set(c, (causes.get(c) ?? 0) + 1);
+  }
+  const by_cause = Object.fromEntries([...causes].sort((a, b) => b[1] - a[1] || (a[0] < b[0] ? -1 : a[0] > b[0] ? 1 : 0)));
+  return { total: notValid + notTyped + notRun, by_stage: { not_valid: notValid, not_well_typed: notTyped, not_executable: notRun }, by_cause };
 }
 
 export interface SplitMetrics {
@@ -65,6 +98,7 @@ function modeMetrics(rows: readonly EvalRow[]): ModeMetrics {
     execution_accuracy: rate('execution_accuracy'),
     latency_ms_p50: round(quantile(lat, 0.5)),
     latency_ms_p95: round(quantile(lat, 0.95)),
+    failures: failureCounts(rows),
   };
 }
 

@@ -55,6 +55,13 @@ describe('runEvaluation', () => {
       ['truncated at max length', 4],
     ]);
     expect(tax.constrained).toEqual([]);
+    // failures by stage and cause: the rows above, counted by hand (4 of each failing pattern)
+    expect(m.test.unconstrained.failures).toEqual({
+      total: 12,
+      by_stage: { not_valid: 4, not_well_typed: 4, not_executable: 4 },
+      by_cause: { 'expected num or add': 4, 'runtime error: division by N': 4, 'truncated at max length': 4 },
+    });
+    expect(m.test.constrained.failures).toEqual({ total: 0, by_stage: { not_valid: 0, not_well_typed: 0, not_executable: 0 }, by_cause: {} });
   });
 
   it('skips rows already in the log and repairs a torn last line', async () => {
