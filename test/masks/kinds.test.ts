@@ -74,6 +74,10 @@ describe('kinds: the automaton accepts a logical form exactly when the resolver 
     expect(viable('value: tonnes(')).toBe(false); // tonnes measures lots; no constant is a lot, no variable is in scope
     expect(viable('lambda $x. lot($x) & tonnes(')).toBe(true); // $x can be the lot
     expect(viable('lambda $x. grower($x) & tonnes(')).toBe(false); // $x is a grower now
+    // $x of argmax must stay a kind some measure takes: villages have none, so $x cannot be the village
+    expect(viable('argmax $x. (lives_in(mara_feldwick, oakmere')).toBe(true);
+    expect(viable('argmax $x. (lives_in(mara_feldwick, $x')).toBe(false);
+    expect(viable('argmax $x. (lives_in($x, oakmere)) by ')).toBe(true);
   });
 
   it('sampled trees are accepted; trees with names swapped are accepted exactly when they resolve', () => {
