@@ -30,7 +30,7 @@
 import type { BlankUse, Constructor, Field, Grammar, LayoutItem, Sort } from '../description/ir.ts';
 import { literalDfa, type ByteDfa } from './regex.ts';
 import { lineColumn } from '../util/source.ts';
-import { readFileSync } from 'node:fs';
+import { sourceText } from '../description/sources.ts';
 
 export const EDGE_EPS = 0;
 export const EDGE_TERM = 1;
@@ -95,13 +95,13 @@ export const FIELD_STRIDE = 1024;
 export class AutomatonError extends Error {}
 
 function located(g: Grammar, span: { start: number }, msg: string): AutomatonError {
+  // the text the grammar was compiled from; never g.file from disk (for a description checked
+  // through the server it is a label from the request, not a file to read)
+  const text = sourceText(g);
   let where = g.file;
-  try {
-    const text = readFileSync(g.file, 'utf8');
+  if (text !== undefined) {
     const { line, column } = lineColumn(text, span.start);
     where = `${g.file}:${line}:${column}`;
-  } catch {
-    /* file unreadable: name the file only */
   }
   return new AutomatonError(`${where}: error: ${msg}`);
 }

@@ -31,6 +31,7 @@
  */
 import { createHash } from 'node:crypto';
 import { readFileSync } from 'node:fs';
+import { rememberSource } from './sources.ts';
 import type { Grammar } from './ir.ts';
 import { analyseGrammar } from './analysis.ts';
 import { buildGrammar } from './compile.ts';
@@ -41,6 +42,7 @@ import { notationSyntaxError } from './notation-errors.ts';
 import { nestingProblem } from '../util/ohm-depth.ts';
 
 export { DescriptionError, formatDiagnostic, formatDiagnostics, type Diagnostic } from './errors.ts';
+export { rememberSource, sourceText } from './sources.ts';
 
 type Compiled = { grammar: Grammar | null; diagnostics: Diagnostic[] };
 
@@ -61,6 +63,7 @@ export function compileDescription(text: string, file: string): Compiled {
   const hit = recent.get(key);
   if (hit) return { grammar: hit.grammar, diagnostics: [...hit.diagnostics] };
   const result = compileUncached(text, file);
+  if (result.grammar !== null) rememberSource(result.grammar, text);
   if (recent.size >= RECENT_LIMIT) recent.delete(recent.keys().next().value!);
   recent.set(key, { grammar: result.grammar, diagnostics: [...result.diagnostics] });
   return result;

@@ -7,8 +7,10 @@ import type { NameBindings } from '../description/ir.ts';
 import { BindError } from '../automaton/index.ts';
 import { MaskError } from '../masks/index.ts';
 import { ModelError } from '../model/index.ts';
-import { checkNames, NamesError, ParseError, TreeError } from '../tree/index.ts';
+import { NamesError, ParseError, TreeError } from '../tree/index.ts';
+import { JobFailed, JobOutOfMemory, JobsOverloaded, JobTimeout, type Job } from './compiler.ts';
 import { ApiError, notFound, overloaded } from './errors.ts';
+import { MAX_JSON_DEPTH } from '../util/depth.ts';
 import { Gate } from './gate.ts';
 import type { GrammarEntry, ModelEntry, Registry } from './registry.ts';
 
@@ -78,23 +80,35 @@ export class ServerContext {
     return m;
   }
 
-  /** The grammar's bindings, with a request's `names` merged over them (checked: 400 at `$.names…`). */
+  /**
+   * The grammar's bindings, with a request's `names` merged over them. Only whether every set is
+   * bound is decided here; the request's members are checked against the grammar in the compile
+   * worker that uses them (400 at `$.names…`, see jobError).
+   */
   namesOf(g: GrammarEntry, override: NameBindings | undefined): NameBindings {
     if (override !== undefined) {
-      const merged = { ...(g.names ?? {}), ...override };
-      try {
-        checkNames(g.grammar, override, 'request');
-      } catch (e) {
-        const m = /^request: (\$[^:]*): (.*)$/s.exec((e as Error).message);
-        const path = m ? `$.names${m[1]!.slice(1)}` : '$.names';
-        throw new ApiError(400, 'invalid_names', `${path}: ${m ? m[2] : (e as Error).message}`, path);
-      }
+      const merged = this.registry.sharedNames({ ...(g.names ?? {}), ...override });
       const missing = g.grammar.nameSets.filter((n) => !(n.name in merged)).map((n) => n.name);
       if (missing.length > 0) throw new ApiError(400, 'unbound_names', `$.names: no bindings for ${missing.join(', ')}; expected {"${missing[0]}": [...]}`, '$.names');
       return merged;
     }
     if (g.names === null) throw new ApiError(400, 'unbound_names', `$.names: ${g.namesProblem}`, '$.names');
     return g.names;
+  }
+
+  /** A failure of work that involved a compile worker and then the main thread (a decode's constraint). */
+  jobFailure(e: unknown): never {
+    if (e instanceof JobFailed || e instanceof JobTimeout || e instanceof JobOutOfMemory || e instanceof JobsOverloaded) return jobError(e, '$.tree', null);
+    return modelError(e);
+  }
+
+  /** Runs a compile-worker job (compiler.ts), its failures mapped to the documented errors (jobError). */
+  async job<T>(job: Job, label: string, treeBase = '$.tree'): Promise<T> {
+    try {
+      return await this.registry.compiler.run<T>(job, label);
+    } catch (e) {
+      return jobError(e, treeBase, null);
+    }
   }
 
   /** Runs `work` holding one of the model gate's slots; 503 at once when the gate and its queue are full. */
@@ -143,4 +157,54 @@ export function modelError(e: unknown): never {
   if (e instanceof ModelError || e instanceof MaskError || e instanceof NamesError) throw new ApiError(422, 'grammar_model_mismatch', (e as Error).message, (e as ModelError).file);
   if (e instanceof RangeError) throw new ApiError(400, 'invalid_request', e.message);
   throw e;
+}
+
+/**
+ * A compile-worker failure as the documented error: time limit → 504, memory limit → 422
+ * resource_limit, a full queue → 503, and the stage errors the worker reports by class name as
+ * the routes map them on the main thread (parseError, treeError, modelError, request names → 400).
+ * `field` names the request field the work came from, when one does (`$.text` for a check).
+ */
+export function jobError(e: unknown, treeBase: string, field: string | null, what = 'input'): never {
+  const at = field === null ? '' : `${field}: `;
+  if (e instanceof JobTimeout) throw new ApiError(504, 'time_limit', `${at}${e.message} and was stopped; expected a smaller ${what}`, field ?? undefined);
+  if (e instanceof JobOutOfMemory) throw new ApiError(422, 'resource_limit', `${at}${e.message}; expected a smaller ${what}`, field ?? undefined);
+  if (e instanceof JobsOverloaded) throw new ApiError(503, 'overloaded', `the server is busy (${e.message}); retry later`);
+  if (!(e instanceof JobFailed)) throw e;
+  const x = e.error;
+  switch (x.name) {
+    case 'ParseError':
+      throw new ApiError(422, 'parse_error', x.message, `${x.file}:${x.line}:${x.column}`, { line: x.line!, column: x.column! });
+    case 'TreeError': {
+      const path = treeBase + x.issue!.path.slice(1);
+      throw new ApiError(422, 'invalid_tree', `${path}: ${x.issue!.message}`, path);
+    }
+    case 'PrintError':
+      throw new ApiError(422, 'invalid_tree', `${treeBase}: ${x.message}`, treeBase);
+    case 'NamesError':
+      if (x.request) {
+        const m = /^request: (\$[^:]*): (.*)$/s.exec(x.message);
+        const path = m ? `$.names${m[1]!.slice(1)}` : '$.names';
+        throw new ApiError(400, 'invalid_names', `${path}: ${m ? m[2] : x.message}`, path);
+      }
+      throw new ApiError(422, 'grammar_model_mismatch', x.message, x.file);
+    case 'BindError': {
+      const m = /^names\.([A-Za-z_][A-Za-z0-9_]*)/.exec(x.message);
+      const path = m ? `$.names.${m[1]}` : '$.names';
+      throw new ApiError(400, 'invalid_names', `$.${x.message}`, path);
+    }
+    case 'ModelError':
+    case 'MaskError':
+    case 'VocabularyError':
+      throw new ApiError(422, 'grammar_model_mismatch', x.message, x.file);
+    case 'AutomatonError':
+    case 'RegexError':
+    case 'RegexTooLargeError':
+      throw new ApiError(422, 'automaton_error', x.message);
+    case 'RangeError':
+      if (/call stack/i.test(x.message)) throw new ApiError(400, 'too_deep', `request: nested too deeply to process (${x.message}); expected at most ${MAX_JSON_DEPTH} levels of JSON and programs within the parser's nesting limit`);
+      throw new ApiError(400, 'invalid_request', x.message);
+    default:
+      throw new ApiError(500, 'internal', `internal error: ${x.message}`);
+  }
 }

@@ -7,9 +7,9 @@
 import { createHash } from 'node:crypto';
 import { existsSync, readFileSync } from 'node:fs';
 import { basename, dirname, join, resolve } from 'node:path';
-import { maskEngine } from '../decode/index.ts';
-import { compileDescription, type Diagnostic } from '../description/index.ts';
-import type { Grammar, NameBindings } from '../description/ir.ts';
+import { boundConstraint, maskEngine } from '../decode/index.ts';
+import { compileDescription, rememberSource, type Diagnostic } from '../description/index.ts';
+import { NAME_FACTS, type Grammar, type NameBindings } from '../description/ir.ts';
 import { factNames, factsFromDatabase, lfExecutor, openDatabaseFile, SqlRunner, sqlExecutor, type DatabaseFile, type ExecuteFn } from '../exec/index.ts';
 import type { FactBase } from '../exec/facts.ts';
 import { loadModel, type Seq2SeqModel } from '../model/index.ts';
@@ -17,7 +17,8 @@ import { checkNames, createParser, loadNames, namesFromDatabase } from '../tree/
 import { grammarFile, PACKAGE_ROOT } from '../util/package.ts';
 import { lineColumn } from '../util/source.ts';
 import { byteFallbackIds } from '../vocab/index.ts';
-import { Checker } from './checker.ts';
+import { deserializeEngine, type MaskConstraint, type MaskEngine } from '../masks/index.ts';
+import { Compiler, type GrammarRef, type NamesMsg } from './compiler.ts';
 
 export const REPO = resolve(PACKAGE_ROOT);
 export const SHIPPED = ['sql', 'lf', 'arith', 'json'] as const;
@@ -34,6 +35,15 @@ export interface GrammarEntry {
   readonly names: NameBindings | null;
   readonly namesProblem: string | null;
   readonly execute: ExecuteFn | null;
+  /** the description as the compile workers take it */
+  readonly ref: GrammarRef;
+  /** mask engines per model id (checked descriptions: compiled in a worker, read from its bytes) */
+  readonly engines: Map<string, MaskEngine>;
+}
+
+/** Name bindings as a message to a compile worker (owners and kinds included). */
+export function namesMsg(names: NameBindings): NamesMsg {
+  return { members: { ...names }, facts: names[NAME_FACTS] ?? null };
 }
 
 export interface ModelEntry {
@@ -77,8 +87,12 @@ export interface RegistryOptions {
   readonly sqlTimeoutMs?: number;
   /** onnxruntime threads per session */
   readonly threads?: number;
-  /** time limit of one /api/check compile in ms (default 10 000) */
+  /** time limit of one compile-worker job (a check, parse, mask table…) in ms (default 10 000) */
   readonly checkTimeoutMs?: number;
+  /** compile worker threads (default 2) */
+  readonly compileWorkers?: number;
+  /** V8 heap limit of each compile worker in MB (default 512) */
+  readonly compileMemoryMb?: number;
   /** compile the mask tables of every model × startup grammar while opening (default true) */
   readonly warm?: boolean;
   /** most checked descriptions kept (least recently used go first) */
@@ -143,7 +157,10 @@ export class Registry {
   private database: DatabaseFile | null;
   readonly dbPath: string;
   readonly facts: FactBase;
-  private readonly checker: Checker;
+  /** the worker threads that do every request's compile work (compiler.ts) */
+  readonly compiler: Compiler;
+  /** request bindings by content, so that equal names share one bound constraint */
+  private readonly requestNames = new Map<string, NameBindings>();
   /** description file → executor kind, as the operator configured (executorBindings) */
   private readonly executorFiles: Map<string, ExecutorKind>;
   private readonly checkedExecutors: boolean;
@@ -157,7 +174,7 @@ export class Registry {
     this.checkedLimit = opts.checkedLimit ?? 64;
     this.extraNames = opts.names !== undefined ? loadNames(opts.names) : {};
     this.runner = new SqlRunner(this.dbPath, { timeoutMs: opts.sqlTimeoutMs ?? 2000 });
-    this.checker = new Checker(opts.checkTimeoutMs ?? 10_000);
+    this.compiler = new Compiler({ timeoutMs: opts.checkTimeoutMs ?? 10_000, workers: opts.compileWorkers, memoryMb: opts.compileMemoryMb });
   }
 
   /** Loads grammars and models; throws with a located message on any bad file. */
@@ -210,13 +227,17 @@ export class Registry {
       // compile every model × grammar mask table now, so no request pays for it (~0.5 s each for
       // the demo model's 1,100 tokens); a pair that cannot work fails again, located, per request
       if (opts.warm !== false) {
-        reg.checker.warmUp();
-        // the parsers too (0.1–1 s each on first use, on the main thread)
-        for (const g of reg.grammars.values()) createParser(g.grammar);
+        // the compile workers build the startup grammars' parsers and mask tables before their
+        // time limits start; the main thread only decodes, so it needs the mask tables bound to
+        // the server's names (the first decode would otherwise pay ~0.1–1 s for them)
+        const startup = [...reg.grammars.values()];
+        reg.compiler.setWarmUp({ grammars: startup.map((g) => g.ref), tokenizers: [...reg.models.values()].map((m) => join(m.dir, 'tokenizer.json')), names: startup.map((g) => (g.names === null ? undefined : namesMsg(g.names))) });
+        reg.compiler.warmUp();
         for (const m of reg.models.values()) {
-          for (const g of reg.grammars.values()) {
+          for (const g of startup) {
             try {
-              maskEngine(m.model, g.grammar);
+              const engine = maskEngine(m.model, g.grammar);
+              if (g.names !== null) boundConstraint(engine, g.names);
             } catch {
               // reported by the routes that use the pair (422 grammar_model_mismatch)
             }
@@ -230,7 +251,11 @@ export class Registry {
     return reg;
   }
 
-  /** Names for a grammar: defaults by grammar (SQL schema, LF facts, samples/names.json), then --names. */
+  /**
+   * Names for a grammar: defaults by grammar (SQL schema, LF facts, samples/names.json), then --names.
+   * The members are checked against the grammar's token classes here for startup grammars and in a
+   * compile worker for checked descriptions (checkedNames).
+   */
   private namesFor(grammar: Grammar, file: string, origin: GrammarEntry['origin']): { names: NameBindings | null; problem: string | null } {
     const declared = new Set(grammar.nameSets.map((n) => n.name));
     if (declared.size === 0) return { names: {}, problem: null };
@@ -250,6 +275,7 @@ export class Registry {
     add(this.extraNames);
     const missing = [...declared].filter((s) => !(s in pool));
     if (missing.length > 0) return { names: null, problem: `no bindings for the name set${missing.length > 1 ? 's' : ''} ${missing.join(', ')} of ${grammar.name}; expected them in --names FILE (or the request's "names")` };
+    if (origin === 'checked') return { names: pool, problem: null };
     try {
       checkNames(grammar, pool, 'names');
     } catch (e) {
@@ -280,12 +306,53 @@ export class Registry {
 
   private entry(id: string, grammar: Grammar, text: string, file: string, origin: GrammarEntry['origin']): GrammarEntry {
     const { names, problem } = this.namesFor(grammar, file, origin);
-    return { id, grammar, text, file, origin, names, namesProblem: problem, execute: this.executorFor(grammar, this.executorKind(grammar, file, origin)) };
+    return { id, grammar, text, file, origin, names, namesProblem: problem, execute: this.executorFor(grammar, this.executorKind(grammar, file, origin)), ref: { text, file }, engines: new Map() };
+  }
+
+  /** A checked description's entry: its bindings checked against it in a compile worker. */
+  private async checkedEntry(id: string, grammar: Grammar, text: string, file: string): Promise<GrammarEntry> {
+    const e = this.entry(id, grammar, text, file, 'checked');
+    if (e.names === null || grammar.nameSets.length === 0) return e;
+    try {
+      await this.compiler.run({ kind: 'names', grammar: e.ref, names: namesMsg(e.names), source: 'names' }, `checking the names of ${file}`);
+      return e;
+    } catch (err) {
+      return { ...e, names: null, namesProblem: (err as Error).message };
+    }
+  }
+
+  /** One object per distinct binding content (bound constraints are kept per bindings object). */
+  sharedNames(names: NameBindings): NameBindings {
+    const key = createHash('sha256').update(JSON.stringify([names, names[NAME_FACTS] ?? null])).digest('hex');
+    const hit = this.requestNames.get(key);
+    if (hit !== undefined) return hit;
+    if (this.requestNames.size >= 16) this.requestNames.delete(this.requestNames.keys().next().value!);
+    this.requestNames.set(key, names);
+    return names;
+  }
+
+  /**
+   * The constraint a decode uses: a startup grammar with the server's names from the tables built
+   * at start; otherwise compiled and bound in a compile worker first (under its time and memory
+   * limits; the request's own names are checked there), its tables read here from the worker's
+   * bytes (bounds-checked), then bound here. Rejects as Compiler.run does.
+   */
+  async constraintFor(g: GrammarEntry, m: ModelEntry, names: NameBindings, request: NameBindings | null): Promise<MaskConstraint> {
+    let engine = g.origin === 'startup' ? maskEngine(m.model, g.grammar) : g.engines.get(m.id);
+    if (engine !== undefined && request === null) return boundConstraint(engine, names);
+    const shared = this.sharedNames(names);
+    const r = await this.compiler.run<{ tables?: Uint8Array }>({ kind: 'engine', grammar: g.ref, tokenizer: join(m.dir, 'tokenizer.json'), names: namesMsg(shared), request: request === null ? null : namesMsg(request), tables: engine === undefined }, `compiling the mask tables of ${g.id} for ${m.id}`);
+    if (engine === undefined) {
+      engine = deserializeEngine(Buffer.from(r.tables!.buffer, r.tables!.byteOffset, r.tables!.byteLength), g.grammar, g.grammar.hash, `${g.file} × ${m.id}`);
+      if (g.engines.size >= 4) g.engines.delete(g.engines.keys().next().value!);
+      g.engines.set(m.id, engine);
+    }
+    return boundConstraint(engine, shared);
   }
 
   /**
    * Compiles a description in the checker's worker thread (cached by content hash and file name);
-   * a clean one becomes a grammar id. Rejects with CheckTimeout past the check time limit.
+   * a clean one becomes a grammar id. Rejects as Compiler.run does (JobTimeout past the time limit).
    */
   async check(text: string, file: string): Promise<CheckResult> {
     const hash = createHashHex(text);
@@ -296,10 +363,11 @@ export class Registry {
       this.checked.set(key, hit);
       return hit.result;
     }
-    const { grammar, diagnostics } = await this.checker.compile(text, file);
+    const { grammar, diagnostics } = await this.compiler.run<{ grammar: Grammar | null; diagnostics: Diagnostic[] }>({ kind: 'check', text, file }, `compiling ${file}`);
+    if (grammar !== null) rememberSource(grammar, text);
     const id = grammar !== null ? `h-${hash.slice(0, 16)}` : null;
     const result: CheckResult = { ok: grammar !== null, id, hash, diagnostics: diagnostics.map((d) => diagnosticJson(d, text)) };
-    const entry = grammar !== null ? this.entry(id!, grammar, text, file, 'checked') : null;
+    const entry = grammar !== null ? await this.checkedEntry(id!, grammar, text, file) : null;
     if (this.checked.size >= this.checkedLimit) this.checked.delete(this.checked.keys().next().value!);
     this.checked.set(key, { result, entry });
     return result;
@@ -324,7 +392,7 @@ export class Registry {
   }
 
   async close(): Promise<void> {
-    await this.checker.close();
+    await this.compiler.close();
     this.runner?.close();
     this.runner = null;
     for (const m of this.models.values()) await m.model.dispose();

@@ -10,15 +10,27 @@
  * checks its signal before every decoder step.
  */
 import type { FastifyInstance, FastifyRequest } from 'fastify';
-import { boundConstraint, generate, maskEngine, textOf, type GenerateResult } from '../../decode/index.ts';
+import { decode, textOf, type DecodeResult } from '../../decode/index.ts';
 import type { NameBindings } from '../../description/ir.ts';
 import type { Tree as ExecTree } from '../../exec/index.ts';
 import { InputTooLong, OutputTooLong } from '../../model/index.ts';
-import { printTree } from '../../tree/index.ts';
+import type { MaskConstraint } from '../../masks/index.ts';
+import type { Tree } from '../../tree/index.ts';
 import { modelError, withExecSlot, type ServerContext } from '../context.ts';
+import { namesMsg } from '../registry.ts';
 import { ApiError, badField, timeLimit } from '../errors.ts';
 import { decodeSchema } from '../schemas.ts';
-import { replaySteps, treeView } from '../steps.ts';
+import { replaySteps, type TreeViewNode } from '../steps.ts';
+
+/** What a compile worker makes of a decoder's output ('output' job). */
+interface OutputReply {
+  tree: Tree | null;
+  valid: boolean;
+  well_typed: boolean;
+  parse_error: string | null;
+  canonical: string | null;
+  tree_view: TreeViewNode | null;
+}
 
 interface Body {
   question: string;
@@ -88,12 +100,17 @@ export function register(app: FastifyInstance, ctx: ServerContext): void {
     const strategy = b.beam !== undefined ? 'beam' : b.sample ? 'sample' : 'greedy';
     ctx.stats.decoded++;
     let program: ExecTree | null = null;
+    const request = b.names === undefined ? null : b.names;
     const out = await ctx.withSlot(async () => {
       const { signal, done } = requestSignal(req, ctx.timeLimitMs);
-      let r: GenerateResult;
+      let r: DecodeResult;
+      let c: MaskConstraint | null = null;
       try {
-        r = await generate(m.model, input.ids, {
-          grammar: g.grammar, names, unconstrained: !b.constrained, strategy, beamWidth: b.beam,
+        // the mask tables and the binding come from a compile worker unless built at start
+        // (the request's own names are checked there); the main thread only runs the model
+        if (b.constrained || b.steps) c = await ctx.registry.constraintFor(g, m, names, request).catch((e) => ctx.jobFailure(e));
+        r = await decode(m.model, input.ids, {
+          constraint: b.constrained ? c : null, strategy, beamWidth: b.beam,
           temperature: b.temperature, topP: b.top_p, seed: b.seed, maxTokens, signal,
         });
       } catch (e) {
@@ -105,30 +122,30 @@ export function register(app: FastifyInstance, ctx: ServerContext): void {
           ctx.stats.stoppedGone++;
           throw new ApiError(499, 'client_closed', 'the client closed the connection; decoding stopped');
         }
+        if (e instanceof ApiError) throw e;
         return modelError(e);
       } finally {
         done();
       }
+      // the output parsed, checked with the names, printed and viewed in a compile worker
+      const o = await ctx.job<OutputReply>(
+        { kind: 'output', grammar: g.ref, text: r.text, names: namesMsg(names), request: request === null ? null : namesMsg(request), view: b.steps === true },
+        `checking the output of ${g.id}`,
+      );
       const out: Record<string, unknown> = {
-        question: input.text, text: r.text, tree: r.tree, valid: r.valid, well_typed: r.well_typed, parse_error: r.parse_error,
-        canonical: r.tree !== null && r.well_typed ? printTree(g.grammar, r.tree) : null,
+        question: input.text, text: r.text, tree: o.tree, valid: o.valid, well_typed: o.well_typed, parse_error: o.parse_error,
+        canonical: o.canonical,
         tokens: r.tokens, token_texts: r.tokenTexts, finished: r.finished, score: r.score, strategy,
         constrained: b.constrained, model: m.id, grammar: g.id, model_ms: r.model_ms, mask_ms: r.mask_ms, total_ms: r.total_ms,
       };
       if (b.steps) {
-        let c;
-        try {
-          c = boundConstraint(maskEngine(m.model, g.grammar), names);
-        } catch (e) {
-          return modelError(e);
-        }
-        Object.assign(out, replaySteps(c, r.tokens, r.tokenTexts, maxTokens, (ids) => textOf(m.model, ids), (id) => (m.byteIds.has(id) ? m.model.vocabulary.byteAt(id, 0) : null)));
-        out.tree_view = r.tree !== null && r.well_typed ? treeView(g.grammar, r.tree) : null;
+        Object.assign(out, replaySteps(c!, r.tokens, r.tokenTexts, maxTokens, (ids) => textOf(m.model, ids), (id) => (m.byteIds.has(id) ? m.model.vocabulary.byteAt(id, 0) : null)));
+        out.tree_view = o.tree_view;
       }
       if (b.execute) {
         if (g.execute === null) out.answer = { ok: false, error: `grammar ${g.id} has no executor here` };
-        else if (!r.well_typed || r.tree === null) out.answer = { ok: false, error: 'the output is not a well-typed program, so it was not run' };
-        else program = r.tree as ExecTree;
+        else if (!o.well_typed || o.tree === null) out.answer = { ok: false, error: 'the output is not a well-typed program, so it was not run' };
+        else program = o.tree as ExecTree;
       } else out.answer = null;
       return out;
     });

@@ -5,8 +5,9 @@
  * then its canonical print parsed again.
  */
 import type { FastifyInstance } from 'fastify';
-import { assertTree, createParser, printTree, type Tree } from '../../tree/index.ts';
-import { parseError, treeError, withExecSlot, type ServerContext } from '../context.ts';
+import type { Tree } from '../../tree/index.ts';
+import { withExecSlot, type ServerContext } from '../context.ts';
+import { namesMsg } from '../registry.ts';
 import { ApiError, badField } from '../errors.ts';
 import { executeSchema } from '../schemas.ts';
 
@@ -18,32 +19,13 @@ export function register(app: FastifyInstance, ctx: ServerContext): void {
       throw badField('$', body.text === undefined ? 'neither "text" nor "tree"' : 'both "text" and "tree"', 'exactly one of them');
     }
     if (g.execute === null) throw new ApiError(422, 'no_executor', `$.grammar: grammar ${g.id} (${g.grammar.name}) has no executor here; expected one of the grammars with "executor": true in GET /api/grammars (sql, lf)`, '$.grammar');
-    const names = ctx.namesOf(g, undefined);
-    let tree: Tree;
-    let text: string;
-    if (body.text !== undefined) {
-      try {
-        tree = createParser(g.grammar).parse(body.text, { file: '<input>', names });
-      } catch (e) {
-        return parseError(e);
-      }
-      text = body.text;
-    } else {
-      // the same checks as text: the tree is printed, and the print parsed with the server's
-      // bindings (a name refused as text is refused as a tree), so what runs is what the text
-      // route would have run
-      try {
-        assertTree(g.grammar, body.tree, { names });
-        text = printTree(g.grammar, body.tree);
-      } catch (e) {
-        return treeError(e, '$.tree');
-      }
-      try {
-        tree = createParser(g.grammar).parse(text, { file: '<printed tree>', names });
-      } catch (e) {
-        return parseError(e);
-      }
-    }
+    const names = namesMsg(ctx.namesOf(g, undefined));
+    // parsed (or, for a tree, checked with the server's bindings, printed and its print parsed
+    // again, so what runs is what the text route would have run) in a compile worker
+    const { tree, text } =
+      body.text !== undefined
+        ? { ...(await ctx.job<{ tree: Tree }>({ kind: 'parse', grammar: g.ref, text: body.text, file: '<input>', names, request: null }, `parsing $.text with ${g.id}`)), text: body.text }
+        : await ctx.job<{ tree: Tree; text: string }>({ kind: 'program', grammar: g.ref, tree: body.tree, names }, `checking $.tree with ${g.id}`);
     const r = await withExecSlot(ctx, () => g.execute!(tree, { grammar: g.grammar, timeoutMs: ctx.timeLimitMs }));
     if (!r.ok) throw new ApiError(422, 'execution_error', `${body.text !== undefined ? '<input>' : '$.tree'}: ${r.error}`, body.text !== undefined ? '<input>:1:1' : '$.tree');
     return { ok: true, value: r.value, tree, text };

@@ -1,8 +1,13 @@
-/** POST /api/parse — program text → JSON tree, names checked against the grammar's bindings (422 located). */
+/**
+ * POST /api/parse — program text → JSON tree, names checked against the grammar's bindings (422
+ * located). Parsed in a compile worker (compiler.ts): a long or deeply nested text never holds the
+ * main thread.
+ */
 import type { FastifyInstance } from 'fastify';
 import type { NameBindings } from '../../description/ir.ts';
-import { createParser } from '../../tree/index.ts';
-import { parseError, type ServerContext } from '../context.ts';
+import type { Tree } from '../../tree/index.ts';
+import type { ServerContext } from '../context.ts';
+import { namesMsg } from '../registry.ts';
 import { parseSchema } from '../schemas.ts';
 
 export function register(app: FastifyInstance, ctx: ServerContext): void {
@@ -10,10 +15,9 @@ export function register(app: FastifyInstance, ctx: ServerContext): void {
     const body = req.body as { grammar: string; text: string; names?: NameBindings };
     const g = ctx.grammarOf(body.grammar);
     const names = ctx.namesOf(g, body.names);
-    try {
-      return { tree: createParser(g.grammar).parse(body.text, { file: '<input>', names }) };
-    } catch (e) {
-      return parseError(e);
-    }
+    return ctx.job<{ tree: Tree }>(
+      { kind: 'parse', grammar: g.ref, text: body.text, file: '<input>', names: namesMsg(names), request: body.names === undefined ? null : namesMsg(body.names) },
+      `parsing $.text with ${g.id}`,
+    );
   });
 }
