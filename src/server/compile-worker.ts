@@ -10,6 +10,8 @@
  * the models the server loaded (paths given by the main thread, never by a request).
  */
 import { createHash } from 'node:crypto';
+import { readlinkSync } from 'node:fs';
+import { getPriority, setPriority } from 'node:os';
 import { dirname } from 'node:path';
 import { parentPort, workerData } from 'node:worker_threads';
 import { boundConstraint, maskEngine } from '../decode/index.ts';
@@ -212,6 +214,16 @@ parentPort!.on('message', (m: { id: number; job: Job }) => {
   }
   parentPort!.postMessage(reply, transfer);
 });
+
+// Below the main thread's priority (Linux: a thread id taken as a process id by setpriority(2)
+// names that thread only): on a busy machine the main thread, which answers every request,
+// gets the cores first. Elsewhere the worker keeps its priority.
+try {
+  const tid = Number(readlinkSync('/proc/thread-self').split('/').pop());
+  if (Number.isInteger(tid) && tid > 0) setPriority(tid, Math.min(19, getPriority(tid) + 10));
+} catch {
+  // no /proc/thread-self (not Linux): same priority as the main thread
+}
 
 // Warm-up before {ready} (the time limits start after it): the startup grammars' parsers and
 // mask tables for every model, so requests on them never pay for that.

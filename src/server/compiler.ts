@@ -85,9 +85,9 @@ export class Compiler {
     this.warm = data;
   }
 
-  /** Starts every worker now (in the background), so the first jobs do not wait for them to load. */
-  warmUp(): void {
-    for (const s of this.slots) this.start(s).catch(() => undefined);
+  /** Starts every worker now, so the first jobs do not wait for them to load; resolves once all have loaded (or failed to). */
+  async warmUp(): Promise<void> {
+    await Promise.all(this.slots.map((s) => this.start(s).catch(() => undefined)));
   }
 
   /**

@@ -232,7 +232,7 @@ export class Registry {
         // the server's names (the first decode would otherwise pay ~0.1–1 s for them)
         const startup = [...reg.grammars.values()];
         reg.compiler.setWarmUp({ grammars: startup.map((g) => g.ref), tokenizers: [...reg.models.values()].map((m) => join(m.dir, 'tokenizer.json')), names: startup.map((g) => (g.names === null ? undefined : namesMsg(g.names))) });
-        reg.compiler.warmUp();
+        const workers = reg.compiler.warmUp();
         for (const m of reg.models.values()) {
           for (const g of startup) {
             try {
@@ -243,6 +243,8 @@ export class Registry {
             }
           }
         }
+        // a server listens once its workers have warmed up
+        await workers;
       }
     } catch (e) {
       await reg.close();
