@@ -37,6 +37,7 @@ export interface NamesMsg {
 
 export type Job =
   | { kind: 'check'; text: string; file: string }
+  | { kind: 'prepare'; grammar: GrammarRef; tokenizer: string | null; names: NamesMsg | null }
   | { kind: 'names'; grammar: GrammarRef; names: NamesMsg; source: string }
   | { kind: 'parse'; grammar: GrammarRef; text: string; file: string; names: NamesMsg; request: NamesMsg | null }
   | { kind: 'print'; grammar: GrammarRef; tree: unknown }
@@ -116,6 +117,17 @@ function run(job: Job): unknown {
     case 'check': {
       const r = compileDescription(job.text, job.file);
       return { grammar: r.grammar, diagnostics: r.diagnostics };
+    }
+    case 'prepare': {
+      // a startup grammar's own work (trusted, run without a time limit before a timed job):
+      // its parser, and its mask tables bound to the server's names for one tokenizer
+      const g = grammarOf(job.grammar);
+      createParser(g);
+      if (job.tokenizer !== null) {
+        const engine = maskEngine(model(job.tokenizer), g);
+        if (job.names !== null) boundConstraint(engine, namesOf(job.names));
+      }
+      return null;
     }
     case 'names': {
       checkNames(grammarOf(job.grammar), namesOf(job.names), job.source);

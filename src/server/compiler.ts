@@ -59,6 +59,7 @@ interface Slot {
 interface Pending {
   readonly job: Job;
   readonly label: string;
+  readonly timed: boolean;
   readonly resolve: (v: unknown) => void;
   readonly reject: (e: Error) => void;
 }
@@ -92,13 +93,14 @@ export class Compiler {
 
   /**
    * Runs `job` in a worker; `label` names the work in a time-limit message. Rejects with JobTimeout,
-   * JobOutOfMemory, JobsOverloaded or JobFailed.
+   * JobOutOfMemory, JobsOverloaded or JobFailed. `timed: false` (the operator's own startup
+   * grammars only) runs it without the time limit.
    */
-  run<T>(job: Job, label: string): Promise<T> {
+  run<T>(job: Job, label: string, timed = true): Promise<T> {
     if (this.closed) return Promise.reject(new Error('the compile workers are closed'));
     if (this.pending.length >= this.maxQueued) return Promise.reject(new JobsOverloaded(`${this.pending.length} jobs are waiting for the compile workers`));
     return new Promise<T>((resolve, reject) => {
-      this.pending.push({ job, label, resolve: resolve as (v: unknown) => void, reject });
+      this.pending.push({ job, label, timed, resolve: resolve as (v: unknown) => void, reject });
       this.dispatch();
     });
   }
@@ -172,7 +174,7 @@ export class Compiler {
         done();
         reject(new Error(`a compile worker stopped unexpectedly (exit ${code})`));
       };
-      const timer = setTimeout(() => {
+      const timer = !p.timed ? undefined : setTimeout(() => {
         done();
         if (s.worker === w) {
           s.worker = null;

@@ -12,7 +12,7 @@ import { JobFailed, JobOutOfMemory, JobsOverloaded, JobTimeout, type Job } from 
 import { ApiError, notFound, overloaded } from './errors.ts';
 import { MAX_JSON_DEPTH } from '../util/depth.ts';
 import { Gate } from './gate.ts';
-import type { GrammarEntry, ModelEntry, Registry } from './registry.ts';
+import { namesMsg, type GrammarEntry, type ModelEntry, type Registry } from './registry.ts';
 
 export interface ServerLimits {
   /** largest request body in bytes (default 1 MiB) */
@@ -105,6 +105,13 @@ export class ServerContext {
   /** Runs a compile-worker job (compiler.ts), its failures mapped to the documented errors (jobError). */
   async job<T>(job: Job, label: string, treeBase = '$.tree'): Promise<T> {
     try {
+      // a startup grammar's parser and mask tables are the operator's work: built without the
+      // time limit (a no-op once the worker has them), so the limit measures the request alone
+      const startup = 'grammar' in job ? this.registry.startupEntry(job.grammar) : undefined;
+      if (startup !== undefined) {
+        const tokenizer = 'tokenizer' in job ? job.tokenizer : null;
+        await this.registry.compiler.run({ kind: 'prepare', grammar: startup.ref, tokenizer, names: startup.names === null ? null : namesMsg(startup.names) }, 'preparing a startup grammar', false);
+      }
       return await this.registry.compiler.run<T>(job, label);
     } catch (e) {
       return jobError(e, treeBase, null);

@@ -323,6 +323,12 @@ export class Registry {
     }
   }
 
+  /** The grammar loaded at start whose description `ref` is (undefined for one checked through the API). */
+  startupEntry(ref: GrammarRef): GrammarEntry | undefined {
+    for (const g of this.grammars.values()) if (g.ref === ref) return g;
+    return undefined;
+  }
+
   /** One object per distinct binding content (bound constraints are kept per bindings object). */
   sharedNames(names: NameBindings): NameBindings {
     const key = createHash('sha256').update(JSON.stringify([names, names[NAME_FACTS] ?? null])).digest('hex');
@@ -343,7 +349,9 @@ export class Registry {
     let engine = g.origin === 'startup' ? maskEngine(m.model, g.grammar) : g.engines.get(m.id);
     if (engine !== undefined && request === null) return boundConstraint(engine, names);
     const shared = this.sharedNames(names);
-    const r = await this.compiler.run<{ tables?: Uint8Array }>({ kind: 'engine', grammar: g.ref, tokenizer: join(m.dir, 'tokenizer.json'), names: namesMsg(shared), request: request === null ? null : namesMsg(request), tables: engine === undefined }, `compiling the mask tables of ${g.id} for ${m.id}`);
+    const tokenizer = join(m.dir, 'tokenizer.json');
+    if (g.origin === 'startup') await this.compiler.run({ kind: 'prepare', grammar: g.ref, tokenizer, names: g.names === null ? null : namesMsg(g.names) }, 'preparing a startup grammar', false);
+    const r = await this.compiler.run<{ tables?: Uint8Array }>({ kind: 'engine', grammar: g.ref, tokenizer, names: namesMsg(shared), request: request === null ? null : namesMsg(request), tables: engine === undefined }, `compiling the mask tables of ${g.id} for ${m.id}`);
     if (engine === undefined) {
       engine = deserializeEngine(Buffer.from(r.tables!.buffer, r.tables!.byteOffset, r.tables!.byteLength), g.grammar, g.grammar.hash, `${g.file} × ${m.id}`);
       if (g.engines.size >= 4) g.engines.delete(g.engines.keys().next().value!);

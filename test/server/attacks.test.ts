@@ -230,12 +230,23 @@ describe('slow SQL never holds the model slots', () => {
   });
 
   it('a decode whose program cannot get an executor slot still answers with its program', async () => {
-    const registry = await Registry.open({ models: ['test/fixtures/tiny-seq2seq'], warm: false, threads: 1, grammars: ['sql'], sqlTimeoutMs: 1500 });
+    const registry = await Registry.open({ models: ['test/fixtures/tiny-seq2seq'], warm: false, threads: 1, grammars: ['sql'] });
     const a = await buildServer(registry, { execActive: 1, execQueued: 0 });
     try {
-      const slow = 'SELECT lots.id FROM lots JOIN sheds ON lots.id = lots.id JOIN growers ON lots.id = lots.id JOIN orchards ON lots.id = lots.id JOIN varieties ON lots.id = lots.id ORDER BY growers.name, orchards.name DESC LIMIT 3';
-      const busy = a.inject({ method: 'POST', url: '/api/execute', payload: { grammar: 'sql', text: slow } });
-      await new Promise((r) => setTimeout(r, 20));
+      // the one executor slot held by a run that ends only when the test says so (no timing)
+      const sql = registry.grammar('sql')!;
+      const real = sql.execute!;
+      let release!: () => void;
+      const held = new Promise<void>((r) => (release = r));
+      let entered!: () => void;
+      const running = new Promise<void>((r) => (entered = r));
+      (sql as { execute: typeof real }).execute = async (tree, opts) => {
+        entered();
+        await held;
+        return real(tree, opts);
+      };
+      const busy = a.inject({ method: 'POST', url: '/api/execute', payload: { grammar: 'sql', text: 'SELECT COUNT(*) FROM sheds' } });
+      await running;
       const d = await a.inject({ method: 'POST', url: '/api/decode', payload: { question: 'how many sheds', grammar: 'sql', max_tokens: 40, execute: true } });
       expect(d.statusCode).toBe(200);
       const body = d.json() as { text: string; well_typed: boolean; answer: { ok: boolean; error?: string } };
@@ -243,7 +254,8 @@ describe('slow SQL never holds the model slots', () => {
       // constrained decoding of the fixture gives a well-typed program here, so its run was attempted
       expect(body.well_typed).toBe(true);
       expect(body.answer).toEqual({ ok: false, error: expect.stringMatching(/^not run: the server is busy/) });
-      await busy;
+      release();
+      expect((await busy).statusCode).toBe(200);
     } finally {
       await a.close();
     }
