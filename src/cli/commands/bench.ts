@@ -97,7 +97,7 @@ function defaultNames(grammar: Grammar): NameBindings {
   if (grammar.nameSets.length === 0) return {};
   const dir = dirname(grammar.file);
   const json = join(dir, 'samples', 'names.json');
-  if (existsSync(json)) return loadNames(json);
+  if (existsSync(json)) return loadNames(json, grammar); // the object form (kinds) is read with the grammar
   const sql = readdirSync(dir).find((f) => f.endsWith('.sql'));
   if (sql) {
     const db = openDatabaseFile(join(dir, sql));
