@@ -28,17 +28,19 @@
  * with `execQueued` waiting (2 and 16) — beyond that 503 at once, never an unbounded queue. Request
  * bodies and trees nest at most 500 deep, programs within the parser's nesting limit
  * (src/util/depth.ts). Executors are bound by the operator (registry.ts), never by a grammar name. Every error is JSON `{error: {code, message, location?}}`, the location a `file:line:col`
- * or a JSON path into the request body. Checked descriptions are compiled in a worker thread
- * (checker.ts; 10 s limit → 504, 64 KiB text limit) and cached by content hash (64 most recent).
+ * or a JSON path into the request body. Every request's compile work (descriptions, names,
+ * parsers, parsing, printing, mask tables) runs in compile workers (compiler.ts: 2 threads, 10 s
+ * per job → 504, 512 MB heap each → 422); checked descriptions (64 KiB text limit) are cached by
+ * content hash (64 most recent).
  * Binds 127.0.0.1 unless told otherwise.
  *
  * Start-up: loads every model, compiles every grammar and the mask tables of every model × grammar
- * pair (measured: 0.06–0.7 s per pair for the demo model's 1,100 tokens on the shared machine),
+ * pair (on the main thread for decoding, and in each compile worker before it takes jobs) (measured: 0.06–0.7 s per pair for the demo model's 1,100 tokens on the shared machine),
  * and builds the demo database when no --db is given.
  *
  * Worst-case cost: a decode request costs what decode/ costs (model steps × mask fills), plus
  * with `steps` one more mask fill per token; the other routes are linear in their input (parse is
- * ohm's O(n · rules)). Decoding runs on the main thread between onnxruntime calls, so at most about
+ * ohm's O(n · rules), in a worker). Decoding runs on the main thread between onnxruntime calls, so at most about
  * one request per core makes progress; the gate keeps the rest waiting in a bounded queue.
  */
 import type { FastifyInstance } from 'fastify';

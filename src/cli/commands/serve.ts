@@ -4,7 +4,7 @@
  * SIGTERM. Grammars default to the four shipped ones, models to models/coop when it holds an ONNX
  * export, the database to the demo cooperative (built from grammars/sql/coop.sql into a temporary
  * folder). Limits: --body-limit BYTES, --time-limit MS, --max-active N, --max-queued N, --exec-active N,
- * --exec-queued N. Executors: --bind-executor KIND=GRAMMAR, --checked-executors. Prints one
+ * --exec-queued N, --compile-limit MS, --compile-workers N, --compile-memory MB. Executors: --bind-executor KIND=GRAMMAR, --checked-executors. Prints one
  * line `listening on http://HOST:PORT/` on stdout when ready; errors (naming the file) on stderr,
  * exit 1.
  */
@@ -28,6 +28,9 @@ interface Flags {
   checkedExecutors?: boolean;
   execActive?: number;
   execQueued?: number;
+  compileLimit?: number;
+  compileWorkers?: number;
+  compileMemory?: number;
 }
 
 export const register: RegisterCommand = (program: Command, setExit) => {
@@ -49,6 +52,9 @@ export const register: RegisterCommand = (program: Command, setExit) => {
     .option('--checked-executors', 'let descriptions checked through /api/check run with the executor of the startup grammar of the same name (default: they get none)')
     .addOption(new Option('--exec-active <n>', 'executor runs (SQL, LF) at once, apart from the model slots (default 2)').argParser(integer(1)))
     .addOption(new Option('--exec-queued <n>', 'executor runs waiting before answering 503 (default 16)').argParser(integer(0)))
+    .addOption(new Option('--compile-limit <ms>', "time limit of one compile-worker job: a description checked, a program parsed, mask tables built (default 10000)").argParser(integer(1)))
+    .addOption(new Option('--compile-workers <n>', 'worker threads doing every request\'s compile work (default 2)').argParser(integer(1, 64)))
+    .addOption(new Option('--compile-memory <mb>', 'V8 heap limit of each compile worker in MB (default 512)').argParser(integer(64)))
     .action((f: Flags) =>
       runCommand(setExit, async () => {
         const { startServer } = await import('../../server/index.ts');
@@ -70,6 +76,9 @@ export const register: RegisterCommand = (program: Command, setExit) => {
             checkedExecutors: f.checkedExecutors,
             execActive: f.execActive,
             execQueued: f.execQueued,
+            checkTimeoutMs: f.compileLimit,
+            compileWorkers: f.compileWorkers,
+            compileMemoryMb: f.compileMemory,
           });
         } catch (e) {
           const err = e as NodeJS.ErrnoException;
