@@ -33,7 +33,7 @@
  * clause, a field that is both a scope role (`enter` / `known`) and kinded.
  */
 import type { Grammar } from '../description/ir.ts';
-import { bindNames, meetKinds, type BoundFamily, type BoundNames } from '../tree/bound.ts';
+import { bindNames, meetKinds, type BoundFamily, type BoundNames } from '../description/bound.ts';
 import { FIELD_STRIDE, type Rtn } from './cfg.ts';
 import type { ByteDfa } from './regex.ts';
 import { ALLOWED, LIVE, type Filter } from './scopes.ts';

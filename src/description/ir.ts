@@ -292,7 +292,7 @@ export const NAME_FACTS: unique symbol = Symbol.for('treewright.nameFacts');
 
 /**
  * What is bound with the members, by name, as read from a names file or a database (checked and
- * turned into integer ids against a grammar by tree/bound.ts).
+ * turned into integer ids against a grammar by description/bound.ts).
  */
 export interface NameFacts {
   /** set → member → the owner-set members it belongs to (sets declared `in Owner`) */

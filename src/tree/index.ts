@@ -40,5 +40,5 @@ export { sampleTree, createSampler, SampleError, type Sampler, type SampleOption
 export { toJsonSchema } from './schema.ts';
 export { resolveTree, locateIssue, type ResolveIssue } from './resolve.ts';
 export { loadNames, namesFromDatabase, namesFromJson, checkNames, mergeNames, withFacts, NamesError } from './names.ts';
-export { bindNames, meetKinds, type BoundNames, type BoundSet, type BoundFamily } from './bound.ts';
+export { bindNames, meetKinds, type BoundNames, type BoundSet, type BoundFamily } from '../description/bound.ts';
 export { valueToLexeme, lexemeToValue } from './lexeme.ts';

@@ -17,7 +17,7 @@ import type Database from 'better-sqlite3';
 import type { Grammar, NameBindings, NameFacts, NameSet } from '../description/ir.ts';
 import { NAME_FACTS } from '../description/ir.ts';
 import { sqlite } from '../util/optional.ts';
-import { bindNames, NamesError } from './bound.ts';
+import { bindNames, NamesError } from '../description/bound.ts';
 
 export { NamesError };
 import { grammarInfo } from './info.ts';

@@ -25,7 +25,7 @@
  * Cost: O(nodes + references × scope depth × owners per member), plus near-constant union–find.
  */
 import type { Constructor, Field, Grammar, NameBindings, Span } from '../description/ir.ts';
-import { bindNames, meetKinds, type BoundNames, type BoundSet } from './bound.ts';
+import { bindNames, meetKinds, type BoundNames, type BoundSet } from '../description/bound.ts';
 import type { Tree, TreeValue } from './node.ts';
 
 export interface ResolveIssue {

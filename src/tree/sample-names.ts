@@ -13,7 +13,7 @@
  * Cost: O(nodes + holes × members × slots) per attempt.
  */
 import type { Field, Grammar } from '../description/ir.ts';
-import type { BoundNames, BoundSet } from './bound.ts';
+import type { BoundNames, BoundSet } from '../description/bound.ts';
 import { kindHoles } from './resolve.ts';
 import type { Tree, TreeValue } from './validate.ts';
 

@@ -30,7 +30,7 @@
 import type { Constructor, Field, Grammar, NameBindings } from '../description/ir.ts';
 import { grammarInfo, type GrammarInfo, type TokenInfo } from './info.ts';
 import { lexemeToValue, nameSpellingProblem, tokenValueProblem, type TokenValue } from './lexeme.ts';
-import { bindNames } from './bound.ts';
+import { bindNames } from '../description/bound.ts';
 import { generate } from './regex.ts';
 import { resolveTree } from './resolve.ts';
 import { fillNames } from './sample-names.ts';

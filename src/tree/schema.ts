@@ -17,7 +17,7 @@
  * validators evaluate with the `u` flag.
  */
 import type { Constructor, Field, Grammar, NameBindings } from '../description/ir.ts';
-import { bindNames } from './bound.ts';
+import { bindNames } from '../description/bound.ts';
 import { grammarInfo } from './info.ts';
 import { firstChars, setHas } from './regex.ts';
 

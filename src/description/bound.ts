@@ -16,8 +16,8 @@
  * accepts any spelling of its token class; a set `in Owner` bound without owners has every member
  * resolve without an owner (membership only); a member without kinds is unconstrained (-1).
  */
-import type { Grammar, KindFamily, NameBindings, NameSet } from '../description/ir.ts';
-import { NAME_FACTS } from '../description/ir.ts';
+import type { Grammar, KindFamily, NameBindings, NameSet } from './ir.ts';
+import { NAME_FACTS } from './ir.ts';
 
 /**
  * A names file or database that cannot be used; `message` names the file and the JSON path
